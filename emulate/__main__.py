@@ -1,0 +1,5 @@
+"""Run the command-line tool as ``python -m emulate``."""
+
+from emulate.cli import main
+
+main()
