@@ -1,0 +1,283 @@
+"""Nodal analysis of linear R-C networks with ideal controlled sources.
+
+A :class:`Circuit` is a netlist of resistors, capacitors, potentiometers and
+voltage-controlled voltage sources (an ideal unity-gain follower is one with gain
+1), driven by one voltage source with an output resistance. Modified nodal
+analysis (MNA) writes it as ``(G + s C) x = b u`` and the output as ``y = l x``,
+so the transfer function from the source's open-circuit voltage ``u`` to a node
+voltage ``y`` is ``H(s) = l (G + s C)^-1 b``.
+
+Zeros, poles and gain come from generalized eigenvalue problems, never from
+polynomial roots (which are ill-conditioned for these coefficient scales):
+
+* poles are the finite eigenvalues of the pencil ``(-G, C)``;
+* zeros are the finite eigenvalues of the Rosenbrock system pencil
+  ``(-[[G, b], [l, 0]], [[C, 0], [0, 0]])``;
+* the gain follows from one exact evaluation of ``H`` at a test point.
+
+The pencils are scaled to unit conductance and unit frequency first. Pole-zero
+pairs that cancel (uncontrollable or unobservable modes) are removed.
+
+Element values may be arrays of one common length (a batch of builds, as a
+Monte Carlo draw); :meth:`Circuit.response` then returns one row per build.
+Nothing here knows about twin-T networks; see :mod:`emulate.networks`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.linalg
+
+from emulate.errors import CircuitError
+
+GROUND = "gnd"
+SOURCE = "src"
+_CANCEL_RTOL = 1e-6
+_FINITE_RTOL = 1e-9
+
+
+@dataclass
+class _Element:
+    kind: str
+    nodes: tuple[str, ...]
+    value: object
+
+
+@dataclass
+class Circuit:
+    """A netlist driven from node ``"src"``, an ideal voltage source.
+
+    Node ``"gnd"`` is the reference. :meth:`drive` connects the source through
+    its output resistance to the first node of the network.
+
+    Example
+    -------
+    >>> c = Circuit()
+    >>> c.drive("in", ohms=0.0)
+    >>> c.resistor("in", "out", 1e3)
+    >>> c.capacitor("out", "gnd", 1e-6)
+    >>> z, p, k = c.transfer_zpk("out")
+    >>> round(-p[0].real, 3)
+    1000.0
+    """
+
+    elements: list[_Element] = field(default_factory=list)
+
+    # --- building -------------------------------------------------------
+    def drive(self, node: str, ohms: float = 0.0) -> None:
+        """Connect the source to ``node`` through ``ohms`` of output resistance (0 = ideal)."""
+        if np.all(np.asarray(ohms) == 0):
+            self.elements.append(_Element("short", (SOURCE, node), None))
+        else:
+            self.resistor(SOURCE, node, ohms)
+
+    def resistor(self, a: str, b: str, ohms) -> None:
+        """Add a resistor of ``ohms`` (> 0) between nodes ``a`` and ``b``."""
+        self.elements.append(_Element("R", (a, b), _positive(ohms, "resistance (ohms)")))
+
+    def capacitor(self, a: str, b: str, farads) -> None:
+        """Add a capacitor of ``farads`` (> 0) between nodes ``a`` and ``b``."""
+        self.elements.append(_Element("C", (a, b), _positive(farads, "capacitance (farads)")))
+
+    def vcvs(self, out: str, ref: str, ctrl: str, ctrl_ref: str, gain) -> None:
+        """Add an ideal source: ``V(out) - V(ref) = gain * (V(ctrl) - V(ctrl_ref))``."""
+        self.elements.append(_Element("E", (out, ref, ctrl, ctrl_ref), np.asarray(gain, float)))
+
+    def follower(self, inp: str, out: str, gain=1.0) -> None:
+        """Add an ideal buffer: ``V(out) = gain * V(inp)``, infinite input impedance."""
+        self.vcvs(out, GROUND, inp, GROUND, gain)
+
+    def potentiometer(self, end_a: str, end_b: str, wiper: str, ohms, position) -> None:
+        """Add a linear potentiometer of track ``ohms`` with its wiper at ``position``.
+
+        ``position`` runs from 0 (wiper at ``end_a``) to 1 (wiper at ``end_b``).
+        Each end keeps 1 ppm of the track as end resistance so that the
+        extreme positions stay finite.
+        """
+        position = np.asarray(position, float)
+        if np.any((position < 0) | (position > 1)):
+            raise CircuitError(f"potentiometer position {position}: allowed 0 to 1")
+        ohms = _positive(ohms, "potentiometer track (ohms)")
+        end = 1e-6 * ohms
+        self.resistor(end_a, wiper, end + ohms * position)
+        self.resistor(wiper, end_b, end + ohms * (1 - position))
+
+    # --- analysis -------------------------------------------------------
+    def matrices(self, output: str):
+        """Return MNA ``(G, C, b, l)``; ``G`` and ``C`` have shape ``(builds, n, n)``."""
+        return _Assembly(self).matrices(output)
+
+    def response(self, f_hz, output: str) -> np.ndarray:
+        """Exact complex response from the source voltage to ``output`` at ``f_hz``.
+
+        Returns shape ``(len(f_hz),)`` for scalar part values and 1-D ``f_hz``,
+        else ``(builds, frequencies)``; a 2-D ``f_hz`` gives each build its own
+        frequencies. Solves the nodal equations at each frequency; no
+        rational approximation.
+        """
+        g, c, b, l = self.matrices(output)
+        f_hz = np.asarray(f_hz, float)
+        s = 2j * np.pi * np.atleast_2d(f_hz)
+        system = g[:, None] + s[..., None, None] * c[:, None]
+        rhs = np.broadcast_to(b, system.shape[:-1])[..., None]
+        try:
+            x = np.linalg.solve(system, rhs)[..., 0]
+        except np.linalg.LinAlgError:
+            raise CircuitError("the network equations are singular: a node floats") from None
+        h = x @ l
+        return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
+
+    def transfer_zpk(self, output: str):
+        """Zeros, poles (rad/s) and gain from the source voltage to ``output``.
+
+        Only for scalar part values. Raises :class:`CircuitError` when the network
+        does not conduct from source to output or its equations are singular.
+        """
+        g, c, b, l = (m[0] if m.ndim == 3 else m for m in self.matrices(output))
+        if g.ndim != 2:
+            raise CircuitError("transfer_zpk needs scalar part values, not a batch")
+        g_ref = np.max(np.abs(g))
+        w_ref = g_ref / max(np.max(np.abs(c)), 1e-300)
+        gs, cs = g / g_ref, c * (w_ref / g_ref)
+        poles = _finite_eigenvalues(-gs, cs)
+        n = len(b)
+        system_a = np.block([[gs, b[:, None]], [l[None, :], np.zeros((1, 1))]])
+        system_b = np.zeros((n + 1, n + 1))
+        system_b[:n, :n] = cs
+        zeros = _finite_eigenvalues(-system_a, system_b)
+        zeros, poles = _cancel_common(zeros, poles)
+        zeros, poles = zeros * w_ref, poles * w_ref
+        gain = _gain_at_test_point(self, output, zeros, poles, w_ref)
+        return zeros, poles, gain
+
+
+class _Assembly:
+    """Stamps a :class:`Circuit` into MNA matrices (one concept: the bookkeeping)."""
+
+    def __init__(self, circuit: Circuit):
+        self.circuit = circuit
+        self.index = self._number_nodes()
+        self.sources = [e for e in circuit.elements if e.kind in ("E", "short")]
+        self.builds = self._batch_length()
+
+    def _number_nodes(self) -> dict[str, int]:
+        index: dict[str, int] = {}
+        for element in self.circuit.elements:
+            for node in element.nodes:
+                if node != GROUND and node not in index:
+                    index[node] = len(index)
+        if SOURCE not in index:
+            raise CircuitError("the circuit has no source: call drive(node, ohms) first")
+        return index
+
+    def _batch_length(self) -> int:
+        lengths = {np.size(e.value) for e in self.circuit.elements if e.value is not None}
+        lengths.discard(1)
+        if len(lengths) > 1:
+            raise CircuitError(f"batched part values have different lengths {sorted(lengths)}")
+        return lengths.pop() if lengths else 1
+
+    def matrices(self, output: str):
+        if output not in self.index:
+            raise CircuitError(f"output node '{output}' is not in the circuit")
+        nodes, n_src = len(self.index), len(self.sources) + 1
+        size = nodes + n_src
+        g = np.zeros((self.builds, size, size))
+        c = np.zeros((self.builds, size, size))
+        for element in self.circuit.elements:
+            if element.kind == "R":
+                self._stamp_admittance(g, element.nodes, 1.0 / _batch(element.value))
+            elif element.kind == "C":
+                self._stamp_admittance(c, element.nodes, _batch(element.value))
+        self._stamp_sources(g, nodes)
+        b = np.zeros(size)
+        b[nodes] = 1.0  # the input source row: V(src) = u
+        l = np.zeros(size)
+        l[self.index[output]] = 1.0
+        return g, c, b, l
+
+    def _stamp_admittance(self, m, nodes, y) -> None:
+        a, b = (self.index.get(node) for node in nodes)
+        for i, j, sign in ((a, a, 1), (b, b, 1), (a, b, -1), (b, a, -1)):
+            if i is not None and j is not None:
+                m[:, i, j] += sign * y
+
+    def _stamp_sources(self, g, nodes: int) -> None:
+        self._stamp_branch(g, nodes, SOURCE, GROUND, ())
+        for row, element in enumerate(self.sources, start=nodes + 1):
+            if element.kind == "short":
+                self._stamp_branch(g, row, *element.nodes, ())
+            else:
+                out, ref, ctrl, ctrl_ref = element.nodes
+                gain = _batch(element.value)
+                self._stamp_branch(g, row, out, ref, ((ctrl, -gain), (ctrl_ref, gain)))
+
+    def _stamp_branch(self, g, row, plus, minus, controls) -> None:
+        """A voltage branch plus-minus with current unknown ``row``: V+ - V- + sum(k V) = rhs."""
+        for node, sign in ((plus, 1.0), (minus, -1.0)):
+            i = self.index.get(node)
+            if i is not None:
+                g[:, i, row] += sign
+                g[:, row, i] += sign
+        for node, gain in controls:
+            i = self.index.get(node)
+            if i is not None:
+                g[:, row, i] += gain
+
+
+def _batch(value) -> np.ndarray:
+    return np.atleast_1d(np.asarray(value, float))
+
+
+def _positive(value, what: str):
+    array = np.asarray(value, float)
+    if not np.all(np.isfinite(array)) or np.any(array <= 0):
+        raise CircuitError(f"{what} {value!r}: must be finite and greater than 0")
+    return array
+
+
+def _finite_eigenvalues(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Finite generalized eigenvalues of ``a v = lambda b v`` (pencil scaled to ~1)."""
+    try:
+        alpha, beta = scipy.linalg.eig(a, b, right=False, homogeneous_eigvals=True)
+    except (np.linalg.LinAlgError, ValueError) as exc:
+        raise CircuitError(f"the network equations are singular ({exc})") from None
+    scale = max(np.max(np.abs(alpha)), 1.0)
+    finite = np.abs(beta) > _FINITE_RTOL * np.abs(alpha)
+    finite &= np.abs(alpha) < scale / _FINITE_RTOL
+    return _tidy(alpha[finite] / beta[finite])
+
+
+def _tidy(roots: np.ndarray) -> np.ndarray:
+    """Snap numerically real roots to the real axis and pair conjugates exactly."""
+    roots = np.asarray(roots, complex)
+    scale = np.maximum(np.abs(roots), 1e-300)
+    roots = np.where(np.abs(roots.imag) < 1e-10 * scale, roots.real + 0j, roots)
+    roots = np.where(np.abs(roots.real) < 1e-12 * scale, 1j * roots.imag, roots)
+    return np.sort_complex(roots)
+
+
+def _cancel_common(zeros: np.ndarray, poles: np.ndarray):
+    """Remove pole-zero pairs that coincide (modes the output cannot see)."""
+    zeros, poles = list(zeros), list(poles)
+    for z in list(zeros):
+        if not poles:
+            break
+        distance = [abs(z - p) for p in poles]
+        j = int(np.argmin(distance))
+        if distance[j] <= _CANCEL_RTOL * max(abs(z), abs(poles[j]), 1e-12):
+            zeros.remove(z)
+            poles.pop(j)
+    return _tidy(np.array(zeros, complex)), _tidy(np.array(poles, complex))
+
+
+def _gain_at_test_point(circuit: Circuit, output, zeros, poles, w_ref) -> float:
+    f_test = 0.37 * w_ref / (2 * np.pi)
+    h = circuit.response([f_test], output)[0]
+    s = 2j * np.pi * f_test
+    if h == 0:
+        raise CircuitError(f"no signal reaches node '{output}' from the source")
+    k = h * np.prod(s - poles) / np.prod(s - zeros)
+    return float(k.real)
