@@ -1,0 +1,668 @@
+"""Audio files: streaming blocks, sample-format keeping, TPDF dither, clip report, atomic writes.
+
+Everything goes through libsndfile (the ``soundfile`` package), so WAV, FLAC, AIFF and
+every other container libsndfile reads are accepted. Audio is always handled as
+float64 arrays of shape ``(frames, channels)``, one block at a time, so memory stays
+bounded whatever the file length.
+
+:func:`render_file` reads top to bottom as its stages:
+
+1. check    IN is readable; OUT is not IN, its folder exists and is writable, its
+            extension names a container libsndfile writes, and the container holds
+            the subtype (kept from IN unless one is asked for). Nothing is processed
+            before all of this passes.
+2. read     float64 blocks from libsndfile; float input is checked for NaN/Inf.
+3. process  ``processor.process(block)``; the processor's latency is compensated by
+            feeding ``latency_samples`` frames of zeros after the input and dropping
+            the first ``latency_samples`` output frames, so OUT lines up with IN
+            sample for sample and has exactly its length.
+4. measure  peak level, samples over full scale.
+5. encode   integer PCM: scale to codes, TPDF dither for 8/16-bit, explicit clip to
+            the code range (counted); float PCM: written as is (never clipped).
+6. write    into a hidden temporary file beside OUT, moved onto OUT with
+            :func:`os.replace` at the end; removed on any error or Ctrl-C.
+
+Sample scaling is libsndfile's read convention in both directions: an N-bit code ``c``
+is the value ``c / 2**(N-1)``, so 0 dBFS is 1.0, the largest positive code is
+``1 - 2**-(N-1)`` and the smallest is exactly -1.0. Integer codes are computed here and
+handed to libsndfile as int16/int32 (exact), because libsndfile's own float-to-int
+conversion scales by ``2**(N-1) - 1`` and so does not round-trip its reads.
+
+An existing OUT that is not IN is replaced, atomically (readers see the old file or
+the new one, never a partial one). IN is never written.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import secrets
+import time
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from dataclasses import asdict, dataclass
+from pathlib import Path
+
+import numpy as np
+import soundfile as sf
+
+from emulate.errors import AudioFileError, BadValueError, EmulateError
+
+__all__ = [
+    "AudioInfo",
+    "RenderReport",
+    "read_info",
+    "iter_blocks",
+    "render_file",
+    "copy_file",
+    "output_format",
+]
+
+DEFAULT_BLOCK_FRAMES = 65536
+MAX_BLOCK_FRAMES = 1 << 20
+_EXTENSION_ALIASES = {"aif": "AIFF", "aifc": "AIFF"}
+_PCM_BITS = {"PCM_S8": 8, "PCM_U8": 8, "PCM_16": 16, "PCM_24": 24, "PCM_32": 32}
+_FLOAT_SUBTYPES = frozenset({"FLOAT", "DOUBLE"})
+_DITHER_MAX_BITS = 16
+
+
+# --- results ------------------------------------------------------------------------
+@dataclass(frozen=True)
+class AudioInfo:
+    """What libsndfile reports about an audio file.
+
+    Attributes
+    ----------
+    path : str
+        The file as given.
+    frames : int
+        Sample frames per channel (>= 1).
+    samplerate : int
+        Sample rate in Hz.
+    channels : int
+        Number of channels.
+    format : str
+        libsndfile container name, e.g. ``"WAV"``, ``"FLAC"``, ``"AIFF"``.
+    subtype : str
+        libsndfile sample format, e.g. ``"PCM_16"``, ``"PCM_24"``, ``"FLOAT"``.
+    duration_s : float
+        ``frames / samplerate`` in seconds.
+    """
+
+    path: str
+    frames: int
+    samplerate: int
+    channels: int
+    format: str
+    subtype: str
+    duration_s: float
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready dict of the fields."""
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class RenderReport:
+    """What :func:`render_file` or :func:`copy_file` wrote.
+
+    Attributes
+    ----------
+    in_path, out_path : str
+        Source and written file.
+    frames, samplerate, channels : int
+        Frames per channel, rate in Hz and channels of OUT (the same as IN).
+    format, subtype : str
+        libsndfile container and sample format of OUT.
+    latency_samples : int
+        Processor latency that was compensated (0 for a copy).
+    peak_dbfs : float
+        Peak sample level of the processed signal before encoding, in dBFS
+        (``-inf`` for digital silence).
+    clipped_samples : int
+        Integer PCM (and lossy codecs): samples whose nearest code lay outside the code
+        range, clipped to the largest/smallest code. Always 0 for FLOAT/DOUBLE.
+    over_full_scale_samples : int
+        FLOAT/DOUBLE output: samples with ``|x| > 1.0``, written unclipped. 0 otherwise.
+    dithered : bool
+        Whether TPDF dither was added (8- and 16-bit integer PCM when rendering).
+    elapsed_s : float
+        Wall-clock seconds for the whole call.
+    """
+
+    in_path: str
+    out_path: str
+    frames: int
+    samplerate: int
+    channels: int
+    format: str
+    subtype: str
+    latency_samples: int
+    peak_dbfs: float
+    clipped_samples: int
+    over_full_scale_samples: int
+    dithered: bool
+    elapsed_s: float
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready dict of the fields (``peak_dbfs`` of silence becomes None)."""
+        d = asdict(self)
+        if not math.isfinite(d["peak_dbfs"]):
+            d["peak_dbfs"] = None
+        return d
+
+
+# --- validators (one per concept) ------------------------------------------------------
+def _check_block_frames(block_frames) -> int:
+    if (isinstance(block_frames, bool) or not isinstance(block_frames, (int, np.integer))
+            or not 1 <= block_frames <= MAX_BLOCK_FRAMES):
+        raise BadValueError(
+            f"block_frames must be an integer from 1 to {MAX_BLOCK_FRAMES}; got {block_frames!r}")
+    return int(block_frames)
+
+
+def _check_seed(dither_seed) -> int:
+    if isinstance(dither_seed, bool) or not isinstance(dither_seed, (int, np.integer)) \
+            or dither_seed < 0:
+        raise BadValueError(f"dither_seed must be an integer >= 0; got {dither_seed!r}")
+    return int(dither_seed)
+
+
+def _check_processor(processor) -> None:
+    for name in ("prepare", "process"):
+        if not callable(getattr(processor, name, None)):
+            raise BadValueError(
+                f"processor {type(processor).__name__} has no {name}() method; "
+                "allowed: an object with prepare(sample_rate, channels), process(block), "
+                "latency_samples")
+
+
+def _latency(processor) -> int:
+    latency = getattr(processor, "latency_samples", 0)
+    if isinstance(latency, bool) or not isinstance(latency, (int, np.integer)) or latency < 0:
+        raise BadValueError(
+            f"processor latency_samples must be an integer >= 0; got {latency!r}")
+    return int(latency)
+
+
+def output_format(out_path) -> str:
+    """Container libsndfile writes for ``out_path``, from its extension.
+
+    Parameters
+    ----------
+    out_path : str or path-like
+        The output file; only its extension is used (case-insensitive).
+
+    Returns
+    -------
+    str
+        libsndfile format name, e.g. ``"WAV"`` for ``.wav``, ``"AIFF"`` for ``.aif``.
+
+    Raises
+    ------
+    AudioFileError
+        The extension is missing or names no container libsndfile can write.
+
+    Example
+    -------
+    >>> output_format("take1.Flac")
+    'FLAC'
+    """
+    ext = Path(out_path).suffix.lower().lstrip(".")
+    fmt = _EXTENSION_ALIASES.get(ext, ext.upper())
+    if not ext or fmt not in sf.available_formats():
+        allowed = ", ".join(sorted({"." + f.lower() for f in sf.available_formats()}
+                                   | {"." + a for a in _EXTENSION_ALIASES}))
+        raise AudioFileError(
+            f"{out_path}: extension {('.' + ext) if ext else '(none)'!r} is not a container "
+            f"libsndfile can write; allowed: {allowed}")
+    return fmt
+
+
+def _check_subtype(out_path, fmt: str, subtype: str, kept: bool) -> str:
+    subtype = str(subtype).upper()
+    if subtype not in sf.available_subtypes(fmt) or not sf.check_format(fmt, subtype):
+        allowed = ", ".join(sf.available_subtypes(fmt))
+        why = " (kept from IN; pass an explicit subtype)" if kept else ""
+        raise AudioFileError(
+            f"{out_path}: {fmt} cannot hold subtype {subtype}{why}; allowed: {allowed}")
+    return subtype
+
+
+def _check_out_path(in_path, out_path) -> None:
+    src, dst = Path(in_path), Path(out_path)
+    if src.resolve() == dst.resolve() or (dst.exists() and src.exists()
+                                          and os.path.samefile(src, dst)):
+        raise AudioFileError(
+            f"{out_path}: OUT is the same file as IN; allowed: any other path (IN is never "
+            "overwritten)")
+    if dst.is_dir():
+        raise AudioFileError(f"{out_path}: OUT is a folder; allowed: a file path")
+    folder = dst.parent
+    if not folder.is_dir():
+        raise AudioFileError(f"{out_path}: folder {str(folder)!r} does not exist; "
+                             "allowed: a path in an existing folder")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise AudioFileError(f"{out_path}: folder {str(folder)!r} is not writable; "
+                             "allowed: a folder you can write to")
+
+
+# --- reading ----------------------------------------------------------------------------
+def _open_read(path) -> sf.SoundFile:
+    p = Path(path)
+    if not p.exists():
+        raise AudioFileError(f"{path}: no such file")
+    if p.is_dir():
+        raise AudioFileError(f"{path}: is a folder, not an audio file")
+    if p.stat().st_size == 0:
+        raise AudioFileError(f"{path}: empty file (0 bytes)")
+    try:
+        snd = sf.SoundFile(p)
+    except (sf.SoundFileError, OSError) as exc:
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise AudioFileError(
+            f"{path}: not an audio file libsndfile can read ({reason})") from None
+    if snd.frames <= 0:
+        snd.close()
+        raise AudioFileError(f"{path}: holds no audio frames")
+    return snd
+
+
+def read_info(path) -> AudioInfo:
+    """Describe an audio file without reading its samples.
+
+    Parameters
+    ----------
+    path : str or path-like
+        Any file libsndfile reads (WAV, FLAC, AIFF, CAF, OGG, ...).
+
+    Returns
+    -------
+    AudioInfo
+        Frames, rate (Hz), channels, container, subtype, duration (s).
+
+    Raises
+    ------
+    AudioFileError
+        Missing, a folder, empty (0 bytes or 0 frames), or not audio libsndfile reads.
+
+    Example
+    -------
+    >>> import numpy as np, soundfile as sf, tempfile, os
+    >>> p = os.path.join(tempfile.mkdtemp(), "a.wav")
+    >>> sf.write(p, np.zeros((480, 2)), 48000, subtype="PCM_24")
+    >>> read_info(p).duration_s
+    0.01
+    """
+    with _open_read(path) as snd:
+        return AudioInfo(str(path), int(snd.frames), int(snd.samplerate), int(snd.channels),
+                         snd.format, snd.subtype, snd.frames / snd.samplerate)
+
+
+def _check_finite(block: np.ndarray, path, first_frame: int) -> None:
+    # A sum of finite audio is finite unless values near 1e308 overflow; only then (or on
+    # a real NaN/Inf) is the exact per-sample check run.
+    if math.isfinite(block.sum()) or np.isfinite(block).all():
+        return
+    frame, channel = np.argwhere(~np.isfinite(block))[0]
+    raise AudioFileError(
+        f"{path}: sample at frame {first_frame + int(frame)}, channel {int(channel)} is "
+        f"{block[frame, channel]}; allowed: finite samples only (nothing written)")
+
+
+def _read_blocks(snd: sf.SoundFile, path, block_frames: int,
+                 reuse: bool) -> Iterator[np.ndarray]:
+    buf = np.empty((block_frames, snd.channels)) if reuse else None
+    check = snd.subtype not in _PCM_BITS  # integer PCM cannot hold NaN/Inf
+    done = 0
+    while True:
+        block = snd.read(block_frames, dtype="float64", always_2d=True, out=buf)
+        if not len(block):
+            return
+        if check:
+            _check_finite(block, path, done)
+        done += len(block)
+        yield block
+
+
+def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.ndarray]:
+    """Read a file as consecutive float64 ``(frames, channels)`` blocks.
+
+    Memory is bounded by one block. Every block has ``block_frames`` frames except
+    possibly the last. Each yielded array is new (safe to keep).
+
+    Parameters
+    ----------
+    path : str or path-like
+        Audio file libsndfile reads.
+    block_frames : int, optional
+        Frames per block, 1 to 1048576 (default 65536).
+
+    Yields
+    ------
+    numpy.ndarray
+        float64 block, full scale 1.0 (an N-bit code ``c`` reads as ``c / 2**(N-1)``).
+
+    Raises
+    ------
+    AudioFileError
+        The file is unreadable (see :func:`read_info`) or holds NaN/Inf samples.
+    BadValueError
+        ``block_frames`` is outside 1..1048576.
+
+    Example
+    -------
+    >>> import numpy as np, soundfile as sf, tempfile, os
+    >>> p = os.path.join(tempfile.mkdtemp(), "a.flac")
+    >>> sf.write(p, np.zeros((1000, 1)), 44100)
+    >>> [b.shape for b in iter_blocks(p, block_frames=400)]
+    [(400, 1), (400, 1), (200, 1)]
+    """
+    block_frames = _check_block_frames(block_frames)
+    with _open_read(path) as snd:
+        yield from _read_blocks(snd, path, block_frames, reuse=False)
+
+
+# --- processing with latency compensation ------------------------------------------------
+def _zero_blocks(frames: int, channels: int, block_frames: int) -> Iterator[np.ndarray]:
+    while frames > 0:
+        n = min(frames, block_frames)
+        yield np.zeros((n, channels))  # fresh: a processor may work in place
+        frames -= n
+
+
+def _processed(blocks: Iterator[np.ndarray], processor, latency: int, channels: int,
+               block_frames: int, progress) -> Iterator[np.ndarray]:
+    """Input blocks then ``latency`` zeros through the processor; first ``latency`` dropped."""
+    skip = latency
+
+    def feed(block):
+        nonlocal skip
+        out = processor.process(block)
+        if not isinstance(out, np.ndarray) or out.shape != block.shape:
+            raise BadValueError(
+                f"processor returned {getattr(out, 'shape', type(out).__name__)} for a "
+                f"block of shape {block.shape}; allowed: the same (frames, channels) shape")
+        drop = min(skip, len(out))
+        skip -= drop
+        return out[drop:]
+
+    for block in blocks:
+        out = feed(block)
+        if progress is not None:
+            progress(len(block))
+        if len(out):
+            yield out
+    for block in _zero_blocks(latency, channels, block_frames):
+        out = feed(block)
+        if len(out):
+            yield out
+
+
+# --- encoding ----------------------------------------------------------------------------
+class _Encoder:
+    """Float64 blocks -> arrays for libsndfile, with peak, clip and over-scale counts.
+
+    Integer PCM (Lipshitz, Wannamaker & Vanderkooy, "Quantization and Dither: A
+    Theoretical Survey", JAES 40(5), 1992): ``code = rint(x * 2**(N-1) + d)`` with TPDF
+    dither ``d = u1 - u2``, ``u1, u2`` uniform on [0, 1) (triangular on (-1, 1) LSB,
+    variance 1/6 LSB^2), then clipped explicitly to ``[-2**(N-1), 2**(N-1) - 1]``. The
+    dither is drawn from one seeded generator in sample order (frame by frame,
+    channel by channel), so the output does not depend on the block size.
+    """
+
+    def __init__(self, subtype: str, channels: int, block_frames: int, dither: bool,
+                 seed: int):
+        self.bits = _PCM_BITS.get(subtype)
+        self.is_float = subtype in _FLOAT_SUBTYPES
+        self.dither = dither and self.bits is not None and self.bits <= _DITHER_MAX_BITS
+        self.peak = 0.0
+        self.clipped = 0
+        self.over = 0
+        shape = (block_frames, channels)
+        self._scratch = np.empty(shape)
+        if self.bits is not None:
+            self.scale = float(2 ** (self.bits - 1))
+            self.lo, self.hi = -self.scale, self.scale - 1.0
+            # codes go to libsndfile left-aligned in int16/int32, which it truncates exactly
+            container_bits = 16 if self.bits <= 16 else 32
+            self.align = float(2 ** (container_bits - self.bits))
+            self._codes = np.empty(shape, np.int16 if container_bits == 16 else np.int32)
+        if self.dither:
+            self._rng = np.random.Generator(np.random.PCG64(seed))
+            self._uniform = np.empty(shape + (2,))
+
+    def encode(self, y: np.ndarray) -> np.ndarray:
+        """Measure ``y`` and return what to hand libsndfile for this block."""
+        if self.bits is not None:
+            return self._encode_int(y)
+        top, bottom = self._measure(y, 1.0)
+        outside = _count_outside(y, top, bottom, -1.0, _JUST_ABOVE_ONE)
+        if self.is_float:
+            self.over += outside  # float PCM holds values beyond full scale: not clipped
+            return y
+        self.clipped += outside  # lossy codecs: clipped to full scale here, explicitly
+        return np.clip(y, -1.0, 1.0, out=self._scratch[:len(y)])
+
+    def _measure(self, y: np.ndarray, scale: float) -> tuple[float, float]:
+        top, bottom = float(y.max()), float(y.min())
+        if not (math.isfinite(top) and math.isfinite(bottom)):
+            raise EmulateError("the processor produced NaN/Inf samples; nothing written")
+        self.peak = max(self.peak, top / scale, -bottom / scale)
+        return top, bottom
+
+    def _encode_int(self, y: np.ndarray) -> np.ndarray:
+        n = len(y)
+        s = np.multiply(y, self.scale, out=self._scratch[:n])
+        top, bottom = self._measure(s, self.scale)
+        # a sample clips when its nearest code (before dither) is outside the range;
+        # rint rounds half to even, so hi + 0.5 -> hi + 1 (clips), lo - 0.5 -> lo (does not)
+        self.clipped += _count_outside(s, top, bottom, self.lo - 0.5, self.hi + 0.5)
+        if self.dither:
+            u = self._rng.random(out=self._uniform[:n])
+            s += u[..., 0]
+            s -= u[..., 1]
+        np.rint(s, out=s)
+        # dither may push a sample at the largest code one code further: held at the rail
+        np.clip(s, self.lo, self.hi, out=s)
+        if self.align != 1.0:
+            s *= self.align
+        codes = self._codes[:n]
+        np.copyto(codes, s, casting="unsafe")
+        return codes
+
+
+_JUST_ABOVE_ONE = float(np.nextafter(1.0, 2.0))
+
+
+def _count_outside(s: np.ndarray, top: float, bottom: float, lo: float, hi: float) -> int:
+    """Samples with ``s < lo`` or ``s >= hi``; ``top``/``bottom`` (max/min) skip the scan."""
+    count = 0
+    if top >= hi:
+        count += int(np.count_nonzero(s >= hi))
+    if bottom < lo:
+        count += int(np.count_nonzero(s < lo))
+    return count
+
+
+# --- writing -----------------------------------------------------------------------------
+@contextmanager
+def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
+                   channels: int) -> Iterator[sf.SoundFile]:
+    """A SoundFile on a hidden temporary file beside OUT, moved onto OUT on success.
+
+    On any exception (KeyboardInterrupt included) the temporary file is removed and the
+    exception goes on; OUT is untouched.
+    """
+    dst = Path(out_path)
+    tmp = dst.with_name(f".{dst.name}.{secrets.token_hex(6)}.part")
+    try:
+        try:
+            snd = sf.SoundFile(tmp, "w", samplerate, channels, subtype, format=fmt)
+        except (sf.SoundFileError, OSError) as exc:
+            raise AudioFileError(f"{out_path}: cannot write {fmt} {subtype} at {samplerate} Hz, "
+                                 f"{channels} channel(s) ({exc})") from None
+        with snd:
+            yield snd
+        os.replace(tmp, dst)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+
+
+def _stream(in_path, out_path, processor, subtype, block_frames, progress, dither,
+            dither_seed) -> RenderReport:
+    start = time.perf_counter()
+    # 1. check: everything about IN and OUT before any processing
+    block_frames = _check_block_frames(block_frames)
+    dither_seed = _check_seed(dither_seed)
+    if processor is not None:
+        _check_processor(processor)
+    if progress is not None and not callable(progress):
+        raise BadValueError(f"progress must be callable or None; got {progress!r}")
+    _check_out_path(in_path, out_path)
+    fmt = output_format(out_path)
+    with _open_read(in_path) as src:
+        out_subtype = _check_subtype(out_path, fmt, subtype or src.subtype, kept=not subtype)
+        rate, channels = int(src.samplerate), int(src.channels)
+        latency = 0
+        if processor is not None:
+            processor.prepare(rate, channels)
+            latency = _latency(processor)
+        encoder = _Encoder(out_subtype, channels, block_frames, dither, dither_seed)
+        frames = 0
+        with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst:
+            # 2. read
+            blocks = _read_blocks(src, in_path, block_frames, reuse=True)
+            # 3. process (latency compensated)
+            if processor is not None:
+                blocks = _processed(blocks, processor, latency, channels, block_frames,
+                                    progress)
+            for block in blocks:
+                # 4.-5. measure and encode, 6. write
+                dst.write(encoder.encode(block))
+                frames += len(block)
+                if processor is None and progress is not None:
+                    progress(len(block))
+    peak_dbfs = 20.0 * math.log10(encoder.peak) if encoder.peak > 0 else -math.inf
+    return RenderReport(str(in_path), str(out_path), frames, rate, channels, fmt, out_subtype,
+                        latency, peak_dbfs, encoder.clipped, encoder.over, encoder.dither,
+                        time.perf_counter() - start)
+
+
+def render_file(in_path, out_path, processor, *, subtype: str | None = None,
+                block_frames: int = DEFAULT_BLOCK_FRAMES,
+                progress: Callable[[int], object] | None = None,
+                dither_seed: int = 0) -> RenderReport:
+    """Stream IN through ``processor`` into OUT, keeping rate, channels and sample format.
+
+    The processor follows the plugin API: ``prepare(sample_rate, channels)`` is called
+    once, then ``process(block)`` on float64 ``(frames, channels)`` blocks; its
+    ``latency_samples`` (read after ``prepare``) is compensated, so OUT has exactly IN's
+    length and lines up with it. 8- and 16-bit integer output gets TPDF dither (+-1 LSB
+    triangular, from a generator seeded with ``dither_seed``); 24/32-bit and float
+    output get none. Integer output is clipped explicitly to the code range and the
+    clipped samples are counted; float output is never clipped (samples over 0 dBFS are
+    counted). The result does not depend on ``block_frames``. OUT appears complete or
+    not at all; an existing OUT (not IN) is replaced atomically. Does not resample,
+    change channel count, or copy metadata tags.
+
+    Parameters
+    ----------
+    in_path : str or path-like
+        Source audio, any file libsndfile reads.
+    out_path : str or path-like
+        Destination; the container comes from its extension (.wav, .flac, .aiff/.aif,
+        .caf, .w64, .rf64, .ogg, ...).
+    processor : object
+        Has ``prepare(sample_rate, channels)``, ``process(block) -> block`` and
+        ``latency_samples`` (int >= 0; absent means 0).
+    subtype : str, optional
+        libsndfile sample format for OUT ("PCM_16", "PCM_24", "PCM_32", "FLOAT",
+        "DOUBLE", ...); default: IN's subtype.
+    block_frames : int, optional
+        Frames per block, 1 to 1048576 (default 65536). Memory, not output, depends on it.
+    progress : callable, optional
+        Called after each input block with the number of frames finished in that block
+        (an increment, so ``click.progressbar(length=frames).update`` fits).
+    dither_seed : int, optional
+        Seed (>= 0) of the dither generator; the same seed gives the same file.
+
+    Returns
+    -------
+    RenderReport
+        Frames, rate (Hz), channels, container, subtype, latency (samples), peak (dBFS),
+        clipped and over-full-scale sample counts, whether dithered, elapsed seconds.
+
+    Raises
+    ------
+    AudioFileError
+        IN unreadable, missing or empty; IN holds NaN/Inf; OUT is IN; OUT's folder is
+        missing or not writable; OUT's extension is no writable container; the container
+        cannot hold the subtype. Nothing is written in any of these cases.
+    BadValueError
+        ``block_frames``, ``dither_seed``, ``progress`` or the processor (its methods,
+        its latency, the shape of a block it returns) is not as allowed.
+    EmulateError
+        The processor produced NaN/Inf samples (nothing written).
+
+    Example
+    -------
+    >>> import numpy as np, soundfile as sf, tempfile, os
+    >>> class Half:
+    ...     latency_samples = 0
+    ...     def prepare(self, sample_rate, channels): pass
+    ...     def process(self, block): return 0.5 * block
+    >>> d = tempfile.mkdtemp()
+    >>> sf.write(os.path.join(d, "in.wav"), np.full((100, 2), 0.5), 48000, subtype="PCM_24")
+    >>> r = render_file(os.path.join(d, "in.wav"), os.path.join(d, "out.flac"), Half())
+    >>> r.subtype, round(r.peak_dbfs, 2), r.clipped_samples
+    ('PCM_24', -12.04, 0)
+    """
+    if processor is None:
+        raise BadValueError("processor must be given; allowed: an object with prepare(), "
+                            "process(); use copy_file for a plain copy")
+    return _stream(in_path, out_path, processor, subtype, block_frames, progress,
+                   dither=True, dither_seed=dither_seed)
+
+
+def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,
+              progress: Callable[[int], object] | None = None) -> RenderReport:
+    """Stream IN into OUT with no processing, through the same path as :func:`render_file`.
+
+    The reference for render timing. IN's subtype is kept, so the samples are already on
+    the output grid: no dither is added and the copy is sample-exact (for integer PCM,
+    FLOAT and DOUBLE). Same checks, atomic write and replacement rule as
+    :func:`render_file`.
+
+    Parameters
+    ----------
+    in_path, out_path : str or path-like
+        Source and destination (container from OUT's extension).
+    block_frames : int, optional
+        Frames per block, 1 to 1048576 (default 65536).
+    progress : callable, optional
+        As in :func:`render_file`.
+
+    Returns
+    -------
+    RenderReport
+        As :func:`render_file`, with ``latency_samples == 0`` and ``dithered`` False.
+
+    Raises
+    ------
+    AudioFileError
+        As :func:`render_file` (e.g. FLAC OUT for a FLOAT IN: FLAC cannot hold FLOAT).
+    BadValueError
+        ``block_frames`` is outside 1..1048576.
+
+    Example
+    -------
+    >>> import numpy as np, soundfile as sf, tempfile, os
+    >>> d = tempfile.mkdtemp()
+    >>> sf.write(os.path.join(d, "in.wav"), np.zeros((10, 1)), 44100, subtype="PCM_16")
+    >>> copy_file(os.path.join(d, "in.wav"), os.path.join(d, "copy.aif")).format
+    'AIFF'
+    """
+    return _stream(in_path, out_path, None, None, block_frames, progress, dither=False,
+                   dither_seed=0)
