@@ -31,8 +31,14 @@ import numpy as np
 
 from emulate.circuit import GROUND, SOURCE, Circuit
 from emulate.errors import BadValueError
+from emulate.validate import check_range
 
 PART_NAMES = ("r1", "r2", "r3", "c1", "c2", "c3")
+
+
+def part_kind(name: str) -> str:
+    """``"resistance"`` for R1..R3, ``"capacitance"`` for C1..C3."""
+    return "resistance" if name.lower().startswith("r") else "capacitance"
 
 
 @dataclass(frozen=True)
@@ -81,13 +87,13 @@ class TwinT:
     depth_pot_ohms: float | None = None
 
     def __post_init__(self):
-        _check_range("source resistance (ohms)", self.source_ohms, 0.0, math.inf, high_open=True)
-        _check_range("load resistance (ohms)", self.load_ohms, 0.0, math.inf, low_open=True)
+        check_range("source resistance (ohms)", self.source_ohms, 0.0, math.inf, high_open=True)
+        check_range("load resistance (ohms)", self.load_ohms, 0.0, math.inf, low_open=True)
         if self.bootstrap is not None:
-            _check_range("bootstrap K", self.bootstrap, 0.0, 1.0, high_open=True)
-        _check_range("mix", self.mix, 0.0, 1.0)
+            check_range("bootstrap K", self.bootstrap, 0.0, 1.0, high_open=True)
+        check_range("mix", self.mix, 0.0, 1.0)
         if self.depth_pot_ohms is not None:
-            _check_range("depth pot (ohms)", self.depth_pot_ohms, 0.0, math.inf, low_open=True)
+            check_range("depth pot (ohms)", self.depth_pot_ohms, 0.0, math.inf, low_open=True)
 
     # --- construction -------------------------------------------------------
     @classmethod
@@ -99,7 +105,7 @@ class TwinT:
         """
         if (r_ohms is None) == (c_farads is None):
             raise BadValueError("give exactly one of r_ohms and c_farads for a balanced twin-T")
-        _check_range("notch frequency (Hz)", notch_hz, 0.0, math.inf, low_open=True, high_open=True)
+        check_range("notch frequency (Hz)", notch_hz, 0.0, math.inf, low_open=True, high_open=True)
         if r_ohms is None:
             r_ohms = 1.0 / (2 * math.pi * notch_hz * c_farads)
         else:
@@ -180,13 +186,3 @@ class TwinT:
         w0 = 1.0 / np.sqrt(self.r3 * (self.r1 + self.r2) * self.c1 * self.c2)
         return w0 / (2 * np.pi)
 
-
-def _check_range(what, value, low, high, *, low_open=False, high_open=False) -> None:
-    """One validator for every bounded number: shows the value and the allowed range."""
-    array = np.asarray(value, float)
-    below = array <= low if low_open else array < low
-    above = array >= high if high_open else array > high
-    if np.any(np.isnan(array)) or np.any(below) or np.any(above):
-        left = "(" if low_open else "["
-        right = ")" if high_open else "]"
-        raise BadValueError(f"{what} {value!r}: allowed {left}{low:g}, {high:g}{right}")

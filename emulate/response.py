@@ -1,0 +1,193 @@
+"""Notch metrics measured on any response, and rule checks on a twin-T.
+
+The metrics are measured, not taken from textbook formulas: the notch is the
+true minimum of ``|H|`` (grid search, then golden-section refinement in log
+frequency), the band edges are where ``|H|`` falls 3 dB below the passband on
+each side (bisection), and Q = notch / (upper - lower), the usual definition for a
+band-stop (Analog Devices MT-225 uses it for the twin-T).
+
+Every search is vectorised over builds so that :mod:`emulate.tolerance` measures
+thousands of Monte Carlo draws at once with the same code.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from emulate.errors import EmulateWarning
+
+AUDIO_BAND_HZ = (20.0, 20000.0)
+_GOLDEN = (math.sqrt(5) - 1) / 2
+_EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
+_PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
+
+
+@dataclass(frozen=True)
+class NotchMetrics:
+    """What a notch does, source voltage to load voltage.
+
+    Attributes
+    ----------
+    notch_hz : the frequency of the deepest point, Hz.
+    depth_db : the response there, dB (e.g. -92.7).
+    depth_below_passband_db : how far that lies below the passband, dB (positive),
+        against the lower of the two passband gains.
+    lower_hz, upper_hz : the -3 dB edges relative to the passband on each side,
+        Hz (nan where the notch is not 3 dB deep).
+    q : notch_hz / (upper_hz - lower_hz) (nan where the edges do not exist).
+    passband_low_db, passband_high_db : the gain far below and far above the
+        notch, dB (insertion loss from source and load).
+    """
+
+    notch_hz: float
+    depth_db: float
+    depth_below_passband_db: float
+    lower_hz: float
+    upper_hz: float
+    q: float
+    passband_low_db: float
+    passband_high_db: float
+
+    def as_dict(self) -> dict[str, float]:
+        return {name: float(getattr(self, name)) for name in self.__dataclass_fields__}
+
+
+def db(magnitude):
+    """20 log10 of a magnitude, with -inf below 1e-300 rather than a warning."""
+    return 20 * np.log10(np.maximum(np.abs(magnitude), 1e-300))
+
+
+def measure(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) -> NotchMetrics:
+    """Measure the notch of ``response(f_hz) -> complex`` between ``search_hz``.
+
+    Example
+    -------
+    >>> from emulate.networks import TwinT
+    >>> m = measure(TwinT.balanced(1000.0, r_ohms=10e3).response)
+    >>> round(m.notch_hz, 3), round(m.q, 4)
+    (1000.0, 0.25)
+    """
+    return measure_batch(lambda f: np.atleast_2d(response(f)), search_hz=search_hz, points=points)[0]
+
+
+def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) -> list[NotchMetrics]:
+    """Measure many builds at once; ``response(f_hz)`` maps (builds, m) Hz to complex."""
+    notch, depth = find_notch(response, search_hz, points)
+    low = np.abs(_column(response, notch / _PASSBAND_SPAN))
+    high = np.abs(_column(response, notch * _PASSBAND_SPAN))
+    lower = _edge(response, notch, notch / _PASSBAND_SPAN, low)
+    upper = _edge(response, notch, notch * _PASSBAND_SPAN, high)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        q = notch / (upper - lower)
+    below = np.minimum(db(low), db(high)) - depth
+    fields = (notch, depth, below, lower, upper, q, db(low), db(high))
+    return [NotchMetrics(*(float(v[i]) for v in fields)) for i in range(len(notch))]
+
+
+def find_notch(response: Callable, search_hz, points: int):
+    """Frequency (Hz) and depth (dB) of the minimum of ``|H|`` for each build."""
+    grid = np.geomspace(search_hz[0], search_hz[1], points)
+    magnitude = np.abs(response(grid[None, :]))
+    best = np.clip(np.argmin(magnitude, axis=1), 1, points - 2)
+    lo, hi = np.log(grid[best - 1]), np.log(grid[best + 1])
+    # golden-section search on log f: 60 steps shrink the bracket by 3e-13
+    a, b = hi - _GOLDEN * (hi - lo), lo + _GOLDEN * (hi - lo)
+    fa, fb = _magnitude_at(response, a), _magnitude_at(response, b)
+    for _ in range(60):
+        left = fa < fb
+        hi = np.where(left, b, hi)
+        lo = np.where(left, lo, a)
+        a, b = hi - _GOLDEN * (hi - lo), lo + _GOLDEN * (hi - lo)
+        fa, fb = _magnitude_at(response, a), _magnitude_at(response, b)
+    centre = (lo + hi) / 2
+    return np.exp(centre), db(_magnitude_at(response, centre))
+
+
+def _magnitude_at(response, log_f):
+    return np.abs(_column(response, np.exp(log_f)))
+
+
+def _column(response, f_hz):
+    return response(np.asarray(f_hz)[:, None])[:, 0]
+
+
+def _edge(response, notch, far, passband):
+    """Where |H| crosses passband/sqrt(2) between ``notch`` and ``far`` (bisection on log f)."""
+    target = passband * _EDGE_RATIO
+    near_side, far_side = np.log(notch), np.log(far)
+    exists = _magnitude_at(response, near_side) < target
+    for _ in range(60):
+        middle = (near_side + far_side) / 2
+        inside = _magnitude_at(response, middle) < target
+        near_side = np.where(inside, middle, near_side)
+        far_side = np.where(inside, far_side, middle)
+    return np.where(exists, np.exp((near_side + far_side) / 2), np.nan)
+
+
+# --- rule checks ------------------------------------------------------------
+
+UNBALANCE_LIMIT = 1e-3
+LOAD_FACTOR = 10.0
+SOURCE_FACTOR = 0.05
+
+
+def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
+    """Rule checks with the fix; returns warnings (does not issue them).
+
+    * unbalanced ratios (the null condition R1 R2 C3 = R3 (R1+R2)(C1+C2) missed
+      by more than 0.1 %): shallow notch; states the nearest balanced set;
+    * a passive network driving a load under 10 x (R1 + R2);
+    * a source resistance over 5 % of R3: it does not move the null (the null is
+      between the network's input node and its output) but reshapes Q and the
+      passband;
+    * the notch outside 20 Hz - 20 kHz.
+    These thresholds are rules of thumb (common practice, no source).
+    """
+    found = []
+    mismatch = network.null_mismatch()
+    if abs(mismatch) > UNBALANCE_LIMIT:
+        found.append(EmulateWarning(_unbalanced_message(network, mismatch, metrics)))
+    series = network.r1 + network.r2
+    if not network.is_active and network.load_ohms < LOAD_FACTOR * series:
+        found.append(EmulateWarning(
+            f"load {_ohms(network.load_ohms)} is heavy for a network of R1+R2 = {_ohms(series)}: "
+            f"passband {metrics.passband_low_db:.1f} dB low / {metrics.passband_high_db:.1f} dB high; "
+            f"buffer the output or keep the load above {_ohms(LOAD_FACTOR * series)}"))
+    if network.source_ohms > SOURCE_FACTOR * network.r3:
+        found.append(EmulateWarning(
+            f"source {_ohms(network.source_ohms)} is over {SOURCE_FACTOR:.0%} of R3 = {_ohms(network.r3)}: "
+            f"the null stays but Q and the passband change (Q {metrics.q:.3f}); drive the network "
+            "from a buffer or scale the impedance up"))
+    low, high = AUDIO_BAND_HZ
+    if not low <= metrics.notch_hz <= high:
+        found.append(EmulateWarning(
+            f"notch at {metrics.notch_hz:.4g} Hz is outside the audio band {low:g}-{high:g} Hz"))
+    return found
+
+
+def _ohms(value: float) -> str:
+    from emulate.parts import format_value
+
+    return format_value(value, "resistance")
+
+
+def warn_all(found: list[EmulateWarning]) -> None:
+    """Issue each warning through :mod:`warnings` (library callers' route)."""
+    for item in found:
+        warnings.warn(item, stacklevel=2)
+
+
+def _unbalanced_message(network, mismatch, metrics) -> str:
+    from emulate.parts import format_value
+
+    r = (network.r1 + network.r2) / 2
+    c = (network.c1 + network.c2) / 2
+    balanced = (f"R1 = R2 = {format_value(r, 'resistance')}, R3 = {format_value(r / 2, 'resistance')}, "
+                f"C1 = C2 = {format_value(c, 'capacitance')}, C3 = {format_value(2 * c, 'capacitance')}")
+    return (f"unbalanced network: R1*R2*C3 misses R3*(R1+R2)*(C1+C2) by {mismatch:+.1%}, so the "
+            f"notch is only {metrics.depth_below_passband_db:.1f} dB deep; the nearest balanced set is {balanced}")

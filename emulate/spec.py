@@ -1,0 +1,154 @@
+"""How a user writes a circuit down: tables of part values or of a design target.
+
+One layout serves the command-line part options, the circuit file (TOML) and the
+preset files, so a preset is also a valid ``--circuit`` file::
+
+    mix = 0.8                 # optional, 0 (dry) .. 1 (full notch)
+
+    [circuit]                 # either the parts...
+    r1 = "10k"                # ohms, engineering notation or IEC 60062 code
+    r2 = "10k"
+    r3 = "5k"
+    c1 = "10n"                # farads
+    c2 = "10n"
+    c3 = "20n"
+    source = "600"            # optional: source resistance, ohms
+    load = "100k"             # optional: load resistance, ohms
+    bootstrap = 0.8           # optional: K for the active network
+    depth_pot = "100k"        # optional: a real depth pot instead of an ideal mix
+
+    [target]                  # ...or a target to design from
+    notch = "6.3k"            # Hz
+    q = 1.0                   # optional; absent = passive
+    series = "E24"            # optional
+    cap_series = "E12"        # optional
+    impedance = "10k"         # optional
+    capacitor = "10n"         # optional
+
+Given both, ``[circuit]`` is what is analysed and ``[target]`` is kept as the
+record of how it was designed.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from pathlib import Path
+
+from emulate import parts
+from emulate.design import Design, design_twin_t
+from emulate.errors import BadValueError
+from emulate.networks import PART_NAMES, TwinT, part_kind
+
+CIRCUIT_KEYS = PART_NAMES + ("source", "load", "bootstrap", "depth_pot")
+TARGET_KEYS = ("notch", "q", "series", "cap_series", "impedance", "capacitor")
+
+
+def network_from_table(table: dict, *, mix: float = 1.0, where: str = "circuit") -> TwinT:
+    """Build a :class:`TwinT` from a ``[circuit]`` table (values as text or numbers).
+
+    Raises
+    ------
+    BadValueError : a missing part, an unknown key, or a bad value, naming ``where``.
+    """
+    _known_keys(table, CIRCUIT_KEYS, where)
+    missing = [name for name in PART_NAMES if table.get(name) is None]
+    if missing:
+        raise BadValueError(f"{where}: missing {', '.join(m.upper() for m in missing)}; "
+                            "give all of R1, R2, R3, C1, C2, C3")
+    values = {name: _value(table[name], part_kind(name), f"{where}.{name}") for name in PART_NAMES}
+    bootstrap = table.get("bootstrap")
+    depth_pot = table.get("depth_pot")
+    return TwinT(
+        **values,
+        source_ohms=_value(table.get("source"), "resistance", f"{where}.source", default=0.0),
+        load_ohms=_value(table.get("load"), "resistance", f"{where}.load", default=math.inf),
+        bootstrap=None if bootstrap is None else _number(bootstrap, f"{where}.bootstrap"),
+        mix=mix,
+        depth_pot_ohms=None if depth_pot is None else _value(depth_pot, "resistance", f"{where}.depth_pot"),
+    )
+
+
+def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float = math.inf,
+                      where: str = "target") -> Design:
+    """Design from a ``[target]`` table; see :func:`emulate.design.design_twin_t`."""
+    _known_keys(table, TARGET_KEYS, where)
+    if table.get("notch") is None:
+        raise BadValueError(f"{where}: missing notch (Hz), e.g. notch = \"6.3k\"")
+    options = {}
+    if table.get("q") is not None:
+        options["q"] = _number(table["q"], f"{where}.q")
+    for key in ("series", "cap_series"):
+        if table.get(key) is not None:
+            options[key] = str(table[key])
+    if table.get("impedance") is not None:
+        options["impedance_ohms"] = _value(table["impedance"], "resistance", f"{where}.impedance")
+    if table.get("capacitor") is not None:
+        options["capacitor_farads"] = _value(table["capacitor"], "capacitance", f"{where}.capacitor")
+    notch = _value(table["notch"], None, f"{where}.notch")
+    return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
+
+
+def table_from_network(network: TwinT) -> dict:
+    """The ``[circuit]`` table for a network, values as the trade writes them."""
+    table = {name: parts.format_value(value, part_kind(name)) for name, value in network.parts().items()}
+    if network.source_ohms:
+        table["source"] = parts.format_value(network.source_ohms, "resistance")
+    if math.isfinite(network.load_ohms):
+        table["load"] = parts.format_value(network.load_ohms, "resistance")
+    if network.bootstrap is not None:
+        table["bootstrap"] = round(float(network.bootstrap), 6)
+    if network.depth_pot_ohms is not None:
+        table["depth_pot"] = parts.format_value(network.depth_pot_ohms, "resistance")
+    return table
+
+
+def read_circuit_file(path) -> dict:
+    """Read a circuit (or preset) TOML file into a plain dict; one clear error if unreadable."""
+    path = Path(path)
+    try:
+        with path.open("rb") as handle:
+            document = tomllib.load(handle)
+    except FileNotFoundError:
+        raise BadValueError(f"{path}: no such circuit file") from None
+    except (OSError, tomllib.TOMLDecodeError) as exc:
+        raise BadValueError(f"{path}: not a readable TOML circuit file ({exc})") from None
+    if "circuit" not in document and "target" not in document:
+        raise BadValueError(f"{path}: needs a [circuit] table of parts or a [target] table")
+    return document
+
+
+def network_from_document(document: dict, *, where: str, mix: float | None = None) -> TwinT:
+    """The network a circuit document describes: its parts, or the design of its target."""
+    mix = _number(document.get("mix", 1.0), f"{where}: mix") if mix is None else mix
+    if "circuit" in document:
+        return network_from_table(document["circuit"], mix=mix, where=f"{where} [circuit]")
+    design = design_from_table(document["target"], where=f"{where} [target]")
+    return design.built.replace(mix=mix)
+
+
+def _known_keys(table: dict, allowed, where: str) -> None:
+    if not isinstance(table, dict):
+        raise BadValueError(f"{where}: expected a table of values, got {table!r}")
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        raise BadValueError(f"{where}: unknown key(s) {', '.join(unknown)}; allowed: {', '.join(allowed)}")
+
+
+def _value(raw, kind, where: str, default=None) -> float:
+    if raw is None:
+        return default
+    try:
+        return parts.parse_value(raw, kind)
+    except BadValueError as exc:
+        raise BadValueError(f"{where}: {exc}") from None
+
+
+def _number(raw, where: str) -> float:
+    if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
+        raise BadValueError(f"{where}: {raw!r} is not a number")
+    try:
+        return float(raw)
+    except ValueError:
+        raise BadValueError(f"{where}: {raw!r} is not a number") from None
+

@@ -1,0 +1,119 @@
+"""Human-readable text and JSON payloads for what the commands measured.
+
+Only formatting lives here: every number comes from the analysis modules.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from emulate.networks import part_kind
+from emulate.parts import format_value
+from emulate.response import db
+
+# ISO 266 preferred octave-band centres, plus the audio band's ends
+TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
+IDEAL_NULL_DB = -200.0  # deeper than this is an exact null in floating point
+
+
+def network_line(network) -> str:
+    kind = "passive" if not network.is_active else f"active, bootstrap K = {network.bootstrap:.4g}"
+    source = f"{format_value(network.source_ohms, 'resistance')} ohm" if network.source_ohms else "ideal"
+    load = f"{format_value(network.load_ohms, 'resistance')} ohm" if math.isfinite(network.load_ohms) else "none"
+    mix = "" if network.mix == 1.0 else (
+        f", depth pot {format_value(network.depth_pot_ohms, 'resistance')} at {network.mix:.2f}"
+        if network.depth_pot_ohms else f", wet/dry mix {network.mix:.2f}")
+    values = "  ".join(f"{name.upper()} {format_value(v, part_kind(name))}"
+                       for name, v in network.parts().items())
+    return f"twin-T ({kind}), source {source}, load {load}{mix}\n  {values}"
+
+
+def depth_text(metrics) -> str:
+    if metrics.depth_db < IDEAL_NULL_DB:
+        return f"below {IDEAL_NULL_DB:.0f} dB (an exact null)"
+    return f"{metrics.depth_db:.1f} dB ({metrics.depth_below_passband_db:.1f} dB below the passband)"
+
+
+def metrics_lines(metrics) -> list[str]:
+    width = ("not 3 dB deep: no -3 dB band" if math.isnan(metrics.q) else
+             f"-3 dB from {metrics.lower_hz:.1f} Hz to {metrics.upper_hz:.1f} Hz, Q {metrics.q:.3f}")
+    return [
+        f"  notch      {metrics.notch_hz:.2f} Hz",
+        f"  depth      {depth_text(metrics)}",
+        f"  width      {width}",
+        f"  passband   {_signed(metrics.passband_low_db)} dB low, {_signed(metrics.passband_high_db)} dB high",
+    ]
+
+
+def _signed(value_db: float) -> str:
+    """Two decimals without a negative zero."""
+    return f"{value_db:.2f}".replace("-0.00", "0.00")
+
+
+def warning_lines(found) -> list[str]:
+    return [f"  ! {item}" for item in found] or ["  no warnings"]
+
+
+def table_lines(network, notch_hz) -> list[str]:
+    f = np.array(sorted(set(TABLE_HZ) | {round(notch_hz, 2)}))
+    h = network.response(f)
+    rows = ["  f (Hz)      gain (dB)   phase (deg)"]
+    for fi, hi in zip(f, h):
+        mark = "  <- notch" if abs(fi - notch_hz) < 0.01 else ""
+        rows.append(f"  {fi:>9.1f}   {max(db(hi), IDEAL_NULL_DB):>9.2f}   {np.degrees(np.angle(hi)):>9.1f}{mark}")
+    return rows
+
+
+def response_text(network, metrics, found) -> str:
+    lines = [network_line(network), *metrics_lines(metrics), "warnings", *warning_lines(found),
+             *table_lines(network, metrics.notch_hz)]
+    return "\n".join(lines)
+
+
+def _finite(value: float):
+    return float(value) if math.isfinite(value) else None
+
+
+def metrics_payload(network, metrics, found) -> dict:
+    payload = {key: _finite(value) for key, value in metrics.as_dict().items()}
+    payload["warnings"] = [str(item) for item in found]
+    payload["active"] = network.is_active
+    payload["bootstrap"] = network.bootstrap
+    payload["mix"] = network.mix
+    return payload
+
+
+def design_payload(design, found) -> dict:
+    payload = metrics_payload(design.built, design.built_metrics, found)
+    payload.update(
+        target_hz=design.target_hz, target_q=design.target_q, series=design.series,
+        cap_series=design.cap_series, parts=design.parts_as_written(),
+        r3_build=design.r3_build, c3_build=design.c3_build,
+        notch_error_percent=100 * design.notch_error,
+        ideal={"parts": {k.upper(): v for k, v in design.ideal.parts().items()},
+               "notch_hz": design.ideal_metrics.notch_hz, "q": _finite(design.ideal_metrics.q)})
+    return payload
+
+
+def design_text(design, found) -> str:
+    built, ideal = design.built_metrics, design.ideal_metrics
+    q = "passive (Q 0.25)" if design.target_q is None else f"Q {design.target_q:g}"
+    lines = [f"design for a {design.target_hz:.1f} Hz notch, {q}, resistors {design.series}, "
+             f"capacitors {design.cap_series}",
+             "  part   ideal        as built"]
+    written = design.parts_as_written()
+    for name, value in design.ideal.parts().items():
+        build = {"r3": design.r3_build, "c3": design.c3_build}.get(name, written[name.upper()])
+        lines.append(f"  {name.upper():<5}  {format_value(value, part_kind(name), 4):<12} {build}")
+    if design.divider is not None:
+        top, bottom = (format_value(v, "resistance") for v in design.divider)
+        k = design.built.bootstrap
+        lines.append(f"  bootstrap divider: {top} over {bottom} from the output buffer, K = {k:.4f} "
+                     f"(ideal {1 - 1 / (4 * design.target_q):.4f})")
+    lines += ["as built", *metrics_lines(built),
+              f"  error      notch {100 * design.notch_error:+.2f} % from target "
+              f"(ideal parts: {ideal.notch_hz:.2f} Hz, Q {ideal.q:.3f})",
+              "warnings", *warning_lines(found)]
+    return "\n".join(lines)
