@@ -1,0 +1,333 @@
+"""The stateful, block-based notch processor (plugin-style prepare / process / reset).
+
+Per block, top to bottom:
+
+1. validate   shape (frames, channels) with the prepared channel count, finite samples.
+2. wet        cascaded sections of the current design (:func:`emulate.kernels.sos_filter`).
+3. crossfade  after :meth:`NotchProcessor.set_circuit`, the old design keeps running and
+              its output fades linearly into the new one's over the smoothing time.
+4. dry        the input, delayed by the design latency (0 for every current design).
+5. mix        H_mix = (1 - m) + m H, m ramped linearly to its target over the
+              smoothing time (no zipper noise, no clicks).
+
+Every stage is a per-sample recurrence with its state carried across blocks,
+so the output does not depend on the block size.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from emulate import kernels
+from emulate.digital import check_mix, check_sample_rate_hz, design_sections
+from emulate.errors import BadValueError, EmulateError
+
+__all__ = ["NotchProcessor"]
+
+
+def _check_smoothing_ms(smoothing_ms):
+    """Return ``smoothing_ms`` as float if finite and >= 0 ms, else raise BadValueError."""
+    try:
+        value = float(smoothing_ms)
+    except (TypeError, ValueError):
+        raise BadValueError(f"smoothing {smoothing_ms!r} ms is not a number; allowed: >= 0 ms") from None
+    if not (math.isfinite(value) and value >= 0.0):
+        raise BadValueError(f"smoothing {smoothing_ms!r} ms is not allowed; allowed: finite, >= 0 ms")
+    return value
+
+
+def _check_channels(channels):
+    """Return ``channels`` as int if it is an integer >= 1, else raise BadValueError."""
+    if isinstance(channels, bool) or not isinstance(channels, (int, np.integer)) or channels < 1:
+        raise BadValueError(f"channels {channels!r} is not allowed; allowed: an integer >= 1")
+    return int(channels)
+
+
+class _Stage:
+    """One digital design with its per-channel filter state."""
+
+    def __init__(self, design, channels):
+        self.design = design
+        self.state = np.zeros((design.sos.shape[0], channels, 2))
+
+    def run(self, x):
+        out = np.empty_like(x)
+        kernels.sos_filter(self.design.sos, x, self.state, out)
+        return out
+
+
+class NotchProcessor:
+    """Block processor emulating an analog notch with a smoothed wet/dry mix.
+
+    Parameters
+    ----------
+    z, p : array_like
+        Analog zeros and poles in rad/s (scipy convention).
+    k : float
+        Analog gain.
+    notch_hz : float
+        Analog notch frequency in Hz (below Nyquist at the prepared rate).
+    mix : float, optional
+        Wet/dry mix, 0 (dry) to 1 (full notch).
+    smoothing_ms : float, optional
+        Time in ms for mix changes and circuit crossfades, >= 0 (0: jump).
+    tolerance_db : float, optional
+        Fidelity tolerance passed to :func:`emulate.digital.design_sections`, > 0 dB.
+
+    Raises
+    ------
+    BadValueError
+        If ``mix`` or ``smoothing_ms`` is not allowed (the circuit is checked in
+        :meth:`prepare`, when the rate is known).
+
+    Example
+    -------
+    >>> w0 = 2 * np.pi * 6000.0
+    >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=6000)
+    >>> proc.prepare(48000, 2)
+    >>> proc.process(np.zeros((256, 2))).shape
+    (256, 2)
+    """
+
+    def __init__(self, z, p, k, *, notch_hz, mix=1.0, smoothing_ms=20.0, tolerance_db=0.1):
+        self._circuit = (z, p, k, notch_hz)
+        self._mix = check_mix(mix)
+        self._smoothing_ms = _check_smoothing_ms(smoothing_ms)
+        self._tolerance_db = tolerance_db
+        self._fs = None
+        self._channels = None
+        self._stage = None
+        self._old = None  # stage being faded out
+        self._pending = None  # circuit waiting for the current fade to finish
+        self._fade = np.zeros(3)
+        self._mix_ramp = np.array([self._mix, 1.0, self._mix])
+        self._delay = None
+
+    # --- lifecycle -----------------------------------------------------------
+
+    def prepare(self, sample_rate, channels):
+        """Design the sections at ``sample_rate`` Hz for ``channels`` channels and clear all state.
+
+        Parameters
+        ----------
+        sample_rate : float
+            Sample rate in Hz, > 0.
+        channels : int
+            Channel count, >= 1.
+
+        Raises
+        ------
+        BadValueError
+            If the rate, channel count or notch (not below Nyquist) is not allowed.
+        CircuitError
+            If the analog H(s) is improper or unstable.
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
+        >>> proc.prepare(44100, 1); proc.latency_samples
+        0
+        """
+        self._fs = check_sample_rate_hz(sample_rate)
+        self._channels = _check_channels(channels)
+        self._stage = _Stage(self._design(*self._circuit), self._channels)
+        self.reset()
+
+    def reset(self):
+        """Clear filter and delay state, finish any crossfade and jump the mix to its target.
+
+        Raises
+        ------
+        EmulateError
+            If :meth:`prepare` has not been called.
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
+        >>> proc.prepare(44100, 1); proc.reset()
+        """
+        self._require_prepared()
+        if self._pending is not None:
+            self._stage = _Stage(self._design(*self._pending), self._channels)
+            self._pending = None
+        self._old = None
+        self._stage.state[:] = 0.0
+        self._mix_ramp[:] = (self._mix, 1.0, self._mix)
+        latency = self._stage.design.latency_samples
+        self._delay = (np.zeros((latency, self._channels)), np.zeros(1, np.int64)) if latency else None
+
+    # --- properties ----------------------------------------------------------
+
+    @property
+    def latency_samples(self):
+        """int: Latency in samples of the current design (0 before :meth:`prepare`)."""
+        return 0 if self._stage is None else int(self._stage.design.latency_samples)
+
+    @property
+    def fidelity_db(self):
+        """float: Worst |dB| error of the current design against the analog (NaN before :meth:`prepare`)."""
+        return math.nan if self._stage is None else float(self._stage.design.fidelity_db)
+
+    @property
+    def design(self):
+        """DigitalNotch or None: The current digital design."""
+        return None if self._stage is None else self._stage.design
+
+    # --- settings ------------------------------------------------------------
+
+    def set_mix(self, mix):
+        """Move the wet/dry mix to ``mix`` over the smoothing time (linear ramp, no clicks).
+
+        Parameters
+        ----------
+        mix : float
+            0 (dry) to 1 (full notch), endpoints included.
+
+        Raises
+        ------
+        BadValueError
+            If ``mix`` is not in [0, 1].
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
+        >>> proc.set_mix(0.5)
+        """
+        self._mix = check_mix(mix)
+        if self._fs is None:
+            self._mix_ramp[:] = (self._mix, 1.0, self._mix)
+            return
+        distance = abs(self._mix - self._mix_ramp[kernels.RAMP_VALUE])
+        self._mix_ramp[kernels.RAMP_STEP] = max(distance, 1e-12) / self._ramp_samples()
+        self._mix_ramp[kernels.RAMP_TARGET] = self._mix
+
+    def set_circuit(self, z, p, k, notch_hz):
+        """Switch to a new analog circuit, crossfading from the old filter over the smoothing time.
+
+        If a crossfade is still running, the new circuit waits until it ends
+        (the latest request wins).  Before :meth:`prepare`, it just replaces the circuit.
+
+        Parameters
+        ----------
+        z, p : array_like
+            Analog zeros and poles in rad/s.
+        k : float
+            Analog gain.
+        notch_hz : float
+            Analog notch frequency in Hz, below Nyquist.
+
+        Raises
+        ------
+        BadValueError
+            If the notch is not below Nyquist at the prepared rate.
+        CircuitError
+            If the analog H(s) is improper or unstable.
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
+        >>> proc.prepare(44100, 1); proc.set_circuit([2j * w0, -2j * w0], np.roots([1, 8 * w0, 4 * w0 ** 2]), 1.0, 2000)
+        """
+        circuit = (z, p, k, notch_hz)
+        if self._fs is None:
+            self._circuit = circuit
+            return
+        design = self._design(*circuit)  # validate now, whatever happens next
+        self._circuit = circuit
+        if self._old is not None:
+            self._pending = circuit
+            return
+        self._start_fade(design)
+
+    # --- processing ----------------------------------------------------------
+
+    def process(self, block):
+        """Process one block of samples.
+
+        Parameters
+        ----------
+        block : array_like, shape (frames, channels)
+            Float samples, any frames >= 0, the prepared channel count, finite.
+
+        Returns
+        -------
+        ndarray, shape (frames, channels)
+            float64, a new array (the input is not modified).
+
+        Raises
+        ------
+        EmulateError
+            If :meth:`prepare` has not been called.
+        BadValueError
+            If the block is not 2-D with the prepared channel count, or holds NaN/Inf.
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000, mix=0.0)
+        >>> proc.prepare(44100, 1); float(proc.process(np.ones((4, 1)))[3, 0])
+        1.0
+        """
+        x = self._check_block(block)
+        wet = self._stage.run(x)
+        if self._old is not None:
+            kernels.ramp_blend(self._old.run(x), wet, self._fade, wet)
+            if self._fade[kernels.RAMP_VALUE] >= 1.0:
+                self._end_fade()
+        dry = self._dry(x)
+        out = np.empty_like(x)
+        kernels.ramp_blend(dry, wet, self._mix_ramp, out)
+        return out
+
+    # --- helpers -------------------------------------------------------------
+
+    def _design(self, z, p, k, notch_hz):
+        return design_sections(z, p, k, self._fs, notch_hz=notch_hz, tolerance_db=self._tolerance_db)
+
+    def _ramp_samples(self):
+        return max(1.0, round(self._smoothing_ms * 1e-3 * self._fs))
+
+    def _start_fade(self, design):
+        self._old = self._stage
+        self._stage = _Stage(design, self._channels)
+        self._fade[:] = (0.0, 1.0 / self._ramp_samples(), 1.0)
+
+    def _end_fade(self):
+        self._old = None
+        if self._pending is not None:
+            pending, self._pending = self._pending, None
+            self._start_fade(self._design(*pending))
+
+    def _dry(self, x):
+        if self._delay is None:
+            return x
+        out = np.empty_like(x)
+        kernels.delay_line(x, self._delay[0], self._delay[1], out)
+        return out
+
+    def _require_prepared(self):
+        if self._stage is None:
+            raise EmulateError("NotchProcessor is not prepared; call prepare(sample_rate, channels) first")
+
+    def _check_block(self, block):
+        self._require_prepared()
+        x = np.asarray(block)
+        if x.ndim != 2 or x.shape[1] != self._channels:
+            raise BadValueError(
+                f"block shape {x.shape} is not allowed; allowed: (frames, {self._channels}) as prepared"
+            )
+        if not (np.issubdtype(x.dtype, np.floating) or np.issubdtype(x.dtype, np.integer)):
+            raise BadValueError(f"block dtype {x.dtype} is not allowed; allowed: real float samples")
+        x = np.ascontiguousarray(x, dtype=np.float64)
+        if not np.all(np.isfinite(x)):
+            bad = np.argwhere(~np.isfinite(x))[0]
+            raise BadValueError(
+                f"block holds NaN/Inf samples (first at frame {bad[0]}, channel {bad[1]}); allowed: finite samples"
+            )
+        return x
