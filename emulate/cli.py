@@ -14,10 +14,8 @@ import warnings
 
 import click
 
-from emulate import __version__, spec, summary
-from emulate.design import design_twin_t
+from emulate import __version__, audio, emulation, spec, summary
 from emulate.errors import EmulateError, EmulateWarning
-from emulate.parts import parse_value
 from emulate.response import check_twin_t, measure
 
 PART_HELP = {
@@ -78,7 +76,7 @@ def network_from_options(options: dict):
         document = spec.read_circuit_file(options["circuit_file"])
         where = options["circuit_file"]
     else:
-        where = "options"
+        where = ""
     if overrides or "circuit" in document:
         table = dict(document.get("circuit", {})) | overrides
         document = {k: v for k, v in document.items() if k != "target"} | {"circuit": table}
@@ -124,12 +122,10 @@ def response(as_json, **options):
 @json_option
 def design(notch, q, series, cap_series, impedance, capacitor, source, load, as_json):
     """Design a balanced twin-T for a target notch and snap it to preferred values."""
-    result = design_twin_t(
-        parse_value(notch), q=q, series=series, cap_series=cap_series,
-        impedance_ohms=None if impedance is None else parse_value(impedance, "resistance"),
-        capacitor_farads=None if capacitor is None else parse_value(capacitor, "capacitance"),
-        source_ohms=0.0 if source is None else parse_value(source, "resistance"),
-        load_ohms=math.inf if load is None else parse_value(load, "resistance"))
+    target = {"notch": notch, "q": q, "series": series, "cap_series": cap_series,
+              "impedance": impedance, "capacitor": capacitor}
+    surroundings = spec.network_surroundings({"source": source, "load": load})
+    result = spec.design_from_table(target, where="", **surroundings)
     found = check_twin_t(result.built, result.built_metrics)
     _emit(as_json, summary.design_payload(result, found), summary.design_text(result, found))
 
@@ -143,3 +139,43 @@ def run_quietly(function):
         except KeyboardInterrupt:
             raise click.ClickException("interrupted; nothing was written") from None
     return wrapper
+
+
+@main.command()
+@click.argument("in_path", metavar="IN", type=click.Path(dir_okay=False))
+@click.argument("out_path", metavar="OUT", type=click.Path(dir_okay=False))
+@circuit_options
+@click.option("--subtype", help="output sample format (PCM_16, PCM_24, PCM_32, FLOAT); default: keep IN's")
+@click.option("--float", "as_float", is_flag=True, help="write 32-bit float (no clipping, no dither)")
+@json_option
+@run_quietly
+def render(in_path, out_path, subtype, as_float, as_json, **options):
+    """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
+    network = network_from_options(options)
+    processor = emulation.processor_for(network)
+    info = audio.read_info(in_path)
+    with _progress(info.frames, f"rendering {in_path}") as bar:
+        report = audio.render_file(in_path, out_path, processor, progress=bar.update,
+                                   subtype="FLOAT" if as_float else subtype)
+    payload = report.to_dict() | {"fidelity_db": processor.fidelity_db,
+                                  "digital_method": processor.design.method}
+    _emit(as_json, payload, summary.render_text(report, processor))
+
+
+class _NoBar:
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+    def update(self, steps: int) -> None:
+        pass
+
+
+def _progress(length: int, label: str):
+    """A progress bar on stderr when it is a terminal; silent otherwise."""
+    stream = click.get_text_stream("stderr")
+    if not stream.isatty():
+        return _NoBar()
+    return click.progressbar(length=max(length, 1), label=label, file=stream)

@@ -54,19 +54,26 @@ def network_from_table(table: dict, *, mix: float = 1.0, where: str = "circuit")
     _known_keys(table, CIRCUIT_KEYS, where)
     missing = [name for name in PART_NAMES if table.get(name) is None]
     if missing:
-        raise BadValueError(f"{where}: missing {', '.join(m.upper() for m in missing)}; "
+        raise BadValueError(f"{where or 'circuit'}: missing {', '.join(m.upper() for m in missing)}; "
                             "give all of R1, R2, R3, C1, C2, C3")
-    values = {name: _value(table[name], part_kind(name), f"{where}.{name}") for name in PART_NAMES}
+    values = {name: _value(table[name], part_kind(name), _field(where, name)) for name in PART_NAMES}
     bootstrap = table.get("bootstrap")
     depth_pot = table.get("depth_pot")
     return TwinT(
         **values,
-        source_ohms=_value(table.get("source"), "resistance", f"{where}.source", default=0.0),
-        load_ohms=_value(table.get("load"), "resistance", f"{where}.load", default=math.inf),
-        bootstrap=None if bootstrap is None else _number(bootstrap, f"{where}.bootstrap"),
+        **network_surroundings(table, where),
+        bootstrap=None if bootstrap is None else _number(bootstrap, _field(where, "bootstrap")),
         mix=mix,
-        depth_pot_ohms=None if depth_pot is None else _value(depth_pot, "resistance", f"{where}.depth_pot"),
+        depth_pot_ohms=None if depth_pot is None else _value(depth_pot, "resistance", _field(where, "depth_pot")),
     )
+
+
+def network_surroundings(table: dict, where: str = "") -> dict:
+    """``source_ohms`` and ``load_ohms`` from a table's ``source`` and ``load`` (defaults 0, none)."""
+    return {
+        "source_ohms": _value(table.get("source"), "resistance", _field(where, "source"), default=0.0),
+        "load_ohms": _value(table.get("load"), "resistance", _field(where, "load"), default=math.inf),
+    }
 
 
 def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float = math.inf,
@@ -77,15 +84,15 @@ def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float
         raise BadValueError(f"{where}: missing notch (Hz), e.g. notch = \"6.3k\"")
     options = {}
     if table.get("q") is not None:
-        options["q"] = _number(table["q"], f"{where}.q")
+        options["q"] = _number(table["q"], _field(where, "q"))
     for key in ("series", "cap_series"):
         if table.get(key) is not None:
             options[key] = str(table[key])
     if table.get("impedance") is not None:
-        options["impedance_ohms"] = _value(table["impedance"], "resistance", f"{where}.impedance")
+        options["impedance_ohms"] = _value(table["impedance"], "resistance", _field(where, "impedance"))
     if table.get("capacitor") is not None:
-        options["capacitor_farads"] = _value(table["capacitor"], "capacitance", f"{where}.capacitor")
-    notch = _value(table["notch"], None, f"{where}.notch")
+        options["capacitor_farads"] = _value(table["capacitor"], "capacitance", _field(where, "capacitor"))
+    notch = _value(table["notch"], None, _field(where, "notch"))
     return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
 
 
@@ -120,11 +127,19 @@ def read_circuit_file(path) -> dict:
 
 def network_from_document(document: dict, *, where: str, mix: float | None = None) -> TwinT:
     """The network a circuit document describes: its parts, or the design of its target."""
-    mix = _number(document.get("mix", 1.0), f"{where}: mix") if mix is None else mix
+    mix = _number(document.get("mix", 1.0), _field(where, "mix")) if mix is None else mix
     if "circuit" in document:
-        return network_from_table(document["circuit"], mix=mix, where=f"{where} [circuit]")
-    design = design_from_table(document["target"], where=f"{where} [target]")
+        return network_from_table(document["circuit"], mix=mix, where=_table(where, "circuit"))
+    design = design_from_table(document["target"], where=_table(where, "target"))
     return design.built.replace(mix=mix)
+
+
+def _field(where: str, name: str) -> str:
+    return f"{where}.{name}" if where else name
+
+
+def _table(where: str, name: str) -> str:
+    return f"{where} [{name}]" if where else ""
 
 
 def _known_keys(table: dict, allowed, where: str) -> None:

@@ -117,3 +117,21 @@ def design_text(design, found) -> str:
               f"(ideal parts: {ideal.notch_hz:.2f} Hz, Q {ideal.q:.3f})",
               "warnings", *warning_lines(found)]
     return "\n".join(lines)
+
+
+def render_text(report, processor) -> str:
+    """What a render wrote, with the clip count and the emulation's fidelity."""
+    clip = (f"{report.clipped_samples} samples clipped" if report.clipped_samples
+            else "no samples clipped")
+    if report.over_full_scale_samples:
+        clip = f"{report.over_full_scale_samples} samples over 0 dBFS (float, kept unclipped)"
+    peak = "silence" if report.peak_dbfs == float("-inf") else f"{report.peak_dbfs:.2f} dBFS"
+    dither = ", TPDF dither" if report.dithered else ""
+    return "\n".join([
+        f"wrote {report.out_path}: {report.frames} frames, {report.samplerate} Hz, "
+        f"{report.channels} ch, {report.format} {report.subtype}{dither}",
+        f"  peak {peak}; {clip}",
+        f"  emulation: {processor.design.method}, within {processor.fidelity_db:.3f} dB of the "
+        f"analog model over {processor.design.band_hz[0]:.0f}-{processor.design.band_hz[1]:.0f} Hz",
+        f"  took {report.elapsed_s:.2f} s",
+    ])

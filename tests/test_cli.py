@@ -1,0 +1,131 @@
+"""The command line as a user meets it: click's CliRunner, one class per command."""
+
+import json
+
+import numpy as np
+import pytest
+import soundfile as sf
+from click.testing import CliRunner
+
+from emulate.cli import main
+
+BALANCED = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
+
+
+def run(*args):
+    return CliRunner().invoke(main, [str(a) for a in args])
+
+
+def assert_one_line_error(result, match):
+    """Bad input: non-zero exit, one line naming the problem, no traceback."""
+    assert result.exit_code != 0
+    assert result.exception is None or isinstance(result.exception, SystemExit)
+    lines = [line for line in result.output.splitlines() if line.strip()]
+    assert any(match in line for line in lines), result.output
+    assert "Traceback" not in result.output
+
+
+class TestResponse:
+    def test_balanced_notch_matches_mt225(self):
+        # f0 = 1/(2 pi R C) = 1591.549 Hz for 10k/10n (Analog Devices MT-225); the issue asks 0.01 %
+        payload = json.loads(run("response", *BALANCED, "--json").output)
+        assert payload["notch_hz"] == pytest.approx(1591.549430919, rel=1e-4)
+        assert payload["depth_db"] < -80
+        assert payload["q"] == pytest.approx(0.25, rel=1e-6)
+
+    def test_all_equal_parts_give_a_shallow_dip(self):
+        # common practice, no source: all parts 10k/10n give only about -12 dB near 1.6 kHz
+        args = ["--r1", "10k", "--r2", "10k", "--r3", "10k", "--c1", "10n", "--c2", "10n", "--c3", "10n"]
+        payload = json.loads(run("response", *args, "--json").output)
+        assert payload["depth_db"] == pytest.approx(-12.0, abs=0.5)
+        assert 1400 < payload["notch_hz"] < 1800
+        assert any("unbalanced" in w for w in payload["warnings"])
+
+    def test_human_output_has_summary_and_table(self):
+        result = run("response", *BALANCED, "--load", "20k")
+        assert result.exit_code == 0
+        assert "notch      1591.55 Hz" in result.output
+        assert "16000.0" in result.output
+        assert "warning" in result.output and "heavy" in result.output
+
+    def test_circuit_file_and_override(self, tmp_path):
+        path = tmp_path / "proposal.toml"
+        path.write_text('[circuit]\nr1 = "10k"\nr2 = "10k"\nr3 = "5k"\nc1 = "10n"\nc2 = "10n"\nc3 = "20n"\n')
+        base = json.loads(run("response", "--circuit", path, "--json").output)
+        changed = json.loads(run("response", "--circuit", path, "--r3", "10k", "--json").output)
+        assert base["depth_db"] < -80 and changed["depth_db"] > -20
+
+    @pytest.mark.parametrize("args, match", [
+        (["--r1", "-10k"], "r1"),
+        (["--r1", "banana"], "r1"),
+        (["--r3", "0"], "r3"),
+        (["--c1", "10nF", "--r1", "10nF"], "r1"),
+        (["--mix", "1.5"], "mix"),
+        (["--bootstrap", "1.0"], "bootstrap"),
+        (["--load", "0"], "load"),
+    ])
+    def test_bad_values_give_one_line(self, args, match):
+        full = dict(zip(BALANCED[::2], BALANCED[1::2]))
+        full.update(dict(zip(args[::2], args[1::2])))
+        result = run("response", *[x for kv in full.items() for x in kv])
+        assert_one_line_error(result, match)
+
+    def test_missing_parts(self):
+        assert_one_line_error(run("response", "--r1", "10k"), "missing")
+
+    def test_missing_circuit_file(self, tmp_path):
+        assert_one_line_error(run("response", "--circuit", tmp_path / "none.toml"), "no such")
+
+    def test_malformed_circuit_file(self, tmp_path):
+        path = tmp_path / "bad.toml"
+        path.write_text("[circuit\nr1 = ")
+        assert_one_line_error(run("response", "--circuit", path), "TOML")
+
+
+class TestDesign:
+    def test_design_call_shape_from_the_issue(self):
+        payload = json.loads(run("design", "--notch", "6.3k", "--series", "E24", "--json").output)
+        assert set(payload["parts"]) >= {"R1", "R2", "R3", "C1", "C2", "C3"}
+        # E24 steps are about 10 % apart, E12 capacitors 20 %: the best pair lands within a few %
+        assert payload["notch_hz"] == pytest.approx(6300, rel=0.03)
+        assert payload["depth_below_passband_db"] >= 60
+
+    def test_active_design_reaches_q(self):
+        payload = json.loads(run("design", "--notch", "4.5k", "--q", "2", "--json").output)
+        assert payload["q"] == pytest.approx(2.0, rel=0.03)
+        assert "RK_TOP" in payload["parts"]
+
+    @pytest.mark.parametrize("args, match", [
+        (["--notch", "0"], "notch"),
+        (["--notch", "6k", "--q", "0.1"], "Q"),
+        (["--notch", "6k", "--series", "E7"], "E7"),
+    ])
+    def test_bad_targets(self, args, match):
+        assert_one_line_error(run("design", *args), match)
+
+
+class TestRender:
+    def write_take(self, path, frames=4800, rate=48000):
+        x = np.random.default_rng(1).normal(0, 0.1, (frames, 2))
+        sf.write(path, x, rate, subtype="PCM_24")
+        return path
+
+    def test_renders_and_keeps_format(self, tmp_path):
+        take = self.write_take(tmp_path / "take.wav")
+        result = run("render", take, tmp_path / "out.wav", *BALANCED, "--json")
+        assert result.exit_code == 0, result.output
+        payload = json.loads(result.output)
+        assert payload["subtype"] == "PCM_24" and payload["frames"] == 4800
+        assert payload["fidelity_db"] <= 0.1
+
+    def test_refuses_to_overwrite_input(self, tmp_path):
+        take = self.write_take(tmp_path / "take.wav")
+        before = take.read_bytes()
+        assert_one_line_error(run("render", take, take, *BALANCED), "same file")
+        assert take.read_bytes() == before
+
+    def test_notch_above_nyquist(self, tmp_path):
+        take = self.write_take(tmp_path / "take.wav", rate=16000)
+        args = ["--r1", "1k", "--r2", "1k", "--r3", "500", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
+        assert_one_line_error(run("render", take, tmp_path / "o.wav", *args), "Nyquist")
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["take.wav"]
