@@ -60,7 +60,7 @@ __all__ = [
 
 DEFAULT_BLOCK_FRAMES = 65536
 MAX_BLOCK_FRAMES = 1 << 20
-_EXTENSION_ALIASES = {"aif": "AIFF", "aifc": "AIFF"}
+_EXTENSION_ALIASES = {"aif": "AIFF"}
 _PCM_BITS = {"PCM_S8": 8, "PCM_U8": 8, "PCM_16": 16, "PCM_24": 24, "PCM_32": 32}
 _FLOAT_SUBTYPES = frozenset({"FLOAT", "DOUBLE"})
 _DITHER_MAX_BITS = 16
@@ -153,19 +153,14 @@ class RenderReport:
 
 
 # --- validators (one per concept) ------------------------------------------------------
-def _check_block_frames(block_frames) -> int:
-    if (isinstance(block_frames, bool) or not isinstance(block_frames, (int, np.integer))
-            or not 1 <= block_frames <= MAX_BLOCK_FRAMES):
-        raise BadValueError(
-            f"block_frames must be an integer from 1 to {MAX_BLOCK_FRAMES}; got {block_frames!r}")
-    return int(block_frames)
-
-
-def _check_seed(dither_seed) -> int:
-    if isinstance(dither_seed, bool) or not isinstance(dither_seed, (int, np.integer)) \
-            or dither_seed < 0:
-        raise BadValueError(f"dither_seed must be an integer >= 0; got {dither_seed!r}")
-    return int(dither_seed)
+def _check_int(what: str, value, lo: int, hi: int | None = None) -> int:
+    """``value`` as int if it is an integer (not bool) in ``lo..hi``, else BadValueError."""
+    ok = isinstance(value, (int, np.integer)) and not isinstance(value, bool) \
+        and value >= lo and (hi is None or value <= hi)
+    if not ok:
+        allowed = f"from {lo} to {hi}" if hi is not None else f">= {lo}"
+        raise BadValueError(f"{what} must be an integer {allowed}; got {value!r}")
+    return int(value)
 
 
 def _check_processor(processor) -> None:
@@ -175,14 +170,6 @@ def _check_processor(processor) -> None:
                 f"processor {type(processor).__name__} has no {name}() method; "
                 "allowed: an object with prepare(sample_rate, channels), process(block), "
                 "latency_samples")
-
-
-def _latency(processor) -> int:
-    latency = getattr(processor, "latency_samples", 0)
-    if isinstance(latency, bool) or not isinstance(latency, (int, np.integer)) or latency < 0:
-        raise BadValueError(
-            f"processor latency_samples must be an integer >= 0; got {latency!r}")
-    return int(latency)
 
 
 def output_format(out_path) -> str:
@@ -358,7 +345,7 @@ def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.n
     >>> [b.shape for b in iter_blocks(p, block_frames=400)]
     [(400, 1), (400, 1), (200, 1)]
     """
-    block_frames = _check_block_frames(block_frames)
+    block_frames = _check_int("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
     with _open_read(path) as snd:
         yield from _read_blocks(snd, path, block_frames, reuse=False)
 
@@ -514,8 +501,8 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
             dither_seed) -> RenderReport:
     start = time.perf_counter()
     # 1. check: everything about IN and OUT before any processing
-    block_frames = _check_block_frames(block_frames)
-    dither_seed = _check_seed(dither_seed)
+    block_frames = _check_int("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
+    dither_seed = _check_int("dither_seed", dither_seed, 0)
     if processor is not None:
         _check_processor(processor)
     if progress is not None and not callable(progress):
@@ -528,7 +515,8 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
         latency = 0
         if processor is not None:
             processor.prepare(rate, channels)
-            latency = _latency(processor)
+            latency = _check_int("processor latency_samples",
+                                 getattr(processor, "latency_samples", 0), 0)
         encoder = _Encoder(out_subtype, channels, block_frames, dither, dither_seed)
         frames = 0
         with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst:

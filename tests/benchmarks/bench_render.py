@@ -1,0 +1,245 @@
+"""Render benchmark: streaming copy vs notch render of a long take, and peak memory.
+
+Makes a 10-minute 48 kHz stereo 24-bit WAV of generated noise and tones (in a temporary
+folder, or --work DIR), then measures in one run, as medians of --repeats runs:
+
+* the bare streaming copy (:func:`emulate.audio.copy_file`), the reference time;
+* a render through :class:`emulate.processor.NotchProcessor` at default fidelity, a
+  balanced twin-T notch at 6 kHz, H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2)
+  (Analog Devices MT-225) as z, p, k;
+* a render through the plain prewarped bilinear filter of the same H(s)
+  (scipy.signal.bilinear_zpk -> zpk2sos, run by scipy.signal.sosfilt) on the same path;
+
+and reports the real-time factor (audio seconds per wall second), the ratio
+render/copy, the fidelity the processor reports, and the peak resident memory of a
+child process rendering the take (and, with --hour, a 1-hour take), from
+resource.getrusage in the child. Targets: render <= 4x copy (goal 2x); 1-hour peak
+RSS <= 200 MB. Writes JSON (--json, default bench-out/render.json). --profile prints
+where the render time goes (cProfile, cumulative).
+
+Run: python3 tests/benchmarks/bench_render.py [--hour] [--repeats 3] [--work DIR]
+"""
+
+from __future__ import annotations
+
+import argparse
+import cProfile
+import json
+import pstats
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import scipy.signal
+import soundfile as sf
+
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+from emulate.audio import copy_file, render_file  # noqa: E402
+
+RATE = 48000
+NOTCH_HZ = 6000.0
+GEN_BLOCK = 1 << 18
+
+
+def twin_t_zpk(notch_hz: float = NOTCH_HZ):
+    """Balanced passive twin-T, H(s) = (s^2 + w0^2)/(s^2 + 4 w0 s + w0^2) (MT-225), rad/s."""
+    w0 = 2 * np.pi * notch_hz
+    return np.array([1j * w0, -1j * w0]), np.roots([1.0, 4 * w0, w0 ** 2]), 1.0
+
+
+class BilinearSos:
+    """Plain bilinear transform prewarped at the notch, run by scipy.signal.sosfilt."""
+
+    latency_samples = 0
+
+    def __init__(self, notch_hz: float = NOTCH_HZ):
+        self.notch_hz = notch_hz
+
+    def prepare(self, sample_rate, channels):
+        # prewarp (Oppenheim & Schafer sec. 7.2): the analog notch placed at
+        # 2 fs tan(pi f / fs) maps exactly onto f after s = 2 fs (z - 1)/(z + 1)
+        warped_hz = sample_rate / np.pi * np.tan(np.pi * self.notch_hz / sample_rate)
+        z, p, k = scipy.signal.bilinear_zpk(*twin_t_zpk(warped_hz), sample_rate)
+        self.sos = scipy.signal.zpk2sos(z, p, k)
+        self.zi = np.zeros((len(self.sos), 2, channels))
+
+    def process(self, block):
+        out, self.zi = scipy.signal.sosfilt(self.sos, block, axis=0, zi=self.zi)
+        return out
+
+
+def notch_processor():
+    """The project's NotchProcessor at default fidelity, or None if it is missing."""
+    try:
+        from emulate.processor import NotchProcessor
+    except ImportError:
+        return None
+    z, p, k = twin_t_zpk()
+    return NotchProcessor(z, p, k, notch_hz=NOTCH_HZ)
+
+
+def make_take(path: Path, seconds: float) -> Path:
+    """Stereo 24-bit WAV: pink-ish noise plus a few tones at about -12 dBFS, in blocks."""
+    rng = np.random.default_rng(2024)
+    frames = int(seconds * RATE)
+    shaper = scipy.signal.butter(1, 2000.0, fs=RATE, output="sos")
+    zi = np.zeros((1, 2, 2))
+    tones_hz = np.array([220.0, 1000.0, 6000.0, 9000.0])
+    with sf.SoundFile(path, "w", RATE, 2, "PCM_24", format="WAV") as f:
+        for start in range(0, frames, GEN_BLOCK):
+            n = min(GEN_BLOCK, frames - start)
+            noise, zi = scipy.signal.sosfilt(shaper, rng.standard_normal((n, 2)), axis=0, zi=zi)
+            t = (start + np.arange(n)) / RATE
+            tones = np.sin(2 * np.pi * tones_hz[:, None] * t).sum(axis=0)
+            f.write(0.1 * noise + 0.05 * np.column_stack([tones, np.roll(tones, 7)]))
+    return path
+
+
+def timed(fn, repeats: int) -> tuple[float, list[float]]:
+    times = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return statistics.median(times), times
+
+
+CHILD = """
+import json, resource, sys
+sys.path.insert(0, {root!r})
+sys.path.insert(0, {bench!r})
+from bench_render import notch_processor, BilinearSos
+from emulate.audio import render_file
+proc = notch_processor() or BilinearSos()
+report = render_file({src!r}, {dst!r}, proc, block_frames={block})
+print(json.dumps({{"maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+                  "frames": report.frames, "elapsed_s": report.elapsed_s,
+                  "processor": type(proc).__name__}}))
+"""
+
+
+def child_peak_rss(src: Path, dst: Path, block_frames: int) -> dict:
+    """Peak RSS (MB, ru_maxrss of the child) of a fresh process rendering ``src``."""
+    code = CHILD.format(root=str(ROOT), bench=str(Path(__file__).parent), src=str(src),
+                        dst=str(dst), block=block_frames)
+    out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True,
+                         text=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def profile_render(src: Path, dst: Path, block_frames: int) -> str:
+    proc = notch_processor() or BilinearSos()
+    prof = cProfile.Profile()
+    prof.enable()
+    render_file(src, dst, proc, block_frames=block_frames)
+    prof.disable()
+    import io
+    buf = io.StringIO()
+    pstats.Stats(prof, stream=buf).sort_stats("tottime").print_stats(12)
+    return buf.getvalue()
+
+
+def run(args) -> dict:
+    work = Path(args.work) if args.work else Path(tempfile.mkdtemp(prefix="emulate-bench-"))
+    work.mkdir(parents=True, exist_ok=True)
+    src = make_take(work / "take10.wav", args.minutes * 60)
+    seconds = args.minutes * 60
+    out = work / "out.wav"
+    bf = args.block_frames
+    results = {"take": {"seconds": seconds, "rate_hz": RATE, "channels": 2,
+                        "subtype": "PCM_24", "block_frames": bf, "repeats": args.repeats}}
+
+    proc = notch_processor()
+    # warm-up: page cache, numba compile/cache load, scipy imports
+    copy_file(src, out, bf)
+    if proc is not None:
+        render_file(src, out, proc, block_frames=bf)
+
+    copy_s, copy_all = timed(lambda: copy_file(src, out, bf), args.repeats)
+    results["copy"] = {"median_s": copy_s, "runs_s": copy_all, "rtf": seconds / copy_s}
+    cases = {"bilinear_scipy": BilinearSos}
+    if proc is not None:
+        cases["notch_processor"] = notch_processor
+    for name, make in cases.items():
+        med, runs = timed(lambda: render_file(src, out, make(), block_frames=bf),
+                          args.repeats)
+        results[name] = {"median_s": med, "runs_s": runs, "rtf": seconds / med,
+                         "ratio_to_copy": med / copy_s}
+    if proc is not None:
+        proc.prepare(RATE, 2)
+        results["notch_processor"].update(
+            fidelity_db=proc.fidelity_db, latency_samples=proc.latency_samples,
+            method=getattr(proc.design, "method", None),
+            sections=int(len(proc.design.sos)))
+    else:
+        results["notch_processor"] = "emulate.processor.NotchProcessor not available"
+
+    # a 1-second take shows the fixed cost (interpreter, numpy/scipy/numba, kernels);
+    # longer takes must not add to it if memory is bounded
+    short = make_take(work / "take1s.wav", 1.0)
+    results["memory"] = {"1s_child": child_peak_rss(short, work / "out1s.wav", bf),
+                         f"{args.minutes:g}min_child": child_peak_rss(src, out, bf)}
+    if args.hour:
+        hour = make_take(work / "take60.wav", 3600)
+        results["memory"]["60min_child"] = child_peak_rss(hour, work / "out60.wav", bf)
+        hour.unlink()
+        (work / "out60.wav").unlink()
+    if args.profile:
+        results["profile_text"] = profile_render(src, out, bf)
+    if not args.work:
+        for p in work.iterdir():
+            p.unlink()
+        work.rmdir()
+    return results
+
+
+def report(results: dict) -> None:
+    print(f"take: {results['take']['seconds'] / 60:.0f} min, 48 kHz stereo PCM_24, "
+          f"block {results['take']['block_frames']} frames, median of "
+          f"{results['take']['repeats']}")
+    c = results["copy"]
+    print(f"copy              {c['median_s']:7.2f} s   RTF {c['rtf']:7.0f}x")
+    for name in ("bilinear_scipy", "notch_processor"):
+        r = results[name]
+        if isinstance(r, str):
+            print(f"{name:17s} {r}")
+            continue
+        extra = (f"  fidelity {r['fidelity_db']:.3f} dB ({r['method']}, {r['sections']} "
+                 "sections)" if "fidelity_db" in r else "")
+        print(f"{name:17s} {r['median_s']:7.2f} s   RTF {r['rtf']:7.0f}x   "
+              f"render/copy {r['ratio_to_copy']:.2f}{extra}")
+    m = results["memory"]
+    print("peak RSS of a child rendering: " + "; ".join(
+        f"{k.replace('_child', '')} take {v['maxrss_mb']:.0f} MB" for k, v in m.items())
+        + f" ({m['1s_child']['processor']})")
+    if "profile_text" in results:
+        print(results["profile_text"])
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--work", help="folder for the generated takes (default: a temp folder)")
+    ap.add_argument("--json", default="bench-out/render.json", help="where to write figures")
+    ap.add_argument("--repeats", type=int, default=3, help="runs per case (median), >= 3")
+    ap.add_argument("--minutes", type=float, default=10.0, help="length of the timed take")
+    ap.add_argument("--block-frames", type=int, default=65536, help="frames per block")
+    ap.add_argument("--hour", action="store_true", help="also measure RSS on a 1-hour take")
+    ap.add_argument("--profile", action="store_true", help="print a cProfile of one render")
+    args = ap.parse_args(argv)
+    results = run(args)
+    report(results)
+    out = Path(args.json)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    out.write_text(json.dumps(results, indent=2))
+    print(f"wrote {out}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
