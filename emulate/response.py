@@ -95,15 +95,16 @@ def find_notch(response: Callable, search_hz, points: int):
     magnitude = np.abs(response(grid[None, :]))
     best = np.clip(np.argmin(magnitude, axis=1), 1, points - 2)
     lo, hi = np.log(grid[best - 1]), np.log(grid[best + 1])
-    # golden-section search on log f: 60 steps shrink the bracket by 3e-13
+    # golden-section search on log f, one new evaluation a step: 60 steps shrink
+    # the bracket by 0.618**60 = 3e-13
     a, b = hi - _GOLDEN * (hi - lo), lo + _GOLDEN * (hi - lo)
     fa, fb = _magnitude_at(response, a), _magnitude_at(response, b)
     for _ in range(60):
-        left = fa < fb
-        hi = np.where(left, b, hi)
-        lo = np.where(left, lo, a)
-        a, b = hi - _GOLDEN * (hi - lo), lo + _GOLDEN * (hi - lo)
-        fa, fb = _magnitude_at(response, a), _magnitude_at(response, b)
+        left = fa < fb  # the minimum lies in [lo, b]: b becomes hi, a becomes b
+        hi, lo = np.where(left, b, hi), np.where(left, lo, a)
+        a, b = np.where(left, hi - _GOLDEN * (hi - lo), b), np.where(left, a, lo + _GOLDEN * (hi - lo))
+        probe = _magnitude_at(response, np.where(left, a, b))
+        fa, fb = np.where(left, probe, fb), np.where(left, fa, probe)
     centre = (lo + hi) / 2
     return np.exp(centre), db(_magnitude_at(response, centre))
 

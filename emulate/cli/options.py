@@ -1,4 +1,4 @@
-"""The command line: a click group of verbs; each parses, delegates and prints.
+"""The click group and what every command shares: error handling, options, output.
 
 Any :class:`~emulate.errors.EmulateError` becomes one line on stderr and exit
 status 1; :class:`~emulate.errors.EmulateWarning` lines are printed as
@@ -14,9 +14,8 @@ import warnings
 
 import click
 
-from emulate import __version__, audio, emulation, spec, summary
+from emulate import __version__, spec
 from emulate.errors import EmulateError, EmulateWarning
-from emulate.response import check_twin_t, measure
 
 PART_HELP = {
     "r1": "R1, series resistor of the R-R-C T, ohms (e.g. 10k, 4k7)",
@@ -90,44 +89,12 @@ def json_option(command):
     return click.option("--json", "as_json", is_flag=True, help="print one JSON object instead of text")(command)
 
 
-def _emit(as_json: bool, payload: dict, text: str) -> None:
+def emit(as_json: bool, payload: dict, text: str) -> None:
     click.echo(json.dumps(payload, indent=2, allow_nan=False, default=_json_default) if as_json else text)
 
 
 def _json_default(value):
     return None if isinstance(value, float) and not math.isfinite(value) else str(value)
-
-
-@main.command()
-@circuit_options
-@json_option
-def response(as_json, **options):
-    """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
-    network = network_from_options(options)
-    metrics = measure(network.response)
-    found = check_twin_t(network, metrics)
-    payload = summary.metrics_payload(network, metrics, found)
-    _emit(as_json, payload, summary.response_text(network, metrics, found))
-
-
-@main.command()
-@click.option("--notch", required=True, help="target notch frequency, Hz (e.g. 6.3k, 4500)")
-@click.option("--q", type=float, help="target Q, 0.25-20: an active (bootstrapped) network; default passive")
-@click.option("--series", default="E24", show_default=True, help="resistor series, IEC 60063 (E6 .. E192)")
-@click.option("--cap-series", default="E12", show_default=True, help="capacitor series, IEC 60063")
-@click.option("--impedance", help="level of R1 = R2, ohms; default 10k")
-@click.option("--capacitor", help="design around this C1 = C2, farads (e.g. 10n)")
-@click.option("--source", help="source resistance driving the network, ohms; default 0")
-@click.option("--load", help="load resistance on the output, ohms; default none")
-@json_option
-def design(notch, q, series, cap_series, impedance, capacitor, source, load, as_json):
-    """Design a balanced twin-T for a target notch and snap it to preferred values."""
-    target = {"notch": notch, "q": q, "series": series, "cap_series": cap_series,
-              "impedance": impedance, "capacitor": capacitor}
-    surroundings = spec.network_surroundings({"source": source, "load": load})
-    result = spec.design_from_table(target, where="", **surroundings)
-    found = check_twin_t(result.built, result.built_metrics)
-    _emit(as_json, summary.design_payload(result, found), summary.design_text(result, found))
 
 
 def run_quietly(function):
@@ -141,27 +108,6 @@ def run_quietly(function):
     return wrapper
 
 
-@main.command()
-@click.argument("in_path", metavar="IN", type=click.Path(dir_okay=False))
-@click.argument("out_path", metavar="OUT", type=click.Path(dir_okay=False))
-@circuit_options
-@click.option("--subtype", help="output sample format (PCM_16, PCM_24, PCM_32, FLOAT); default: keep IN's")
-@click.option("--float", "as_float", is_flag=True, help="write 32-bit float (no clipping, no dither)")
-@json_option
-@run_quietly
-def render(in_path, out_path, subtype, as_float, as_json, **options):
-    """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
-    network = network_from_options(options)
-    processor = emulation.processor_for(network)
-    info = audio.read_info(in_path)
-    with _progress(info.frames, f"rendering {in_path}") as bar:
-        report = audio.render_file(in_path, out_path, processor, progress=bar.update,
-                                   subtype="FLOAT" if as_float else subtype)
-    payload = report.to_dict() | {"fidelity_db": processor.fidelity_db,
-                                  "digital_method": processor.design.method}
-    _emit(as_json, payload, summary.render_text(report, processor))
-
-
 class _NoBar:
     def __enter__(self):
         return self
@@ -173,7 +119,7 @@ class _NoBar:
         pass
 
 
-def _progress(length: int, label: str):
+def progress(length: int, label: str):
     """A progress bar on stderr when it is a terminal; silent otherwise."""
     stream = click.get_text_stream("stderr")
     if not stream.isatty():

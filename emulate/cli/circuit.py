@@ -1,0 +1,41 @@
+"""Commands about the circuit itself: ``response`` and ``design``."""
+
+from __future__ import annotations
+
+import click
+
+from emulate import spec, summary
+from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
+from emulate.response import check_twin_t, measure
+
+
+@main.command()
+@circuit_options
+@json_option
+def response(as_json, **options):
+    """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
+    network = network_from_options(options)
+    metrics = measure(network.response)
+    found = check_twin_t(network, metrics)
+    payload = summary.metrics_payload(network, metrics, found)
+    emit(as_json, payload, summary.response_text(network, metrics, found))
+
+
+@main.command()
+@click.option("--notch", required=True, help="target notch frequency, Hz (e.g. 6.3k, 4500)")
+@click.option("--q", type=float, help="target Q, 0.25-20: an active (bootstrapped) network; default passive")
+@click.option("--series", default="E24", show_default=True, help="resistor series, IEC 60063 (E6 .. E192)")
+@click.option("--cap-series", default="E12", show_default=True, help="capacitor series, IEC 60063")
+@click.option("--impedance", help="level of R1 = R2, ohms; default 10k")
+@click.option("--capacitor", help="design around this C1 = C2, farads (e.g. 10n)")
+@click.option("--source", help="source resistance driving the network, ohms; default 0")
+@click.option("--load", help="load resistance on the output, ohms; default none")
+@json_option
+def design(notch, q, series, cap_series, impedance, capacitor, source, load, as_json):
+    """Design a balanced twin-T for a target notch and snap it to preferred values."""
+    target = {"notch": notch, "q": q, "series": series, "cap_series": cap_series,
+              "impedance": impedance, "capacitor": capacitor}
+    surroundings = spec.network_surroundings({"source": source, "load": load})
+    result = spec.design_from_table(target, where="", **surroundings)
+    found = check_twin_t(result.built, result.built_metrics)
+    emit(as_json, summary.design_payload(result, found), summary.design_text(result, found))
