@@ -589,6 +589,8 @@ def sibilance_reduction_db(dry, wet, fs: float, band_hz) -> float:
 
     Whole-take band levels by :func:`band_level_db`; with ``band_hz`` the sibilant band
     the sibilant frames dominate both. The takes may differ in length (filter tails).
+    The unwindowed whole-take spectrum leaks from the take's ends, so reductions beyond
+    about 50 dB read low; a twin-T with a mix does far less than that.
 
     Parameters
     ----------
