@@ -49,6 +49,8 @@ _FORMANTS_HZ = (
 #: Highest harmonic frequency of the voiced tone, in Hz (voice energy above
 #: this is negligible next to the sibilant bursts, which is what tests need).
 _VOICED_TOP_HZ = 5000.0
+#: Longest stretch synthesised at once, in seconds (bounds memory for long tones).
+_CHUNK_S = 0.25
 #: Burst and syllable ramps (raised-cosine), in seconds.
 _RAMP_S = 0.01
 #: Noise floor relative to the take's RMS level, in dB.
@@ -220,13 +222,16 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
     out = np.zeros(n)
     env = _gate(n, fs, intervals_s, ramp_s=0.03)
     top_hz = min(_VOICED_TOP_HZ, 0.45 * fs)
+    chunk = int(_CHUNK_S * fs)
     for start_s, stop_s in intervals_s:
         a, b = int(round(start_s * fs)), min(int(round(stop_s * fs)), n)
         centres, widths = _FORMANTS_HZ[rng.integers(len(_FORMANTS_HZ))]
-        k = np.arange(1, int(top_hz // f0_hz[a:b].min()) + 1)[:, None]
-        f_k = k * f0_hz[a:b]
-        amp = np.where(f_k < top_hz, _formant_gain(f_k, centres, widths) / k, 0.0)
-        out[a:b] = np.sum(amp * np.sin(k * phase[a:b]), axis=0)
+        for c in range(a, b, chunk):  # bounded (harmonics x samples) work arrays
+            d = min(c + chunk, b)
+            k = np.arange(1, int(top_hz // f0_hz[c:d].min()) + 1)[:, None]
+            f_k = k * f0_hz[c:d]
+            amp = np.where(f_k < top_hz, _formant_gain(f_k, centres, widths) / k, 0.0)
+            out[c:d] = np.sum(amp * np.sin(k * phase[c:d]), axis=0)
     return out * env
 
 
