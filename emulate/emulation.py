@@ -34,6 +34,13 @@ def processor_for(network: TwinT, *, tolerance_db: float = 0.1, smoothing_ms: fl
                           tolerance_db=tolerance_db, smoothing_ms=smoothing_ms)
 
 
+def digital_for(network: TwinT, fs: float, *, tolerance_db: float = 0.1):
+    """The digital sections that emulate ``network`` at ``fs`` Hz (a prepared processor's design)."""
+    processor = processor_for(network, tolerance_db=tolerance_db)
+    processor.prepare(fs, 1)
+    return processor.design
+
+
 def _emulated(network: TwinT) -> tuple[TwinT, float]:
     if network.depth_pot_ohms is not None:
         return network, 1.0

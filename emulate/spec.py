@@ -134,6 +134,15 @@ def network_from_document(document: dict, *, where: str, mix: float | None = Non
     return design.built.replace(mix=mix)
 
 
+def network_from_preset(preset) -> TwinT:
+    """The network a preset (:class:`emulate.presets.Preset`) describes, at its mix."""
+    document = {"mix": preset.mix}
+    for table in ("circuit", "target"):
+        if getattr(preset, table):
+            document[table] = dict(getattr(preset, table))
+    return network_from_document(document, where=f"preset '{preset.name}'")
+
+
 def _field(where: str, name: str) -> str:
     return f"{where}.{name}" if where else name
 

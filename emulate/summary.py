@@ -135,3 +135,15 @@ def render_text(report, processor) -> str:
         f"analog model over {processor.design.band_hz[0]:.0f}-{processor.design.band_hz[1]:.0f} Hz",
         f"  took {report.elapsed_s:.2f} s",
     ])
+
+
+def digital_payload(digital) -> dict:
+    return {"fs": digital.fs, "method": digital.method, "sections": len(digital.sos),
+            "fidelity_db": digital.fidelity_db, "band_hz": list(digital.band_hz),
+            "notch_hz": digital.notch_hz, "latency_samples": digital.latency_samples}
+
+
+def digital_text(digital) -> str:
+    return (f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
+            f"within {digital.fidelity_db:.3f} dB of the analog model over "
+            f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz; digital notch {digital.notch_hz:.2f} Hz")

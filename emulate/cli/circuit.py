@@ -4,21 +4,27 @@ from __future__ import annotations
 
 import click
 
-from emulate import spec, summary
+from emulate import emulation, spec, summary
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
 from emulate.response import check_twin_t, measure
 
 
 @main.command()
 @circuit_options
+@click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
 @json_option
-def response(as_json, **options):
+def response(rate, as_json, **options):
     """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
     network = network_from_options(options)
     metrics = measure(network.response)
     found = check_twin_t(network, metrics)
     payload = summary.metrics_payload(network, metrics, found)
-    emit(as_json, payload, summary.response_text(network, metrics, found))
+    text = summary.response_text(network, metrics, found)
+    if rate is not None:
+        digital = emulation.digital_for(network, rate)
+        payload["digital"] = summary.digital_payload(digital)
+        text += "\n" + summary.digital_text(digital)
+    emit(as_json, payload, text)
 
 
 @main.command()
