@@ -20,6 +20,7 @@ here: ``4E7`` is 4e7, as in Python.
 
 from __future__ import annotations
 
+import functools
 import math
 import numbers
 import re
@@ -157,7 +158,7 @@ def _from_text(text: str, kind: str | None) -> float:
     return float(f"{number}e{exp}") if exp else float(number)
 
 
-def parse_value(text: str | float | int, kind: str | None = None) -> float:
+def parse_value(text: str | float, kind: str | None = None) -> float:
     """Read a part value written in engineering notation or the IEC 60062 letter code.
 
     Parameters
@@ -300,9 +301,10 @@ def parse_series(text: str) -> str:
     return name
 
 
-def _decade(series: str, exp10: int) -> list[float]:
+@functools.lru_cache(maxsize=512)
+def _decade(series: str, exp10: int) -> tuple[float, ...]:
     # decimal string -> correctly rounded float, so 4.7 in decade 3 is exactly 4700.0
-    return [float(f"{m!r}e{exp10}") for m in E_SERIES[series]]
+    return tuple(float(f"{m!r}e{exp10}") for m in E_SERIES[series])
 
 
 def series_values(series: str, lo: float, hi: float) -> list[float]:
