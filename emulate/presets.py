@@ -36,7 +36,6 @@ the others from listing (:meth:`PresetStore.list_all`).
 from __future__ import annotations
 
 import datetime as dt
-import math
 import numbers
 import os
 import re
@@ -247,7 +246,7 @@ def _created(value: object) -> str:
     if not isinstance(when, dt.datetime) or when.utcoffset() is None:
         raise _field_error("made.when", f"{value!r} needs a date, time and zone; "
                            "write e.g. 2026-11-20T18:30:00Z")
-    return when.astimezone(dt.timezone.utc).isoformat().replace("+00:00", "Z")
+    return when.astimezone(dt.UTC).isoformat().replace("+00:00", "Z")
 
 
 def _schema(value: object) -> int:
@@ -261,7 +260,7 @@ def _schema(value: object) -> int:
 
 
 def _now_utc() -> str:
-    return dt.datetime.now(dt.timezone.utc).replace(microsecond=0).isoformat().replace(
+    return dt.datetime.now(dt.UTC).replace(microsecond=0).isoformat().replace(
         "+00:00", "Z")
 
 
@@ -609,7 +608,7 @@ class PresetStore:
 
 
 def _write_atomic(path: Path, text: str) -> None:
-    """Write ``text`` next to ``path`` then rename over it, so readers see old or new, never half."""
+    """Write ``text`` beside ``path``, then rename it over: readers see old or new, never half."""
     handle, temp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=".tmp")
     try:
         with os.fdopen(handle, "w", encoding="utf-8", newline="\n") as out:

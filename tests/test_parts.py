@@ -1,5 +1,6 @@
 """Tests for emulate.parts: notation, IEC 60062 letter code, IEC 60063 series, tolerances."""
 
+import itertools
 import math
 import warnings
 
@@ -82,7 +83,7 @@ class TestESeries:
 
     def test_mantissas_ascend_within_one_decade(self):
         for table in parts.E_SERIES.values():
-            assert all(1.0 <= a < b < 10 for a, b in zip(table, table[1:]))
+            assert all(1.0 <= a < b < 10 for a, b in itertools.pairwise(table))
 
 
 class TestParseValue:

@@ -11,8 +11,14 @@ from hypothesis import strategies as st
 
 from emulate import parts
 from emulate.errors import EmulateWarning, PresetError
-from emulate.presets import (Preset, PresetStore, check_name, default_presets_dir,
-                             preset_from_toml, preset_to_toml)
+from emulate.presets import (
+    Preset,
+    PresetStore,
+    check_name,
+    default_presets_dir,
+    preset_from_toml,
+    preset_to_toml,
+)
 
 SHIPPED = Path(__file__).resolve().parent.parent / "presets"
 CIRCUIT = {"r1": "10k", "r2": "10k", "r3": "5k", "c1": "2n2", "c2": "2n2", "c3": "4n4"}
@@ -24,8 +30,8 @@ odd_text = st.text(st.characters(blacklist_categories=("Cs",)), max_size=80)
 
 
 def make(name="demo", **changes):
-    fields = dict(name=name, speaker="Test Speaker", circuit=dict(CIRCUIT), mix=0.6,
-                  created=WHEN, made_by="circuit options: test")
+    fields = {"name": name, "speaker": "Test Speaker", "circuit": dict(CIRCUIT), "mix": 0.6,
+              "created": WHEN, "made_by": "circuit options: test"}
     fields.update(changes)
     return Preset(**fields)
 
