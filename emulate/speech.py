@@ -36,21 +36,22 @@ __all__ = [
     "ANSI_S35_IMPORTANCE",
     "SPECTRUM_GRID_HZ",
     "SibilanceReport",
-    "find_sibilance",
-    "combine_reports",
-    "most_sibilant_excerpt",
-    "band_level_db",
-    "sibilance_reduction_db",
     "band_gains_db",
+    "band_level_db",
+    "combine_reports",
+    "find_sibilance",
     "intelligibility_cost",
     "intelligibility_cost_of_takes",
-    "loudness_lufs",
     "loudness_change_db",
+    "loudness_lufs",
+    "most_sibilant_excerpt",
+    "sibilance_reduction_db",
 ]
 
 # --------------------------------------------------------------------------- reference tables
 
 #: One-third-octave band centre frequencies in Hz, ANSI S3.5-1997 Table 3 (18 bands).
+# fmt: off
 ANSI_S35_BANDS_HZ = np.array(
     [160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000, 2500, 3150, 4000, 5000, 6300, 8000],
     dtype=np.float64,
@@ -65,6 +66,7 @@ ANSI_S35_IMPORTANCE = np.array(
      0.0844, 0.0882, 0.0898, 0.0868, 0.0844, 0.0771, 0.0527, 0.0364, 0.0185],
     dtype=np.float64,
 )
+# fmt: on
 ANSI_S35_IMPORTANCE.setflags(write=False)
 
 #: Band audibility range of the SII, in dB: audibility runs from 0 to 1 over a 30 dB
@@ -213,13 +215,19 @@ def _as_take(x, name: str = "take") -> np.ndarray:
     try:
         arr = np.asarray(x, dtype=np.float64)
     except (TypeError, ValueError) as exc:
-        raise BadValueError(f"{name} is not numeric audio ({exc}); expected a (frames, channels) array") from None
+        raise BadValueError(
+            f"{name} is not numeric audio ({exc}); expected a (frames, channels) array"
+        ) from None
     if arr.ndim == 1:
         arr = arr[:, None]
     if arr.ndim != 2 or arr.shape[0] == 0 or arr.shape[1] == 0:
-        raise BadValueError(f"{name} has shape {arr.shape}; expected (frames, channels) with frames, channels >= 1")
+        raise BadValueError(
+            f"{name} has shape {arr.shape}; expected (frames, channels) with frames, channels >= 1"
+        )
     if not np.all(np.isfinite(arr)):
-        raise BadValueError(f"{name} holds {np.count_nonzero(~np.isfinite(arr))} NaN/inf samples; all must be finite")
+        raise BadValueError(
+            f"{name} holds {np.count_nonzero(~np.isfinite(arr))} NaN/inf samples; all must be finite"
+        )
     return arr
 
 
@@ -273,11 +281,12 @@ class _Frames:
 
 def _frame_power(mono: np.ndarray, fs: float) -> tuple[np.ndarray, np.ndarray, int]:
     """Hann-windowed frames of ``FRAME_S`` every ``HOP_S``; returns ``f_hz, power, hop``."""
-    size, hop = int(round(FRAME_S * fs)), int(round(HOP_S * fs))
+    size, hop = round(FRAME_S * fs), round(HOP_S * fs)
     nfft = 1 << (size - 1).bit_length()
     window = np.hanning(size)
     frames = np.lib.stride_tricks.sliding_window_view(mono, size)[::hop] * window
-    power = np.abs(np.fft.rfft(frames, nfft, axis=1)) ** 2
+    spectrum = np.fft.rfft(frames, nfft, axis=1)
+    power = spectrum.real**2 + spectrum.imag**2
     power[:, 1:-1] *= 2.0  # one-sided
     power /= size * np.sum(window**2)  # Parseval with the window's power
     return np.fft.rfftfreq(nfft, 1.0 / fs), power, hop
@@ -290,12 +299,12 @@ def _analyse(x, fs: float, search_band_hz) -> tuple[_Frames, tuple[float, float]
     band = _check_band(search_band_hz, fs, "search_band_hz")
     mono = take.mean(axis=1)
     seconds = mono.size / fs
-    if mono.size < int(round(FRAME_S * fs)):
+    if mono.size < round(FRAME_S * fs):
         return None, band, seconds
     f_hz, power, hop = _frame_power(mono, fs)
-    in_band = (f_hz >= band[0]) & (f_hz <= band[1])
-    band_power = power[:, in_band].sum(axis=1)
-    total_power = power[:, f_hz >= _LOW_CUT_HZ].sum(axis=1)
+    lo, hi = np.searchsorted(f_hz, band[0], "left"), np.searchsorted(f_hz, band[1], "right")
+    band_power = power[:, lo:hi].sum(axis=1)
+    total_power = power[:, np.searchsorted(f_hz, _LOW_CUT_HZ) :].sum(axis=1)
     floor_min = 10.0 ** (_FLOOR_MIN_DBFS / 10.0) / 2.0
     floor = max(float(np.percentile(band_power, _FLOOR_PERCENTILE)), floor_min)
     threshold = max(floor * 10.0 ** (ABOVE_FLOOR_DB / 10.0), 10.0 ** (GATE_DBFS / 10.0) / 2.0)
@@ -349,8 +358,24 @@ def _unusable(reason: str, seconds: float, band: tuple[float, float], sibilant_s
     """A report that carries only a reason."""
     nan = float("nan")
     return SibilanceReport(
-        False, reason, seconds, sibilant_seconds, sibilant_seconds / seconds if seconds else 0.0,
-        nan, (nan, nan), band, nan, nan, nan, nan, 0.0, nan, nan, nan, nan, (),
+        False,
+        reason,
+        seconds,
+        sibilant_seconds,
+        sibilant_seconds / seconds if seconds else 0.0,
+        nan,
+        (nan, nan),
+        band,
+        nan,
+        nan,
+        nan,
+        nan,
+        0.0,
+        nan,
+        nan,
+        nan,
+        nan,
+        (),
     )
 
 
@@ -362,9 +387,23 @@ def _report(seconds, sibilant_seconds, density, band, sib_level_db, voiced_level
         spectrum_db = tuple(float(v) for v in 10.0 * np.log10(np.maximum(density, 1e-30)))
     seconds, sibilant_seconds = float(seconds), float(sibilant_seconds)
     return SibilanceReport(
-        True, "", seconds, sibilant_seconds, sibilant_seconds / seconds, peak_hz, band_hz, band,
-        sib_level_db, voiced_level_db, dominance, snr_db,
-        float(_confidence(sibilant_seconds, dominance, snr_db)), float(notch_hz), float(q), depth, float(mix),
+        True,
+        "",
+        seconds,
+        sibilant_seconds,
+        sibilant_seconds / seconds,
+        peak_hz,
+        band_hz,
+        band,
+        sib_level_db,
+        voiced_level_db,
+        dominance,
+        snr_db,
+        float(_confidence(sibilant_seconds, dominance, snr_db)),
+        float(notch_hz),
+        float(q),
+        depth,
+        float(mix),
         spectrum_db,
     )
 
@@ -410,19 +449,29 @@ def find_sibilance(x, fs: float, *, search_band_hz=DEFAULT_SEARCH_BAND_HZ) -> Si
         return _unusable(f"too short: {seconds:.3f} s, need at least {MIN_SECONDS:g} s", seconds, band)
     loudest = float(_dbfs(frames.total_power.max()))
     if loudest < GATE_DBFS:
-        return _unusable(f"silence: loudest frame {loudest:.1f} dBFS, below the {GATE_DBFS:g} dBFS gate",
-                         seconds, band)
+        return _unusable(
+            f"silence: loudest frame {loudest:.1f} dBFS, below the {GATE_DBFS:g} dBFS gate", seconds, band
+        )
     sib = frames.sibilant
     sibilant_seconds = float(np.count_nonzero(sib) * frames.hop / fs)
     if sibilant_seconds < MIN_SIBILANT_S:
-        return _unusable(f"no sibilant frames: {sibilant_seconds:.3f} s found, need {MIN_SIBILANT_S:g} s",
-                         seconds, band, sibilant_seconds)
+        return _unusable(
+            f"no sibilant frames: {sibilant_seconds:.3f} s found, need {MIN_SIBILANT_S:g} s",
+            seconds,
+            band,
+            sibilant_seconds,
+        )
     band_power = frames.band_power[sib]
     voiced = ~sib & (frames.total_power > frames.total_floor * 10.0 ** (ABOVE_FLOOR_DB / 10.0))
     voiced_level = float(_dbfs(frames.total_power[voiced].mean())) if voiced.any() else float("nan")
+    mean_power = sib.astype(np.float64) @ frames.power / np.count_nonzero(sib)  # BLAS, no copy
     return _report(
-        seconds, sibilant_seconds, _grid_density(frames.f_hz, frames.power[sib].mean(axis=0)), band,
-        float(_dbfs(band_power.mean())), voiced_level,
+        seconds,
+        sibilant_seconds,
+        _grid_density(frames.f_hz, mean_power),
+        band,
+        float(_dbfs(band_power.mean())),
+        voiced_level,
         float(np.mean(band_power / frames.total_power[sib])),
         float(10.0 * np.log10(band_power.mean() / frames.band_floor)),
     )
@@ -475,10 +524,18 @@ def combine_reports(reports) -> SibilanceReport:
     def pooled_db(levels):
         levels = np.array(levels)
         ok = np.isfinite(levels)
-        return float(10 * np.log10(np.sum(w[ok] * 10 ** (levels[ok] / 10)) / w[ok].sum())) if ok.any() else float("nan")
+        return (
+            float(10 * np.log10(np.sum(w[ok] * 10 ** (levels[ok] / 10)) / w[ok].sum()))
+            if ok.any()
+            else float("nan")
+        )
 
     return _report(
-        seconds, float(w.sum()), density, band, pooled_db([r.sibilant_level_db for r in good]),
+        seconds,
+        float(w.sum()),
+        density,
+        band,
+        pooled_db([r.sibilant_level_db for r in good]),
         pooled_db([r.voiced_level_db for r in good]),
         float(np.average([r.dominance for r in good], weights=w)),
         float(np.average([r.snr_db for r in good], weights=w)),
@@ -522,11 +579,11 @@ def most_sibilant_excerpt(x, fs: float, seconds: float = 3.0, *, search_band_hz=
     """
     seconds = _check_seconds(seconds, "seconds")
     frames, _, total_s = _analyse(x, fs, search_band_hz)
-    n, length = int(round(total_s * fs)), int(round(seconds * fs))
+    n, length = round(total_s * fs), round(seconds * fs)
     if frames is None or length >= n:
         return 0, n
     score = frames.band_power * frames.sibilant if frames.sibilant.any() else frames.band_power
-    width = max(1, min(score.size, int(round(length / frames.hop))))
+    width = max(1, min(score.size, round(length / frames.hop)))
     sums = np.convolve(score, np.ones(width), mode="valid")
     start = min(int(np.argmax(sums)) * frames.hop, n - length)
     return start, start + length
@@ -544,7 +601,9 @@ def _band_levels_db(x, fs: float, bands_hz) -> np.ndarray:
     f_hz = np.fft.rfftfreq(n, 1.0 / fs)
     cumulative = np.concatenate(([0.0], np.cumsum(power)))
     bounds = np.array(bands)
-    edges = np.stack([np.searchsorted(f_hz, bounds[:, 0], "left"), np.searchsorted(f_hz, bounds[:, 1], "right")])
+    edges = np.stack(
+        [np.searchsorted(f_hz, bounds[:, 0], "left"), np.searchsorted(f_hz, bounds[:, 1], "right")]
+    )
     return _dbfs(cumulative[edges[1]] - cumulative[edges[0]])
 
 
@@ -705,7 +764,9 @@ def intelligibility_cost(gain_db_at_bands) -> float:
     try:
         g = np.asarray(gain_db_at_bands, dtype=np.float64)
     except (TypeError, ValueError):
-        raise BadValueError(f"gain_db_at_bands = {gain_db_at_bands!r:.60} is not numeric; need 18 gains in dB") from None
+        raise BadValueError(
+            f"gain_db_at_bands = {gain_db_at_bands!r:.60} is not numeric; need 18 gains in dB"
+        ) from None
     if g.shape != ANSI_S35_BANDS_HZ.shape or np.any(np.isnan(g) | (g == np.inf)):
         raise BadValueError(
             f"gain_db_at_bands has shape {g.shape} / values {g!r:.60}; need 18 gains in dB, not NaN or +inf"

@@ -27,9 +27,9 @@ from emulate.errors import BadValueError
 
 __all__ = [
     "TakeSchedule",
+    "bursts_over_tone",
     "take_schedule",
     "voice_like_take",
-    "bursts_over_tone",
 ]
 
 #: Lowest and highest sample rates the generators accept, in Hz.
@@ -179,8 +179,8 @@ def _gate(n: int, fs: float, intervals_s, ramp_s: float = _RAMP_S) -> np.ndarray
     """Envelope that is 1 inside each ``(start, stop)`` interval, with raised-cosine ramps."""
     env = np.zeros(n)
     for start_s, stop_s in intervals_s:
-        a, b = int(round(start_s * fs)), min(int(round(stop_s * fs)), n)
-        r = max(min(int(round(ramp_s * fs)), (b - a) // 2), 1)
+        a, b = round(start_s * fs), min(round(stop_s * fs), n)
+        r = max(min(round(ramp_s * fs), (b - a) // 2), 1)
         seg = np.ones(b - a)
         seg[:r] = 0.5 - 0.5 * np.cos(np.pi * (np.arange(r) + 0.5) / r)
         seg[len(seg) - r :] = seg[:r][::-1]
@@ -224,7 +224,7 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
     top_hz = min(_VOICED_TOP_HZ, 0.45 * fs)
     chunk = int(_CHUNK_S * fs)
     for start_s, stop_s in intervals_s:
-        a, b = int(round(start_s * fs)), min(int(round(stop_s * fs)), n)
+        a, b = round(start_s * fs), min(round(stop_s * fs), n)
         centres, widths = _FORMANTS_HZ[rng.integers(len(_FORMANTS_HZ))]
         for c in range(a, b, chunk):  # bounded (harmonics x samples) work arrays
             d = min(c + chunk, b)
@@ -320,7 +320,7 @@ def voice_like_take(
     (48000, 1)
     """
     fs = _check_fs(fs)
-    n = int(round(_check_range(seconds, "seconds", high=3600.0) * fs))
+    n = round(_check_range(seconds, "seconds", high=3600.0) * fs)
     pitch_hz = _check_range(pitch_hz, "pitch_hz", low=40.0, high=500.0)
     channels = _check_channels(channels)
     level_dbfs = _check_range(level_dbfs, "level_dbfs", low=-120.0, high=0.0)
@@ -392,7 +392,7 @@ def bursts_over_tone(
     (16000, 1)
     """
     fs = _check_fs(fs)
-    n = int(round(_check_range(seconds, "seconds", high=3600.0) * fs))
+    n = round(_check_range(seconds, "seconds", high=3600.0) * fs)
     band = _check_band(band_hz, fs, "band_hz")
     period_s = _check_range(period_s, "period_s", high=seconds)
     burst_s = _check_range(burst_s, "burst_s", high=period_s)

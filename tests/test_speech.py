@@ -38,7 +38,7 @@ FITTING = [(fs, fc) for fs in RATES_HZ for fc in CENTRES_HZ if 1.25 * fc < 0.45 
 
 
 def _sine(freq_hz, fs, seconds=2.0, amplitude=1.0):
-    t = np.arange(int(round(seconds * fs))) / fs
+    t = np.arange(round(seconds * fs)) / fs
     return amplitude * np.sin(2 * np.pi * freq_hz * t)
 
 
@@ -92,7 +92,9 @@ class TestFindSibilance:
         tolerance = 2 * 0.025 * len(schedule.bursts_s) / 6.0
         assert r.sibilant_fraction == pytest.approx(schedule.burst_seconds / 6.0, abs=tolerance)
 
-    @pytest.mark.parametrize("fs, band", [(16000, (3000, 5000)), (48000, (6000, 9000)), (96000, (2200, 3800))])
+    @pytest.mark.parametrize(
+        "fs, band", [(16000, (3000, 5000)), (48000, (6000, 9000)), (96000, (2200, 3800))]
+    )
     def test_flat_bursts_over_tone(self, fs, band):
         r = find_sibilance(bursts_over_tone(fs, 3.0, band_hz=band), fs)
         # flat band: peak and 80 % band inside it, 3 % for the grid step
@@ -159,7 +161,9 @@ class TestFindSibilance:
         with pytest.raises(BadValueError, match=match):
             find_sibilance(x, fs, search_band_hz=band)
 
-    @pytest.mark.skipif(shutil.which("espeak-ng") is None, reason="espeak-ng speech synthesiser not installed")
+    @pytest.mark.skipif(
+        shutil.which("espeak-ng") is None, reason="espeak-ng speech synthesiser not installed"
+    )
     def test_synthesised_speech_is_sibilant(self, tmp_path):
         path = tmp_path / "phrase.wav"
         subprocess.run(["espeak-ng", "-w", str(path), "six sisters sell sea shells"], check=True, timeout=60)
@@ -315,7 +319,10 @@ class TestIntelligibilityCostOfTakes:
 
 
 # ITU-R BS.1770-4 Annex 1, Tables 1 and 2: K-weighting pre-filter (shelf) and RLB high-pass at 48 kHz
-_BS1770_SHELF = ([1.53512485958697, -2.69169618940638, 1.19839281085285], [1.0, -1.69065929318241, 0.73248077421585])
+_BS1770_SHELF = (
+    [1.53512485958697, -2.69169618940638, 1.19839281085285],
+    [1.0, -1.69065929318241, 0.73248077421585],
+)
 _BS1770_RLB = ([1.0, -2.0, 1.0], [1.0, -1.99004745483398, 0.99007225036621])
 
 
@@ -343,7 +350,7 @@ class TestLoudnessLufs:
     def test_published_shelf_shape(self):
         # BS.1770-4 Annex 1 Fig. 1: pre-filter shelf about +4 dB at high frequencies, ~0 dB at
         # 100 Hz; tolerance 0.1 dB (reading the figure)
-        shelf = lambda f: 20 * np.log10(abs(signal.freqz(*_BS1770_SHELF, [f], fs=48000)[1][0]))  # noqa: E731
+        shelf = lambda f: 20 * np.log10(abs(signal.freqz(*_BS1770_SHELF, [f], fs=48000)[1][0]))
         assert shelf(10000) == pytest.approx(4.0, abs=0.1) and shelf(100) == pytest.approx(0.0, abs=0.1)
 
     def test_two_channels_add_three_db(self):
@@ -355,7 +362,9 @@ class TestLoudnessLufs:
         assert loudness_lufs(np.zeros(48000), 48000) == -np.inf
 
     @pytest.mark.parametrize(
-        "x, match", [(np.zeros(19000), "0.4 s"), (np.zeros((48000, 6)), "6 channels")], ids=["short", "channels"]
+        "x, match",
+        [(np.zeros(19000), "0.4 s"), (np.zeros((48000, 6)), "6 channels")],
+        ids=["short", "channels"],
     )
     def test_rejects(self, x, match):
         with pytest.raises(BadValueError, match=match):

@@ -5,6 +5,8 @@ energy of the bursts lies; the AES17 dBFS convention (a full-scale sine reads 0 
 levels.
 """
 
+import itertools
+
 import numpy as np
 import pytest
 from scipy import signal
@@ -36,7 +38,7 @@ class TestTakeSchedule:
         events = sorted(s.syllables_s + s.bursts_s)
         assert events[0][0] >= 0.1 and events[-1][1] <= 9.9
         # each event ends before the next begins (a burst may touch its syllable)
-        assert all(a[1] <= b[0] + 1e-9 for a, b in zip(events, events[1:]))
+        assert all(a[1] <= b[0] + 1e-9 for a, b in itertools.pairwise(events))
 
     def test_first_event_is_a_burst_and_layout_is_deterministic(self):
         a, b = take_schedule(5.0, seed=3), take_schedule(5.0, seed=3)
@@ -58,7 +60,7 @@ class TestVoiceLikeTake:
         assert _dbfs_rms(x[:, 0]) == pytest.approx(-20.0, abs=0.01)
 
     def test_same_seed_same_samples_other_seed_differs(self):
-        kw = dict(pitch_hz=200, sibilance_hz=5000)
+        kw = {"pitch_hz": 200, "sibilance_hz": 5000}
         a, b = voice_like_take(16000, 1.0, **kw, seed=4), voice_like_take(16000, 1.0, **kw, seed=4)
         assert np.array_equal(a, b)
         assert not np.array_equal(a, voice_like_take(16000, 1.0, **kw, seed=5))
@@ -80,15 +82,15 @@ class TestVoiceLikeTake:
     @pytest.mark.parametrize(
         "kwargs, match",
         [
-            (dict(fs=4000), "sample rate 4000"),
-            (dict(sibilance_hz=7000, fs=16000), "sibilant band"),
-            (dict(level_dbfs=0.0), "would clip"),
-            (dict(pitch_hz=20), "pitch_hz = 20"),
-            (dict(channels=0), "channels = 0"),
+            ({"fs": 4000}, "sample rate 4000"),
+            ({"sibilance_hz": 7000, "fs": 16000}, "sibilant band"),
+            ({"level_dbfs": 0.0}, "would clip"),
+            ({"pitch_hz": 20}, "pitch_hz = 20"),
+            ({"channels": 0}, "channels = 0"),
         ],
     )
     def test_rejects_bad_values(self, kwargs, match):
-        args = dict(fs=48000, pitch_hz=120, sibilance_hz=6000) | kwargs
+        args = {"fs": 48000, "pitch_hz": 120, "sibilance_hz": 6000} | kwargs
         with pytest.raises(BadValueError, match=match):
             voice_like_take(args.pop("fs"), 1.0, **args)
 

@@ -22,8 +22,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from emulate.speech import find_sibilance, most_sibilant_excerpt  # noqa: E402
-from emulate.synth import voice_like_take  # noqa: E402
+from emulate.speech import find_sibilance, most_sibilant_excerpt
+from emulate.synth import voice_like_take
 
 FS_HZ = 48000
 SIBILANCE_HZ = 6000.0
@@ -45,7 +45,9 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seconds", type=float, default=60.0, help="take length in seconds")
     parser.add_argument("--repeats", type=int, default=7, help="timed runs (at least 5)")
-    parser.add_argument("--json", type=Path, default=ROOT / "bench-out" / "sibilance.json", help="JSON output path")
+    parser.add_argument(
+        "--json", type=Path, default=ROOT / "bench-out" / "sibilance.json", help="JSON output path"
+    )
     args = parser.parse_args(argv)
     repeats = max(args.repeats, 5)
 
