@@ -24,7 +24,7 @@ the suggested notch is a starting point for the design and sweep tools.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pyloudnorm
@@ -191,7 +191,7 @@ class SibilanceReport:
     suggested_q: float
     suggested_depth_db: float
     suggested_mix: float
-    spectrum_db: tuple[float, ...]
+    spectrum_db: tuple[float, ...] = field(repr=False)
 
 
 # --------------------------------------------------------------------------- validation
@@ -292,8 +292,8 @@ def _frame_power(mono: np.ndarray, fs: float) -> tuple[np.ndarray, np.ndarray, i
     return np.fft.rfftfreq(nfft, 1.0 / fs), power, hop
 
 
-def _analyse(x, fs: float, search_band_hz) -> tuple[_Frames, tuple[float, float], float]:
-    """Stages 1-3 of the finder; returns the frames, the clipped band and the duration."""
+def _analyse(x, fs: float, search_band_hz) -> tuple[_Frames | None, tuple[float, float], float]:
+    """Stages 1-3 of the finder; returns the frames (None if shorter than a frame), band, duration."""
     take = _as_take(x)
     fs = _check_fs(fs)
     band = _check_band(search_band_hz, fs, "search_band_hz")

@@ -121,6 +121,13 @@ class TestFindSibilance:
         assert not r.usable and r.reason.startswith(reason)
         assert np.isnan(r.peak_hz)
 
+    @pytest.mark.parametrize("fs", RATES_HZ)
+    @pytest.mark.parametrize("pitch_hz", [90, 220, 400])
+    def test_vowel_only_takes_have_no_sibilance(self, fs, pitch_hz):
+        # harmonics stop at 5 kHz with a -6 dB/octave slope: no frame is search-band dominated
+        r = find_sibilance(voice_like_take(fs, 3.0, pitch_hz=pitch_hz, sibilance_hz=None, seed=1), fs)
+        assert not r.usable and r.sibilant_seconds == 0.0
+
     def test_stereo_copy_reads_like_mono(self):
         mono = voice_like_take(48000, 3.0, pitch_hz=120, sibilance_hz=6000, seed=2)
         a, b = find_sibilance(mono, 48000), find_sibilance(np.repeat(mono, 2, axis=1), 48000)
