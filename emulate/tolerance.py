@@ -1,0 +1,616 @@
+"""Tolerance analysis of a twin-T: Monte Carlo builds, worst-case corners, a trim.
+
+The pipeline, top to bottom:
+
+1. tolerances  one per part class (R1..R3, C1..C3) as a fraction, and a
+               distribution: ``"uniform"`` within +-tolerance, or ``"normal"`` with
+               the tolerance as 3 sigma (untruncated but for a cut at 5.9 sigma that
+               keeps every value positive up to a 50 % tolerance, so about 0.27 % of
+               normal draws lie outside the marked tolerance, as unscreened parts can).
+2. draws       draw i of seed s is a pure function of (s, i): six numbers from the
+               SplitMix64 stream (Steele, Lea & Flood, "Fast splittable pseudorandom
+               number generators", OOPSLA 2014) at counter 6 i .. 6 i + 5 under a
+               key mixed from s.  So ``build_at(..., which=37)`` rebuilds build 37
+               alone, and 10,000 draws are one vectorised expression.
+3. rational    every build's exact H(s) = N(s) / D(s) from its nodal equations:
+               D(s) = det(G + sC) and N(s) = -det([[G + sC, b], [l, 0]]) are
+               polynomials of degree <= rank(C), so their values at rank(C) + 1 points
+               on a circle of radius 2 pi f_nominal give the coefficients exactly by
+               a discrete Fourier transform (well conditioned: the points are
+               equally spaced on the circle).  Evaluating a cubic is then ~100x
+               cheaper than solving the nodal equations at each frequency.
+4. measure     :func:`emulate.response.measure_batch` on that rational form, in a
+               narrow band around the nominal notch (the notch of a build moves by
+               no more than a few times the tolerances) with a coarse grid and the
+               usual golden-section refinement.  Depths below the passband are
+               capped at ``DEPTH_CAP_DB`` (deeper is an exact null in floating point).
+5. report      percentiles, yield against a depth spec, a sensitivity ranking
+               (Spearman rank correlation of each part's deviation with the notch
+               shift, and of its size |deviation| with the depth), the 2^6 worst-case
+               corners, and a trim of R3 (:func:`suggest_trim`).
+
+Why the depth depends on the null condition only: for every member of the
+family (passive, loaded, driven from a resistance, bootstrapped) the null is a
+zero of the transfer from the network's input node to its output node; at a
+j-axis zero the output is 0 V, so neither the load, the source nor the
+bootstrap follower (driven from K x 0 V) carries signal.  The j-axis zeros exist
+exactly when R1 R2 C3 = R3 (R1 + R2)(C1 + C2) (derived symbolically in
+tests/test_networks.py), so R3 alone can restore the null of any build; the C
+mismatch then only moves the null frequency, w0^2 = 1 / (R3 (R1 + R2) C1 C2).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import special, stats
+
+from emulate import parts
+from emulate.errors import BadValueError
+from emulate.networks import PART_NAMES, TwinT
+from emulate.response import measure_batch
+from emulate.validate import check_range
+
+DISTRIBUTIONS = ("uniform", "normal")
+DEFAULT_DRAWS = 10_000
+DEFAULT_SPEC_DB = 30.0
+DEFAULT_TRIM_SHARE = 0.95
+DEPTH_CAP_DB = 200.0  # deeper than this below the passband is an exact null in float64
+PERCENTILES = (5.0, 50.0, 95.0)
+NORMAL_SIGMAS = 3.0  # the tolerance is 3 sigma for "normal"
+_NORMAL_CUT = 5.9  # sigmas: keeps 1 - 0.5 * 5.9 / 3 > 0 at the 50 % tolerance limit
+_MAX_DRAWS = 1_000_000
+_SEARCH_POINTS = 48
+_SEARCH_SPAN = 4.0  # the band is nominal notch x exp(+-(SPAN x (r_tol + c_tol) + 2 %))
+_CORNER_SIGNS = np.array(list(itertools.product((-1.0, 1.0), repeat=len(PART_NAMES))))
+# Standard single-turn and multi-turn trimmer values (common practice, no source).
+TRIMMER_OHMS = (100.0, 200.0, 500.0, 1e3, 2e3, 5e3, 10e3, 20e3, 50e3, 100e3, 200e3, 500e3, 1e6)
+TRIMMER_TRACK_TOLERANCE = 0.20  # cermet trimmer track, +-20 % (common practice, no source)
+TRIMMER_RESOLUTION = 0.001  # settable to 0.1 % of the track, a multi-turn cermet (common practice)
+
+
+# --- 1. tolerances ------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Tolerances:
+    """Part tolerances per class and the distribution of a build's deviations.
+
+    Parameters
+    ----------
+    resistors, capacitors : float
+        Tolerance of R1..R3 and of C1..C3 as a fraction (0.01 = 1 %), 0 to 0.5.
+    distribution : {"uniform", "normal"}
+        ``"uniform"``: each part uniform within +-tolerance; ``"normal"``: the
+        tolerance is 3 sigma (cut at 5.9 sigma).
+
+    Does not model drift, temperature or ageing.
+
+    Raises
+    ------
+    BadValueError : a tolerance outside 0..50 % or an unknown distribution.
+
+    Example
+    -------
+    >>> Tolerances.parse("F", "5%").fractions().tolist()
+    [0.01, 0.01, 0.01, 0.05, 0.05, 0.05]
+    """
+
+    resistors: float
+    capacitors: float
+    distribution: str = "uniform"
+
+    def __post_init__(self):
+        check_range("resistor tolerance (fraction)", self.resistors, 0.0, 0.5)
+        check_range("capacitor tolerance (fraction)", self.capacitors, 0.0, 0.5)
+        if self.distribution not in DISTRIBUTIONS:
+            raise BadValueError(f"distribution {self.distribution!r}: allowed {', '.join(DISTRIBUTIONS)}")
+
+    @classmethod
+    def parse(cls, resistors="1%", capacitors="5%", distribution: str = "uniform") -> "Tolerances":
+        """Read tolerances as written ("1%", "F", 0.01) by :func:`emulate.parts.parse_tolerance`."""
+        return cls(parts.parse_tolerance(resistors), parts.parse_tolerance(capacitors),
+                   str(distribution).strip().lower())
+
+    def fractions(self) -> np.ndarray:
+        """The tolerance of each part in ``PART_NAMES`` order, fractions."""
+        return np.array([self.resistors if name.startswith("r") else self.capacitors for name in PART_NAMES])
+
+    def describe(self) -> str:
+        """e.g. ``"R 1 %, C 5 %, uniform"``."""
+        how = "uniform" if self.distribution == "uniform" else "normal, tolerance = 3 sigma"
+        return f"R {parts.format_tolerance(self.resistors)}, C {parts.format_tolerance(self.capacitors)}, {how}"
+
+
+# --- 2. reproducible draws ------------------------------------------------------
+
+_GAMMA = np.uint64(0x9E3779B97F4A7C15)
+_MIX1 = np.uint64(0xBF58476D1CE4E5B9)
+_MIX2 = np.uint64(0x94D049BB133111EB)
+
+
+def _mix64(x: np.ndarray) -> np.ndarray:
+    """The SplitMix64 output function (Steele, Lea & Flood 2014), wrapping uint64 arithmetic."""
+    x = (x ^ (x >> np.uint64(30))) * _MIX1
+    x = (x ^ (x >> np.uint64(27))) * _MIX2
+    return x ^ (x >> np.uint64(31))
+
+
+def check_seed(seed) -> int:
+    """Return ``seed`` as an int after checking it is an integer 0 <= seed < 2**63.
+
+    Raises
+    ------
+    BadValueError : anything else.
+    """
+    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or not 0 <= int(seed) < 2**63:
+        raise BadValueError(f"seed {seed!r}: allowed an integer 0 .. 2**63 - 1")
+    return int(seed)
+
+
+def unit_draws(seed: int, which) -> np.ndarray:
+    """Uniform numbers in (0, 1), shape (len(which), 6), for draw numbers ``which``.
+
+    Row j depends only on ``seed`` and ``which[j]``.
+
+    Example
+    -------
+    >>> bool(np.all(unit_draws(1, [37])[0] == unit_draws(1, range(40))[37]))
+    True
+    """
+    which = np.asarray(which, dtype=np.int64).reshape(-1)
+    if np.any(which < 0):
+        raise BadValueError(f"draw numbers {which[which < 0][:3].tolist()}: allowed integers >= 0")
+    with np.errstate(over="ignore"):
+        key = _mix64(np.array([check_seed(seed)], dtype=np.uint64) * _GAMMA + _GAMMA)
+        counter = which.astype(np.uint64)[:, None] * np.uint64(len(PART_NAMES)) + np.arange(
+            1, len(PART_NAMES) + 1, dtype=np.uint64)
+        bits = _mix64(key + counter * _GAMMA)
+    return ((bits >> np.uint64(11)).astype(np.float64) + 0.5) * 2.0**-53
+
+
+def deviations(tolerances: Tolerances, seed: int, which) -> np.ndarray:
+    """Relative deviation of each part, shape (len(which), 6): value = nominal x (1 + deviation)."""
+    u = unit_draws(seed, which)
+    if tolerances.distribution == "uniform":
+        unit = 2.0 * u - 1.0
+    else:
+        unit = np.clip(special.ndtri(u), -_NORMAL_CUT, _NORMAL_CUT) / NORMAL_SIGMAS
+    return unit * tolerances.fractions()
+
+
+def _check_nominal(nominal: TwinT) -> None:
+    if any(np.ndim(v) for v in nominal.parts().values()):
+        raise BadValueError("the nominal network must have one value per part, not a batch")
+
+
+def builds(nominal: TwinT, deviation: np.ndarray) -> TwinT:
+    """The batch of networks ``nominal`` x (1 + deviation), one row of ``deviation`` a build."""
+    deviation = np.atleast_2d(deviation)
+    return nominal.replace(**{name: value * (1.0 + deviation[:, i])
+                              for i, (name, value) in enumerate(nominal.parts().items())})
+
+
+# --- 3. the exact rational form of a batch ----------------------------------------
+
+class RationalBatch:
+    """Each build's exact H(s) = N(s) / D(s), from its nodal equations (module note 3).
+
+    Parameters
+    ----------
+    network : TwinT
+        Part values may be arrays (a batch of builds).
+    f_ref_hz : float
+        Radius of the interpolation circle, Hz (use the nominal notch).
+
+    Example
+    -------
+    >>> net = TwinT.balanced(1000.0, r_ohms=10e3)
+    >>> h = RationalBatch(net, 1000.0).response([100.0, 1000.0])
+    >>> bool(np.allclose(h, net.response([100.0, 1000.0]), atol=1e-12))
+    True
+    """
+
+    def __init__(self, network: TwinT, f_ref_hz: float):
+        circuit, output = network.circuit()
+        g, c, b, l = circuit.matrices(output)
+        points = int(np.linalg.matrix_rank(c[0])) + 1
+        rotate = np.exp(1j * np.pi / points)  # keep the points off the real and j axes
+        sigma = rotate * np.exp(2j * np.pi * np.arange(points) / points)
+        w_ref = 2 * np.pi * f_ref_hz
+        system = g[:, None] + (w_ref * sigma)[None, :, None, None] * c[:, None]
+        n = g.shape[-1]
+        bordered = np.zeros(system.shape[:2] + (n + 1, n + 1), complex)
+        bordered[..., :n, :n] = system
+        bordered[..., :n, n] = b
+        bordered[..., n, :n] = l
+        den = np.linalg.det(system)
+        num = -np.linalg.det(bordered)
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        powers = rotate ** -np.arange(points)
+        self.num = (np.fft.fft(num / scale, axis=1) / points * powers).real  # (builds, degree + 1)
+        self.den = (np.fft.fft(den / scale, axis=1) / points * powers).real
+        self.f_ref_hz = float(f_ref_hz)
+        self.single = g.shape[0] == 1 and not np.ndim(network.r1)
+
+    def response(self, f_hz) -> np.ndarray:
+        """Complex response at ``f_hz``: (builds, m) for 1-D or per-build (builds, m) ``f_hz``."""
+        sigma = 1j * np.atleast_2d(np.asarray(f_hz, float)) / self.f_ref_hz
+        return _horner(self.num, sigma) / _horner(self.den, sigma)
+
+
+def _horner(coefficients: np.ndarray, sigma: np.ndarray) -> np.ndarray:
+    """sum_j c[:, j] sigma^j per build (coefficients lowest power first)."""
+    total = np.zeros(np.broadcast_shapes(sigma.shape, coefficients[:, :1].shape), complex)
+    for j in range(coefficients.shape[1] - 1, -1, -1):
+        total = total * sigma + coefficients[:, j:j + 1]
+    return total
+
+
+# --- 4. measuring many builds -----------------------------------------------------
+
+@dataclass(frozen=True)
+class BatchMetrics:
+    """Notch frequency (Hz) and depth below the passband (dB, capped) per build."""
+
+    notch_hz: np.ndarray
+    depth_db: np.ndarray
+
+
+def search_band_hz(notch_hz: float, tolerances: Tolerances) -> tuple[float, float]:
+    """The band searched for the notch of every build, Hz (module note 4)."""
+    reach = 1.0 if tolerances.distribution == "uniform" else _NORMAL_CUT / NORMAL_SIGMAS
+    span = _SEARCH_SPAN * reach * (tolerances.resistors + tolerances.capacitors) + 0.02
+    return notch_hz * math.exp(-span), notch_hz * math.exp(span)
+
+
+def measure_builds(network: TwinT, band_hz, f_ref_hz: float) -> BatchMetrics:
+    """Notch and depth of each build of a batch, searched within ``band_hz`` (Hz)."""
+    rational = RationalBatch(network, f_ref_hz)
+    metrics = measure_batch(rational.response, search_hz=band_hz, points=_SEARCH_POINTS)
+    notch = np.array([m.notch_hz for m in metrics])
+    depth = np.array([m.depth_below_passband_db for m in metrics])
+    return BatchMetrics(notch, np.minimum(depth, DEPTH_CAP_DB))
+
+
+def _nominal_notch_hz(nominal: TwinT) -> float:
+    """The nominal network's notch, searched over the whole audio range and beyond."""
+    return measure_builds(nominal, (1.0, 200e3), float(nominal.null_hz())).notch_hz[0]
+
+
+# --- 5. results -------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class PartSensitivity:
+    """How much one part matters (Spearman rank correlations over the draws).
+
+    ``notch_corr``: of its deviation with the log notch shift (sign = direction);
+    ``depth_corr``: of its |deviation| with the depth (negative: a bigger error,
+    a shallower notch).
+    """
+
+    part: str
+    notch_corr: float
+    depth_corr: float
+
+
+@dataclass(frozen=True)
+class Corners:
+    """All 2^6 worst-case corners: each part at +-tolerance, measured exactly."""
+
+    signs: np.ndarray
+    notch_hz: np.ndarray
+    depth_db: np.ndarray
+
+    @property
+    def worst_index(self) -> int:
+        return int(np.argmin(self.depth_db))
+
+    @property
+    def worst_depth_db(self) -> float:
+        return float(self.depth_db[self.worst_index])
+
+    @property
+    def notch_range_hz(self) -> tuple[float, float]:
+        return float(self.notch_hz.min()), float(self.notch_hz.max())
+
+    def as_dict(self) -> dict:
+        worst = self.signs[self.worst_index]
+        return {"worst_depth_db": self.worst_depth_db,
+                "worst_signs": {name.upper(): "+" if s > 0 else "-" for name, s in zip(PART_NAMES, worst)},
+                "notch_low_hz": self.notch_range_hz[0], "notch_high_hz": self.notch_range_hz[1]}
+
+
+@dataclass(frozen=True)
+class ToleranceResult:
+    """A Monte Carlo run and the worst-case corners of one nominal network.
+
+    Attributes
+    ----------
+    nominal : the network analysed; tolerances, seed, spec_db as given.
+    deviation : (draws, 6) relative part deviations (draw i is row i).
+    notch_hz, depth_db : (draws,) notch frequency, Hz, and depth below the
+        passband, dB (positive, capped at ``DEPTH_CAP_DB``).
+    nominal_notch_hz, nominal_depth_db : the nominal network's.
+    corners : the worst-case corners.
+    """
+
+    nominal: TwinT
+    tolerances: Tolerances
+    seed: int
+    spec_db: float
+    deviation: np.ndarray = field(repr=False)
+    notch_hz: np.ndarray = field(repr=False)
+    depth_db: np.ndarray = field(repr=False)
+    nominal_notch_hz: float
+    nominal_depth_db: float
+    corners: Corners = field(repr=False)
+
+    @property
+    def draws(self) -> int:
+        return len(self.notch_hz)
+
+    @property
+    def yield_fraction(self) -> float:
+        """Share of draws at least ``spec_db`` below the passband."""
+        return float(np.mean(self.depth_db >= self.spec_db))
+
+    @property
+    def typical_index(self) -> int:
+        """The draw whose depth is nearest the median depth (the lowest such number)."""
+        return int(np.argmin(np.abs(self.depth_db - np.median(self.depth_db))))
+
+    def percentiles(self, values: np.ndarray, at=PERCENTILES) -> dict[str, float]:
+        return {f"p{p:g}": float(np.percentile(values, p)) for p in at}
+
+    def sensitivity(self) -> list[PartSensitivity]:
+        """Every part, the one that matters most for the depth first."""
+        shift = np.log(self.notch_hz / self.nominal_notch_hz)
+        found = []
+        for i, name in enumerate(PART_NAMES):
+            d = self.deviation[:, i]
+            flat = np.ptp(d) == 0
+            found.append(PartSensitivity(
+                name.upper(),
+                0.0 if flat else float(stats.spearmanr(d, shift).statistic),
+                0.0 if flat else float(stats.spearmanr(np.abs(d), self.depth_db).statistic)))
+        return sorted(found, key=lambda s: (-abs(np.nan_to_num(s.depth_corr)), -abs(s.notch_corr)))
+
+    def draw(self, which: int) -> TwinT:
+        """Build ``which`` as a network with one value per part."""
+        return _single(builds(self.nominal, self.deviation[which]))
+
+    def envelope(self, f_hz, at=PERCENTILES, max_builds: int = 2000) -> dict[str, np.ndarray]:
+        """Percentiles of |H| in dB over the builds (the first ``max_builds``) at ``f_hz``."""
+        batch = builds(self.nominal, self.deviation[:max_builds])
+        magnitude = np.abs(RationalBatch(batch, self.nominal_notch_hz).response(f_hz))
+        level = 20 * np.log10(np.maximum(magnitude, 10 ** (-DEPTH_CAP_DB / 20)))
+        return {f"p{p:g}": np.percentile(level, p, axis=0) for p in at}
+
+    def as_dict(self) -> dict:
+        ranking = self.sensitivity()
+        return {
+            "draws": self.draws, "seed": self.seed, "tolerances": self.tolerances.describe(),
+            "distribution": self.tolerances.distribution,
+            "nominal_notch_hz": self.nominal_notch_hz, "nominal_depth_db": self.nominal_depth_db,
+            **{f"notch_hz_{k}": v for k, v in self.percentiles(self.notch_hz).items()},
+            **{f"depth_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
+            "spec_db": self.spec_db, "yield": self.yield_fraction,
+            "typical_build": self.typical_index,
+            "matters_most": ranking[0].part,
+            "sensitivity": [s.__dict__ for s in ranking],
+            "worst_corner": self.corners.as_dict(),
+        }
+
+
+def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_DRAWS, seed: int = 0,
+                spec_db: float = DEFAULT_SPEC_DB) -> ToleranceResult:
+    """Measure ``draws`` builds of ``nominal`` and its 64 worst-case corners.
+
+    Parameters
+    ----------
+    nominal : TwinT
+        The network as designed (one value per part); source, load, bootstrap
+        and depth control are kept for every build.
+    tolerances : Tolerances
+        Per part class, with the distribution.
+    draws : int
+        Number of builds, 1 to 1,000,000 (default 10,000).
+    seed : int
+        0 <= seed < 2**63; build i of a seed is always the same network.
+    spec_db : float
+        Depth spec below the passband, dB (> 0), for the yield.
+
+    Does not model the trim; see :func:`suggest_trim`.
+
+    Raises
+    ------
+    BadValueError : a bad count, seed, spec or a batched nominal.
+
+    Example
+    -------
+    >>> r = monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), Tolerances(0.01, 0.01), draws=200)
+    >>> 0.9 < r.percentiles(r.notch_hz)["p50"] / 1000.0 < 1.1
+    True
+    """
+    _check_nominal(nominal)
+    check_range("draws", draws, 1, _MAX_DRAWS)
+    if int(draws) != draws:
+        raise BadValueError(f"draws {draws!r}: allowed a whole number 1 .. {_MAX_DRAWS}")
+    check_range("depth spec (dB)", spec_db, 0.0, DEPTH_CAP_DB, low_open=True)
+    seed = check_seed(seed)
+    f_nominal = _nominal_notch_hz(nominal)
+    band = search_band_hz(f_nominal, tolerances)
+    deviation = deviations(tolerances, seed, np.arange(int(draws)))
+    measured = measure_builds(builds(nominal, deviation), band, f_nominal)
+    corners = worst_corners(nominal, tolerances, f_nominal)
+    nominal_depth = measure_builds(nominal, band, f_nominal).depth_db[0]
+    return ToleranceResult(nominal, tolerances, seed, float(spec_db), deviation, measured.notch_hz,
+                           measured.depth_db, f_nominal, float(nominal_depth), corners)
+
+
+def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None = None) -> Corners:
+    """Every combination of each part at -tolerance or +tolerance (64 networks), measured.
+
+    Example
+    -------
+    >>> c = worst_corners(TwinT.balanced(1000.0, r_ohms=10e3), Tolerances(0.01, 0.01))
+    >>> len(c.depth_db), 35 < c.worst_depth_db < 50
+    (64, True)
+    """
+    _check_nominal(nominal)
+    f_nominal = _nominal_notch_hz(nominal) if notch_hz is None else notch_hz
+    band = search_band_hz(f_nominal, Tolerances(tolerances.resistors, tolerances.capacitors))
+    measured = measure_builds(builds(nominal, _CORNER_SIGNS * tolerances.fractions()), band, f_nominal)
+    return Corners(_CORNER_SIGNS.copy(), measured.notch_hz, measured.depth_db)
+
+
+def build_at(nominal: TwinT, tolerances: Tolerances, which, seed: int = 0, *,
+             draws: int = DEFAULT_DRAWS) -> TwinT:
+    """One build as a network: ``"typical"``, ``"worst"``, ``"nominal"`` or a draw number.
+
+    ``"typical"`` is the draw nearest the median depth of ``draws`` draws;
+    ``"worst"`` the worst-depth corner; an integer (or its text) is draw number
+    ``which`` of ``seed``, independent of ``draws``.
+
+    Raises
+    ------
+    BadValueError : an unknown ``which``, a negative draw number, a bad seed.
+
+    Example
+    -------
+    >>> net = TwinT.balanced(1000.0, r_ohms=10e3)
+    >>> build_at(net, Tolerances(0.01, 0.05), 37, seed=3) == build_at(net, Tolerances(0.01, 0.05), "37", seed=3)
+    True
+    """
+    _check_nominal(nominal)
+    choice = str(which).strip().lower()
+    if choice == "nominal":
+        return nominal
+    if choice == "typical":
+        result = monte_carlo(nominal, tolerances, draws=draws, seed=seed)
+        return result.draw(result.typical_index)
+    if choice == "worst":
+        corners = worst_corners(nominal, tolerances)
+        return _single(builds(nominal, corners.signs[corners.worst_index] * tolerances.fractions()))
+    if not choice.isdigit():
+        raise BadValueError(f"build {which!r}: allowed typical, worst, nominal or a draw number >= 0")
+    return _single(builds(nominal, deviations(tolerances, check_seed(seed), [int(choice)])))
+
+
+def _single(batch: TwinT) -> TwinT:
+    return batch.replace(**{name: float(np.asarray(v).reshape(-1)[0]) for name, v in batch.parts().items()})
+
+
+# --- trim ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class TrimSuggestion:
+    """R3 as a fixed resistor in series with a trimmer, and what it achieves (measured).
+
+    Attributes
+    ----------
+    fixed_ohms, trimmer_ohms : the fixed part (preferred value) and the trimmer track.
+    share : share of the draws whose null the trimmer can reach (measured);
+        ``target_share`` as asked.
+    setting_range_ohms : (lo, hi) trimmer settings needed by the middle
+        ``target_share`` of the draws.
+    depth_db : percentiles of the depth after trimming each build to its best
+        setting within ``resolution`` of the track (unreachable builds at the end stop).
+    notch_hz : percentiles of the notch after trimming (R3 cannot restore the
+        frequency: the C mismatch still moves it).
+    """
+
+    fixed_ohms: float
+    trimmer_ohms: float
+    target_share: float
+    share: float
+    setting_range_ohms: tuple[float, float]
+    resolution: float
+    depth_db: dict
+    notch_hz: dict
+    where: str = "R3 = fixed resistor in series with the trimmer (wiper tied to one end: a variable resistor)"
+
+    def as_dict(self) -> dict:
+        return {"part": "R3", "fixed_ohms": self.fixed_ohms, "trimmer_ohms": self.trimmer_ohms,
+                "fixed": parts.format_value(self.fixed_ohms, "resistance"),
+                "trimmer": parts.format_value(self.trimmer_ohms, "resistance"),
+                "target_share": self.target_share, "share": self.share,
+                "setting_range_ohms": list(self.setting_range_ohms), "resolution": self.resolution,
+                **{f"depth_db_{k}": v for k, v in self.depth_db.items()},
+                **{f"notch_hz_{k}": v for k, v in self.notch_hz.items()}, "where": self.where}
+
+    def describe(self) -> str:
+        return (f"R3 = {parts.format_value(self.fixed_ohms, 'resistance')} + "
+                f"{parts.format_value(self.trimmer_ohms, 'resistance')} trimmer: reaches the null in "
+                f"{self.share:.1%} of builds; trimmed depth {self.depth_db['p5']:.0f}-{self.depth_db['p95']:.0f} dB "
+                f"(p5-p95, set to {self.resolution:.1%} of the track)")
+
+
+def r3_for_null(r1, r2, c1, c2, c3):
+    """R3 (ohms) meeting the null condition R1 R2 C3 = R3 (R1 + R2)(C1 + C2)."""
+    return r1 * r2 * c3 / ((r1 + r2) * (c1 + c2))
+
+
+def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, series: str = "E24",
+                 resolution: float = TRIMMER_RESOLUTION) -> TrimSuggestion:
+    """Size a fixed resistor plus trimmer for R3 that restores the null in ``share`` of the builds.
+
+    The needed R3 of each build follows from its own R1, R2, C1..C3
+    (:func:`r3_for_null`); the fixed part carries that build's R3 deviation;
+    the trimmer's guaranteed range is its track x (1 - 20 %).  The smallest
+    standard trimmer (finest setting) for which some preferred fixed value
+    covers ``share`` of the builds wins; if none does, the best coverage found.
+    Each build is then set to its needed R3 plus half a resolution step of the
+    track (clamped to the trimmer's range) and measured.
+
+    Parameters
+    ----------
+    result : a Monte Carlo run.
+    share : 0.5 to 1, share of builds to cover.
+    series : IEC 60063 series of the fixed part.
+    resolution : fraction of the track a setting can be trusted to (0 < r <= 0.1).
+
+    Raises
+    ------
+    BadValueError : ``share`` or ``resolution`` out of range, unknown series.
+
+    Example
+    -------
+    >>> r = monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), Tolerances(0.01, 0.05), draws=500)
+    >>> suggest_trim(r).share >= 0.95
+    True
+    """
+    check_range("trim share", share, 0.5, 1.0)
+    check_range("trimmer resolution (fraction of track)", resolution, 0.0, 0.1, low_open=True)
+    batch = builds(result.nominal, result.deviation)
+    needed = r3_for_null(batch.r1, batch.r2, batch.c1, batch.c2, batch.c3)
+    r3_scale = 1.0 + result.deviation[:, PART_NAMES.index("r3")]
+    fixed, trimmer, covered = _size_trim(needed, r3_scale, share, series)
+    setting = np.clip(needed - fixed * r3_scale, 0.0, trimmer * (1 - TRIMMER_TRACK_TOLERANCE))
+    trimmed = batch.replace(r3=fixed * r3_scale + setting + 0.5 * resolution * trimmer)
+    measured = measure_builds(trimmed, search_band_hz(result.nominal_notch_hz, result.tolerances),
+                              result.nominal_notch_hz)
+    tail = (1 - share) / 2
+    need = needed - fixed * r3_scale
+    return TrimSuggestion(fixed, trimmer, float(share), covered,
+                          (float(np.quantile(need, tail)), float(np.quantile(need, 1 - tail))), float(resolution),
+                          result.percentiles(measured.depth_db), result.percentiles(measured.notch_hz))
+
+
+def _size_trim(needed, r3_scale, share, series):
+    """(fixed ohms, trimmer ohms, covered share): the smallest trimmer that covers ``share``."""
+    fixed_values = np.array(parts.series_values(series, needed.min() / 4, needed.max()))
+    best = None
+    for trimmer in TRIMMER_OHMS:
+        reach = trimmer * (1 - TRIMMER_TRACK_TOLERANCE)
+        setting = needed[None, :] - fixed_values[:, None] * r3_scale[None, :]
+        coverage = np.mean((setting >= 0) & (setting <= reach), axis=1)
+        i = int(np.argmax(coverage))
+        if best is None or coverage[i] > best[2] + 1e-12:
+            best = (float(fixed_values[i]), trimmer, float(coverage[i]))
+        if coverage[i] >= share:
+            return float(fixed_values[i]), trimmer, float(coverage[i])
+    return best
