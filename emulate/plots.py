@@ -1,0 +1,337 @@
+"""Pictures: PNG charts for the build sheet and the command line.
+
+Every chart is drawn on a bare :class:`matplotlib.figure.Figure` with the Agg
+canvas (headless, no global pyplot state), in one house style: white ground,
+light grid, log frequency axes in Hz, levels in dB, ``FIG_SIZE_PX`` pixels.
+Each function writes one PNG atomically (a temporary file beside ``path``,
+then a rename) and returns the path.  Nothing here measures anything new: the
+numbers come from :mod:`emulate.response`, :mod:`emulate.tolerance`,
+:mod:`emulate.emulation` and the caller's rows.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from scipy import signal
+
+from emulate.errors import BadValueError
+from emulate.parts import format_value
+from emulate.response import db, measure
+
+FIG_SIZE_PX = (1200, 800)
+DPI = 100
+FLOOR_DB = -120.0  # charts stop here; deeper nulls are drawn at the floor
+IMPULSE_SECONDS = 2.0  # digital response read from this much of the processor's impulse response
+SWEEP_KEYS = ("notch_hz", "sibilance_reduction_db", "loudness_change_db", "intelligibility_cost")
+_INK, _ANALOG, _DIGITAL, _BAND, _MARK = "#1d2733", "#1f5fa8", "#d9822b", "#9ab7d9", "#b8323c"
+_STYLE = {
+    "font.size": 12, "axes.titlesize": 14, "axes.labelsize": 12, "axes.edgecolor": "#8a939c",
+    "axes.grid": True, "grid.color": "#e3e7eb", "grid.linewidth": 0.8, "axes.spines.top": False,
+    "axes.spines.right": False, "lines.linewidth": 2.0, "legend.frameon": False,
+    "text.color": _INK, "axes.labelcolor": _INK, "xtick.color": _INK, "ytick.color": _INK,
+}
+
+
+# --- shared drawing -------------------------------------------------------------
+
+def _figure(rows: int = 1) -> tuple[Figure, list]:
+    import matplotlib
+
+    with matplotlib.rc_context(_STYLE):
+        figure = Figure(figsize=(FIG_SIZE_PX[0] / DPI, FIG_SIZE_PX[1] / DPI), dpi=DPI)
+        FigureCanvasAgg(figure)
+        axes = figure.subplots(rows, 1, sharex=True, squeeze=False)[:, 0].tolist()
+    return figure, axes
+
+
+def _frequency_axis(ax, band_hz) -> None:
+    """Log frequency in Hz, ticks written as the trade writes them (100, 1k, 6k)."""
+    from matplotlib.ticker import FuncFormatter
+
+    ax.set_xscale("log")
+    ax.set_xlim(*band_hz)
+    ax.set_xlabel("frequency (Hz)")
+    ax.xaxis.set_major_formatter(FuncFormatter(_hz_label))
+    if band_hz[1] / band_hz[0] < 30:
+        ax.xaxis.set_minor_formatter(FuncFormatter(_hz_label))
+
+
+def _hz_label(value: float, _position=None) -> str:
+    return format_value(float(value), None, 2) if value > 0 else ""
+
+
+def _save(figure: Figure, path) -> Path:
+    """Write the PNG atomically; refuses a folder that does not exist."""
+    import matplotlib
+
+    path = Path(path)
+    if not path.parent.is_dir():
+        raise BadValueError(f"{path}: folder {path.parent} does not exist")
+    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".png", dir=path.parent)
+    os.close(handle)
+    os.chmod(temporary, 0o644)  # mkstemp makes it private; a picture is for reading
+    try:
+        with matplotlib.rc_context(_STYLE):
+            figure.savefig(temporary, format="png", dpi=DPI, facecolor="white")
+        os.replace(temporary, path)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
+    return path
+
+
+def _level_db(h) -> np.ndarray:
+    return np.maximum(db(h), FLOOR_DB)
+
+
+# --- response ---------------------------------------------------------------------
+
+def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
+    """The emulation's complex response at ``f_hz`` (Hz) and its fidelity figure (dB).
+
+    Read from the impulse response of :func:`emulate.emulation.processor_for`
+    (mix and depth control included), ``IMPULSE_SECONDS`` long.
+    """
+    from emulate.emulation import processor_for
+
+    processor = processor_for(network)
+    processor.prepare(fs, 1)
+    impulse = np.zeros((int(IMPULSE_SECONDS * fs), 1))
+    impulse[0, 0] = 1.0
+    h = processor.process(impulse)[:, 0]
+    _, response = signal.freqz(h, worN=np.asarray(f_hz, float), fs=fs)
+    return response, processor.fidelity_db
+
+
+def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
+    """Largest |dB| difference from 20 Hz up wherever the analog is above ``floor_db`` (dB)."""
+    level = db(h_analog)
+    keep = (np.asarray(f_hz) >= 20.0) & (level > floor_db)
+    return float(np.max(np.abs(db(h_digital)[keep] - level[keep]))) if np.any(keep) else 0.0
+
+
+def plot_response(network, path, fs: float | None = None) -> Path:
+    """Analog magnitude and phase of ``network``, with the digital emulation at ``fs`` overlaid.
+
+    Parameters
+    ----------
+    network : TwinT
+        The network (one value per part).
+    path : str or Path
+        PNG to write (its folder must exist).
+    fs : float, optional
+        Sample rate, Hz; None draws the analog response alone.
+
+    Raises
+    ------
+    BadValueError : the folder does not exist, or ``fs`` is not allowed.
+
+    Example
+    -------
+    >>> from emulate.networks import TwinT
+    >>> import tempfile, pathlib
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "r.png"
+    >>> plot_response(TwinT.balanced(1000.0, r_ohms=10e3), out).stat().st_size > 10000
+    True
+    """
+    metrics = measure(network.response)
+    top = 20000.0 if fs is None else min(20000.0, 0.49 * fs)
+    f = np.unique(np.concatenate([np.geomspace(10.0, top, 1500),
+                                  metrics.notch_hz * np.geomspace(0.9, 1.1, 300)]))
+    f = f[(f >= 10.0) & (f <= top)]
+    h = network.response(f)
+    figure, (mag, phase) = _figure(2)
+    mag.plot(f, _level_db(h), color=_ANALOG, label="analog (exact)")
+    phase.plot(f, np.degrees(np.angle(h)), color=_ANALOG)
+    title = f"twin-T response: notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}"
+    if fs is not None:
+        h_d, fidelity = digital_response(network, fs, f)
+        mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
+        phase.plot(f, np.degrees(np.angle(h_d)), color=_DIGITAL, linestyle="--")
+        mag.text(0.02, 0.06, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
+                 f"where analog above -30 dB); wet path {fidelity:.3f} dB",
+                 transform=mag.transAxes, color=_DIGITAL, fontsize=11)
+    mag.axvline(metrics.notch_hz, color=_MARK, linewidth=1.0, linestyle=":")
+    mag.set_ylabel("gain (dB)")
+    mag.set_ylim(max(FLOOR_DB, min(-60.0, -metrics.depth_below_passband_db - 10)), 6.0)
+    mag.set_title(title)
+    mag.legend(loc="lower right")
+    phase.set_ylabel("phase (degrees)")
+    phase.set_ylim(-100, 100)
+    _frequency_axis(phase, (10.0, top))
+    return _save(figure, path)
+
+
+def _depth_words(depth_db: float) -> str:
+    return (f"deeper than {-FLOOR_DB:.0f} dB (exact null)" if depth_db >= -FLOOR_DB
+            else f"{depth_db:.1f} dB deep")
+
+
+# --- tolerance ----------------------------------------------------------------------
+
+def plot_tolerance(result, path) -> Path:
+    """Percentile envelope (5-95 %, median) of the built responses around the nominal.
+
+    Parameters
+    ----------
+    result : emulate.tolerance.ToleranceResult
+    path : str or Path
+        PNG to write.
+
+    Raises
+    ------
+    BadValueError : the folder does not exist.
+
+    Example
+    -------
+    >>> from emulate import tolerance
+    >>> from emulate.networks import TwinT
+    >>> import tempfile, pathlib
+    >>> r = tolerance.monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), tolerance.Tolerances(0.01, 0.05), draws=200)
+    >>> plot_tolerance(r, pathlib.Path(tempfile.mkdtemp()) / "t.png").suffix
+    '.png'
+    """
+    f0 = result.nominal_notch_hz
+    f = np.unique(np.concatenate([np.geomspace(f0 / 8, f0 * 8, 900), f0 * np.geomspace(0.9, 1.1, 300)]))
+    envelope = result.envelope(f)
+    nominal = result.nominal.response(f)
+    figure, (ax,) = _figure(1)
+    ax.fill_between(f, envelope["p5"], envelope["p95"], color=_BAND, alpha=0.7, label="5-95 % of builds")
+    ax.plot(f, envelope["p50"], color=_ANALOG, label="median (per frequency)")
+    ax.plot(f, _level_db(nominal), color=_INK, linewidth=1.0, linestyle="--", label="nominal parts")
+    depth = result.percentiles(result.depth_db)
+    ax.set_title(f"{result.draws} builds, {result.tolerances.describe()}: depth {depth['p5']:.0f} / "
+                 f"{depth['p50']:.0f} / {depth['p95']:.0f} dB (5/50/95 %), yield {result.yield_fraction:.1%} "
+                 f"at {result.spec_db:g} dB", fontsize=12)
+    ax.set_ylabel("gain (dB)")
+    ax.set_ylim(max(FLOOR_DB, -depth["p95"] - 10), 3.0)
+    ax.legend(loc="lower left")
+    _frequency_axis(ax, (f[0], f[-1]))
+    return _save(figure, path)
+
+
+# --- takes ----------------------------------------------------------------------------
+
+def _average_spectrum_db(x, fs: float):
+    x = np.asarray(x, float)
+    if x.ndim == 1:
+        x = x[:, None]
+    if x.ndim != 2 or x.shape[0] < 16:
+        raise BadValueError(f"take of shape {x.shape}: needs (frames, channels) with at least 16 frames")
+    segment = min(8192, x.shape[0])
+    f, power = signal.welch(x, fs=fs, nperseg=segment, axis=0)
+    return f[1:], 10 * np.log10(np.maximum(np.mean(power, axis=1)[1:] * fs / 2, 1e-20))
+
+
+def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -> Path:
+    """A take's averaged spectrum before (dry) and after (wet) the notch.
+
+    Parameters
+    ----------
+    dry, wet : ndarray, (frames, channels) float
+        The take before and after; channels are averaged (Welch, 8192-point Hann).
+    fs : float
+        Sample rate, Hz (> 0).
+    path : str or Path
+        PNG to write.
+    notch_hz : float, optional
+        Marked with a line.
+    band_hz : (lo, hi), optional
+        A band (the sibilance band) shaded, Hz.
+
+    Raises
+    ------
+    BadValueError : a bad take, rate or folder.
+
+    Example
+    -------
+    >>> import tempfile, pathlib
+    >>> x = np.random.default_rng(0).normal(size=(48000, 1)) * 0.1
+    >>> plot_take_spectrum(x, 0.5 * x, 48000, pathlib.Path(tempfile.mkdtemp()) / "s.png").suffix
+    '.png'
+    """
+    if not (isinstance(fs, (int, float)) and math.isfinite(fs) and fs > 0):
+        raise BadValueError(f"sample rate {fs!r} Hz: allowed a finite rate > 0")
+    f, before = _average_spectrum_db(dry, fs)
+    _, after = _average_spectrum_db(wet, fs)
+    figure, (ax,) = _figure(1)
+    if band_hz is not None:
+        ax.axvspan(*band_hz, color=_BAND, alpha=0.35, label=f"band {band_hz[0]:.0f}-{band_hz[1]:.0f} Hz")
+    ax.plot(f, before, color=_INK, linewidth=1.4, label="before (dry)")
+    ax.plot(f, after, color=_DIGITAL, linewidth=1.6, label="after (wet)")
+    if notch_hz is not None:
+        ax.axvline(notch_hz, color=_MARK, linewidth=1.2, linestyle=":", label=f"notch {notch_hz:.0f} Hz")
+    ax.set_ylabel("level (dB re full scale, per band)")
+    ax.set_title("averaged spectrum of the take")
+    ax.legend(loc="lower left")
+    _frequency_axis(ax, (max(20.0, f[0]), min(20000.0, fs / 2)))
+    return _save(figure, path)
+
+
+# --- sweep ------------------------------------------------------------------------------
+
+def _check_rows(rows) -> list[dict]:
+    rows = list(rows)
+    if not rows:
+        raise BadValueError("sweep rows: need at least one row")
+    for i, row in enumerate(rows):
+        missing = [key for key in SWEEP_KEYS if key not in row]
+        if missing:
+            raise BadValueError(f"sweep row {i}: missing {', '.join(missing)}; each row needs {', '.join(SWEEP_KEYS)}")
+    return sorted(rows, key=lambda row: float(row["notch_hz"]))
+
+
+def plot_sweep(rows, path) -> Path:
+    """Sweep summary: per notch setting, sibilance-band reduction, loudness change and intelligibility cost.
+
+    Parameters
+    ----------
+    rows : iterable of dict
+        Keys ``notch_hz`` (Hz), ``sibilance_reduction_db`` (dB), ``loudness_change_db``
+        (dB) and ``intelligibility_cost`` (0..1, SII-weighted); a row with
+        ``pick=True`` is marked.
+    path : str or Path
+        PNG to write.
+
+    Raises
+    ------
+    BadValueError : no rows, a row without a key, or a bad folder.
+
+    Example
+    -------
+    >>> import tempfile, pathlib
+    >>> rows = [{"notch_hz": f, "sibilance_reduction_db": 3.0, "loudness_change_db": -0.5,
+    ...          "intelligibility_cost": 0.01, "pick": f == 6000} for f in (5000, 6000, 7000)]
+    >>> plot_sweep(rows, pathlib.Path(tempfile.mkdtemp()) / "w.png").suffix
+    '.png'
+    """
+    rows = _check_rows(rows)
+    f = np.array([float(row["notch_hz"]) for row in rows])
+    figure, (levels, cost) = _figure(2)
+    levels.plot(f, [row["sibilance_reduction_db"] for row in rows], "o-", color=_ANALOG,
+                label="sibilance-band reduction")
+    levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL, label="loudness change")
+    cost.plot(f, [row["intelligibility_cost"] for row in rows], "d-", color=_INK, label="intelligibility cost")
+    for row in rows:
+        if row.get("pick"):
+            for ax in (levels, cost):
+                ax.axvline(float(row["notch_hz"]), color=_MARK, linewidth=1.2, linestyle=":")
+            levels.annotate(f"pick: {float(row['notch_hz']):.0f} Hz", (float(row["notch_hz"]),
+                            row["sibilance_reduction_db"]), textcoords="offset points", xytext=(8, 8),
+                            color=_MARK)
+    levels.set_ylabel("change (dB)")
+    levels.set_title("notch sweep: what each setting does to the take")
+    levels.legend(loc="best")
+    cost.set_ylabel("intelligibility cost (SII-weighted)")
+    cost.legend(loc="best")
+    span = (f.min() / 1.1, f.max() * 1.1)
+    _frequency_axis(cost, span)
+    cost.set_xlabel("notch frequency (Hz)")
+    return _save(figure, path)

@@ -1,0 +1,79 @@
+"""Tests for emulate.plots: real PNG files of the right size, refusals, the digital overlay."""
+
+import struct
+
+import numpy as np
+import pytest
+
+from emulate import plots, tolerance
+from emulate.errors import BadValueError
+from emulate.networks import TwinT
+
+NET = TwinT.balanced(6000.0, r_ohms=10e3)
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948 (PNG) file signature and IHDR layout
+
+
+def png_size(path):
+    """(width, height) from the IHDR chunk (ISO/IEC 15948 sec. 11.2.2)."""
+    data = path.read_bytes()
+    assert data[:8] == PNG_SIGNATURE and data[12:16] == b"IHDR"
+    return struct.unpack(">II", data[16:24])
+
+
+def assert_picture(path):
+    assert png_size(path) == plots.FIG_SIZE_PX
+    assert path.stat().st_size > 20_000  # a chart with curves and text, not an empty canvas
+    assert not list(path.parent.glob(".*.png"))  # no temporary file left
+
+
+def sweep_rows():
+    return [{"notch_hz": f, "sibilance_reduction_db": f / 1000, "loudness_change_db": -0.2,
+             "intelligibility_cost": 0.01, "pick": f == 6000} for f in (5000, 6000, 7000)]
+
+
+class TestPlotResponse:
+    @pytest.mark.parametrize("fs", [None, 48000])
+    def test_writes_png(self, tmp_path, fs):
+        assert_picture(plots.plot_response(NET, tmp_path / "r.png", fs=fs))
+
+    def test_refuses_missing_folder(self, tmp_path):
+        with pytest.raises(BadValueError, match="does not exist"):
+            plots.plot_response(NET, tmp_path / "no" / "r.png")
+
+
+class TestDigitalResponse:
+    def test_full_notch_error_matches_the_design_figure(self):
+        # at mix 1 the overlay's own error equals the design's fidelity figure (same band, same floor)
+        f = np.geomspace(20, 20000, 3000)
+        h_d, fidelity = plots.digital_response(NET, 48000, f)
+        assert plots.worst_error_db(f, NET.response(f), h_d) == pytest.approx(fidelity, abs=0.01)
+
+
+class TestPlotTolerance:
+    def test_writes_png(self, tmp_path):
+        result = tolerance.monte_carlo(NET, tolerance.Tolerances(0.01, 0.05), draws=300)
+        assert_picture(plots.plot_tolerance(result, tmp_path / "t.png"))
+
+
+class TestPlotTakeSpectrum:
+    def test_writes_png(self, tmp_path):
+        x = np.random.default_rng(0).normal(size=(24000, 2)) * 0.1
+        path = plots.plot_take_spectrum(x, 0.5 * x, 48000, tmp_path / "s.png", notch_hz=6000,
+                                        band_hz=(4000, 9000))
+        assert_picture(path)
+
+    @pytest.mark.parametrize("take, fs, match", [(np.zeros((4, 1)), 48000, "frames"),
+                                                 (np.zeros((100, 1)), 0, "sample rate")])
+    def test_refuses_bad_input(self, tmp_path, take, fs, match):
+        with pytest.raises(BadValueError, match=match):
+            plots.plot_take_spectrum(take, take, fs, tmp_path / "s.png")
+
+
+class TestPlotSweep:
+    def test_writes_png(self, tmp_path):
+        assert_picture(plots.plot_sweep(sweep_rows(), tmp_path / "w.png"))
+
+    @pytest.mark.parametrize("rows, match", [([], "at least one"), ([{"notch_hz": 5000}], "missing")])
+    def test_refuses_bad_rows(self, tmp_path, rows, match):
+        with pytest.raises(BadValueError, match=match):
+            plots.plot_sweep(rows, tmp_path / "w.png")
