@@ -223,6 +223,11 @@ def _check_out_path(in_path, out_path) -> None:
         raise AudioFileError(
             f"{out_path}: OUT is the same file as IN; allowed: any other path (IN is never "
             "overwritten)")
+    _check_out_folder(out_path)
+
+
+def _check_out_folder(out_path) -> None:
+    dst = Path(out_path)
     if dst.is_dir():
         raise AudioFileError(f"{out_path}: OUT is a folder; allowed: a file path")
     folder = dst.parent
@@ -654,3 +659,55 @@ def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,
     """
     return _stream(in_path, out_path, None, None, block_frames, progress, dither=False,
                    dither_seed=0)
+
+
+# --- whole arrays (short takes: demo, reels, analysis) -----------------------------------
+def read_all(path) -> tuple[np.ndarray, int]:
+    """Read a whole file as float64 ``(frames, channels)`` and its rate in Hz.
+
+    For takes that fit in memory (analysis, reels); long renders stream instead.
+    Same checks as :func:`iter_blocks` (unreadable, empty, NaN/Inf -> AudioFileError).
+
+    Example
+    -------
+    >>> import tempfile, os
+    >>> p = os.path.join(tempfile.mkdtemp(), "a.wav")
+    >>> write_array(p, np.zeros((10, 1)), 48000, subtype="PCM_24").frames
+    10
+    >>> x, fs = read_all(p); x.shape, fs
+    ((10, 1), 48000)
+    """
+    with _open_read(path) as src:
+        x = src.read(dtype="float64", always_2d=True)
+        fs = int(src.samplerate)
+    _check_finite(x, path, 0)
+    return x, fs
+
+
+def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
+                dither_seed: int = 0) -> RenderReport:
+    """Write float samples ``(frames, channels)`` to OUT atomically, encoded as a render is.
+
+    16-bit (and 8-bit) output gets TPDF dither; integer output is clipped explicitly
+    and the clipped samples counted in the report. Refuses a folder, a missing folder
+    or an extension libsndfile cannot write, like :func:`render_file`.
+    """
+    start = time.perf_counter()
+    x = np.asarray(x, dtype=np.float64)
+    if x.ndim == 1:
+        x = x[:, None]
+    if x.ndim != 2 or not len(x) or not np.all(np.isfinite(x)):
+        raise BadValueError(f"{out_path}: samples must be a finite, non-empty (frames, channels) array")
+    _check_out_folder(out_path)
+    fmt = output_format(out_path)
+    subtype = _check_subtype(out_path, fmt, subtype, kept=False)
+    frames, channels = x.shape
+    block = min(frames, DEFAULT_BLOCK_FRAMES)
+    encoder = _Encoder(subtype, channels, block, dither=True, seed=dither_seed)
+    with _atomic_output(out_path, fmt, subtype, int(samplerate), channels) as dst:
+        for first in range(0, frames, block):
+            dst.write(encoder.encode(x[first:first + block]))
+    peak_dbfs = 20.0 * math.log10(encoder.peak) if encoder.peak > 0 else -math.inf
+    return RenderReport("", str(out_path), frames, int(samplerate), channels, fmt, subtype, 0,
+                        peak_dbfs, encoder.clipped, encoder.over, encoder.dither,
+                        time.perf_counter() - start)

@@ -109,25 +109,16 @@ class Circuit:
         """Return MNA ``(G, C, b, l)``; ``G`` and ``C`` have shape ``(builds, n, n)``."""
         return _Assembly(self).matrices(output)
 
+    def compile(self, output: str) -> "Compiled":
+        """The MNA matrices for ``output``, stamped once, ready to evaluate many times."""
+        return Compiled(*self.matrices(output))
+
     def response(self, f_hz, output: str) -> np.ndarray:
         """Exact complex response from the source voltage to ``output`` at ``f_hz``.
 
-        Returns shape ``(len(f_hz),)`` for scalar part values and 1-D ``f_hz``,
-        else ``(builds, frequencies)``; a 2-D ``f_hz`` gives each build its own
-        frequencies. Solves the nodal equations at each frequency; no
-        rational approximation.
+        See :meth:`Compiled.response`; stamps the matrices on every call.
         """
-        g, c, b, l = self.matrices(output)
-        f_hz = np.asarray(f_hz, float)
-        s = 2j * np.pi * np.atleast_2d(f_hz)
-        system = g[:, None] + s[..., None, None] * c[:, None]
-        rhs = np.broadcast_to(b, system.shape[:-1])[..., None]
-        try:
-            x = np.linalg.solve(system, rhs)[..., 0]
-        except np.linalg.LinAlgError:
-            raise CircuitError("the network equations are singular: a node floats") from None
-        h = x @ l
-        return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
+        return self.compile(output).response(f_hz)
 
     def transfer_zpk(self, output: str):
         """Zeros, poles (rad/s) and gain from the source voltage to ``output``.
@@ -151,6 +142,34 @@ class Circuit:
         zeros, poles = zeros * w_ref, poles * w_ref
         gain = _gain_at_test_point(self, output, zeros, poles, w_ref)
         return zeros, poles, gain
+
+
+@dataclass(frozen=True)
+class Compiled:
+    """Stamped MNA matrices ``(G, C, b, l)`` of one output; evaluates the exact response."""
+
+    g: np.ndarray
+    c: np.ndarray
+    b: np.ndarray
+    l: np.ndarray
+
+    def response(self, f_hz) -> np.ndarray:
+        """Solve the nodal equations at ``f_hz`` (Hz); no rational approximation.
+
+        Returns shape ``(len(f_hz),)`` for scalar part values and 1-D ``f_hz``,
+        else ``(builds, frequencies)``; a 2-D ``f_hz`` gives each build its own
+        frequencies.
+        """
+        f_hz = np.asarray(f_hz, float)
+        s = 2j * np.pi * np.atleast_2d(f_hz)
+        system = self.g[:, None] + s[..., None, None] * self.c[:, None]
+        rhs = np.broadcast_to(self.b, system.shape[:-1])[..., None]
+        try:
+            x = np.linalg.solve(system, rhs)[..., 0]
+        except np.linalg.LinAlgError:
+            raise CircuitError("the network equations are singular: a node floats") from None
+        h = x @ self.l
+        return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
 
 
 class _Assembly:

@@ -24,6 +24,7 @@ the load (or the mixer output). Nothing here measures; see :mod:`emulate.respons
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from dataclasses import dataclass
 
@@ -168,8 +169,12 @@ class TwinT:
 
     def response(self, f_hz) -> np.ndarray:
         """Exact complex response at ``f_hz`` (Hz); one row per build for batched parts."""
+        return self._compiled.response(f_hz)
+
+    @functools.cached_property
+    def _compiled(self):
         circuit, output = self.circuit()
-        return circuit.response(f_hz, output)
+        return circuit.compile(output)
 
     def null_mismatch(self) -> float:
         """Relative miss of the null condition R1 R2 C3 = R3 (R1+R2)(C1+C2); 0 when balanced.

@@ -134,13 +134,18 @@ def network_from_document(document: dict, *, where: str, mix: float | None = Non
     return design.built.replace(mix=mix)
 
 
-def network_from_preset(preset) -> TwinT:
-    """The network a preset (:class:`emulate.presets.Preset`) describes, at its mix."""
+def preset_document(preset) -> dict:
+    """A preset (:class:`emulate.presets.Preset`) as a circuit document (mix, tables)."""
     document = {"mix": preset.mix}
     for table in ("circuit", "target"):
         if getattr(preset, table):
             document[table] = dict(getattr(preset, table))
-    return network_from_document(document, where=f"preset '{preset.name}'")
+    return document
+
+
+def network_from_preset(preset) -> TwinT:
+    """The network a preset describes, at its mix."""
+    return network_from_document(preset_document(preset), where=f"preset '{preset.name}'")
 
 
 def _field(where: str, name: str) -> str:

@@ -147,3 +147,82 @@ def digital_text(digital) -> str:
     return (f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
             f"within {digital.fidelity_db:.3f} dB of the analog model over "
             f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz; digital notch {digital.notch_hz:.2f} Hz")
+
+
+# --- speakers ------------------------------------------------------------------
+
+def _sibilance_fields(report) -> dict:
+    return {"usable": report.usable, "reason": report.reason, "peak_hz": _finite(report.peak_hz),
+            "band_hz": [_finite(v) for v in report.band_hz], "sibilant_fraction": report.sibilant_fraction,
+            "confidence": report.confidence, "suggested_notch_hz": _finite(report.suggested_notch_hz),
+            "suggested_q": _finite(report.suggested_q), "suggested_mix": _finite(report.suggested_mix),
+            "suggested_depth_db": _finite(report.suggested_depth_db)}
+
+
+def sibilance_payload(takes, reports, combined) -> dict:
+    payload = _sibilance_fields(combined)
+    payload["takes"] = [{"take": str(t)} | _sibilance_fields(r) for t, r in zip(takes, reports)]
+    return payload
+
+
+def _sibilance_line(label, report) -> str:
+    if not report.usable:
+        return f"  {label}: no usable sibilance ({report.reason})"
+    lo, hi = report.band_hz
+    return (f"  {label}: peak {report.peak_hz:.0f} Hz, band {lo:.0f}-{hi:.0f} Hz, "
+            f"{report.sibilant_fraction:.0%} of the take sibilant, confidence {report.confidence:.2f}")
+
+
+def suggestion_line(report) -> str:
+    if not report.usable:
+        return "  no suggestion: the takes hold no usable sibilance"
+    kind = "passive (Q 0.25)" if report.suggested_q <= 0.25 else f"active, Q {report.suggested_q:.2f}"
+    return (f"  suggested notch {report.suggested_notch_hz:.0f} Hz, {kind}, mix {report.suggested_mix:.2f} "
+            f"(about {report.suggested_depth_db:.0f} dB at the notch)")
+
+
+def sibilance_text(takes, reports, combined) -> str:
+    lines = ["sibilance per take", *(_sibilance_line(t, r) for t, r in zip(takes, reports))]
+    if len(reports) > 1:
+        lines += ["all takes together", _sibilance_line("speaker", combined)]
+    lines.append(suggestion_line(combined))
+    return "\n".join(lines)
+
+
+def sweep_text(result, csv_path, json_path) -> str:
+    rows = ["  setting                      as built  sibilance  loudness  relative  speech cost"]
+    for row in result.rows:
+        mark = "  <- pick" if row["setting"] == result.pick["setting"] else ""
+        rows.append(f"  {row['setting']:<28} {row['notch_hz']:>6.0f} Hz {-row['sibilance_reduction_db']:>+6.1f} dB"
+                    f" {row['loudness_change_db']:>+6.1f} dB {-row['relative_reduction_db']:>+6.1f} dB"
+                    f" {row['intelligibility_cost']:>9.1%}{mark}")
+    reels = [f"  {reel}" for reel in result.reels.values()]
+    return "\n".join([f"swept {len(result.plan.notches_hz)} settings x {len(result.reels)} takes "
+                      f"({len(result.jobs)} renders)", *rows,
+                      f"pick: {result.pick['setting']}: {result.pick['reason']}",
+                      "listening reels (dry first, then each setting in order):", *reels,
+                      f"summary: {csv_path}, {json_path}"])
+
+
+def preset_payload(preset) -> dict:
+    return {"name": preset.name, "speaker": preset.speaker, "mix": preset.mix, "circuit": preset.circuit,
+            "target": preset.target, "notes": preset.notes, "created": preset.created,
+            "made_by": preset.made_by}
+
+
+def preset_list_text(folder, found) -> str:
+    if not found:
+        return f"no presets in {folder}"
+    lines = [f"presets in {folder}"]
+    for item in found:
+        what = "circuit" if item.circuit else f"target {item.target.get('notch')} Hz"
+        lines.append(f"  {item.name:<24} {item.speaker:<40} {what}, mix {item.mix:.2f}")
+    return "\n".join(lines)
+
+
+def preset_text(path, preset, network, metrics) -> str:
+    lines = [f"preset '{preset.name}' ({path})", f"  speaker: {preset.speaker}",
+             f"  made: {preset.created}, {preset.made_by}", network_line(network), *metrics_lines(metrics)]
+    if preset.notes:
+        lines += ["  notes:", *(f"    {line}" for line in preset.notes.strip().splitlines())]
+    return "\n".join(lines)

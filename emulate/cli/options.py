@@ -14,7 +14,7 @@ import warnings
 
 import click
 
-from emulate import __version__, spec
+from emulate import __version__, presets, spec
 from emulate.errors import EmulateError, EmulateWarning
 
 PART_HELP = {
@@ -49,6 +49,21 @@ def main():
     """Hear a proposed analog twin-T notch before you build it."""
 
 
+_presets_dir_option = click.option(
+    "--presets", "presets_dir", type=click.Path(file_okay=False),
+    help=f"presets folder; default ${presets.ENV_VAR} or ./presets")
+
+
+def presets_option(command):
+    """``--presets DIR`` for commands that read or write presets."""
+    return _presets_dir_option(command)
+
+
+def store_from(options: dict) -> presets.PresetStore:
+    """The preset store the options name (``--presets``, else the default folder)."""
+    return presets.PresetStore(options.get("presets_dir"))
+
+
 def circuit_options(command):
     """The circuit as part options, a circuit file, or a preset (options override files)."""
     options = [click.option(f"--{name}", help=text) for name, text in PART_HELP.items()]
@@ -61,6 +76,8 @@ def circuit_options(command):
         click.option("--mix", type=float, help="wet/dry depth control, 0 (dry) to 1 (full notch)"),
         click.option("--circuit", "circuit_file", type=click.Path(dir_okay=False),
                      help="TOML circuit file with a [circuit] or [target] table"),
+        click.option("--preset", help="start from this saved preset (see 'emulate preset list')"),
+        _presets_dir_option,
     ]
     for option in reversed(options):
         command = option(command)
@@ -70,18 +87,21 @@ def circuit_options(command):
 def network_from_options(options: dict):
     """The network the command-line options describe."""
     overrides = {key: options.get(key) for key in spec.CIRCUIT_KEYS if options.get(key) is not None}
-    document = {}
+    document, where = {}, ""
+    if options.get("circuit_file") and options.get("preset"):
+        raise click.UsageError("give either --circuit FILE or --preset NAME, not both")
     if options.get("circuit_file"):
         document = spec.read_circuit_file(options["circuit_file"])
         where = options["circuit_file"]
-    else:
-        where = ""
+    elif options.get("preset"):
+        document = spec.preset_document(store_from(options).load(options["preset"]))
+        where = f"preset '{options['preset']}'"
     if overrides or "circuit" in document:
         table = dict(document.get("circuit", {})) | overrides
         document = {k: v for k, v in document.items() if k != "target"} | {"circuit": table}
     if not document:
-        raise click.UsageError("give the circuit: --r1 .. --c3 (plus --source, --load, --bootstrap) "
-                               "or --circuit FILE")
+        raise click.UsageError("give the circuit: --r1 .. --c3 (plus --source, --load, --bootstrap), "
+                               "--circuit FILE or --preset NAME")
     return spec.network_from_document(document, where=where, mix=options.get("mix"))
 
 

@@ -1,0 +1,187 @@
+"""Commands about a speaker: ``sibilance``, ``sweep`` and the ``preset`` group."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from emulate import audio, presets, spec, summary, sweep
+from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options,
+                                 presets_option, progress, run_quietly, store_from)
+from emulate.errors import BadValueError
+from emulate.parts import parse_value
+from emulate.response import measure
+from emulate.speech import combine_reports, find_sibilance
+
+takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
+                                type=click.Path(dir_okay=False))
+
+
+@main.command()
+@takes_argument
+@click.option("--band", nargs=2, type=float, metavar="LO HI",
+              help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
+@json_option
+def sibilance(takes, band, as_json):
+    """Find where one speaker's sibilance sits, over one or more takes."""
+    options = {} if not band else {"search_band_hz": tuple(band)}
+    reports = []
+    for take in takes:
+        x, fs = audio.read_all(take)
+        reports.append(find_sibilance(x, fs, **options))
+    combined = combine_reports(reports) if len(reports) > 1 else reports[0]
+    payload = summary.sibilance_payload(takes, reports, combined)
+    emit(as_json, payload, summary.sibilance_text(takes, reports, combined))
+
+
+def _sweep_notches(from_hz, to_hz, steps, at):
+    if at:
+        if from_hz or to_hz:
+            raise click.UsageError("give either --at or --from/--to/--steps, not both")
+        return tuple(parse_value(item.strip()) for item in at.split(",") if item.strip())
+    if not (from_hz and to_hz):
+        raise click.UsageError("give --from and --to (with --steps), or --at F1,F2,...")
+    return sweep.notch_steps(parse_value(from_hz), parse_value(to_hz), steps)
+
+
+@main.command("sweep")
+@takes_argument
+@click.option("--from", "from_hz", help="first notch frequency, Hz (e.g. 4k)")
+@click.option("--to", "to_hz", help="last notch frequency, Hz (e.g. 8k)")
+@click.option("--steps", type=int, default=6, show_default=True, help="settings, in equal ratios")
+@click.option("--at", help="explicit notch frequencies instead, Hz, comma-separated (4k,4.5k,5k)")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
+              help="folder for the renders, reels and summary (created)")
+@click.option("--q", type=float, help="Q held for every setting (active network); default passive")
+@click.option("--series", default="E24", show_default=True, help="resistor series, IEC 60063")
+@click.option("--cap-series", default="E12", show_default=True, help="capacitor series, IEC 60063")
+@click.option("--impedance", help="level of R1 = R2, ohms; default 10k")
+@click.option("--mix", type=float, default=1.0, show_default=True, help="wet/dry mix held, 0..1")
+@click.option("--source", help="source resistance, ohms; default 0")
+@click.option("--load", help="load resistance, ohms; default none")
+@click.option("--workers", type=int, help="parallel renders; default: one per core")
+@json_option
+@run_quietly
+def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
+                  source, load, workers, as_json):
+    """Render every take at every notch setting; reels, a summary table and a pick."""
+    surroundings = spec.network_surroundings({"source": source, "load": load})
+    plan = sweep.SweepPlan(
+        notches_hz=_sweep_notches(from_hz, to_hz, steps, at), q=q, series=series,
+        cap_series=cap_series, mix=mix,
+        impedance_ohms=None if impedance is None else parse_value(impedance, "resistance"),
+        **surroundings)
+    plan.network(plan.notches_hz[0])  # a bad plan fails here, before any work
+    total = sum(audio.read_info(t).frames for t in takes) * len(plan.notches_hz)
+    with progress(total, "sweeping") as bar:
+        result = sweep.run_sweep(takes, plan, out_dir, workers=workers, progress=bar.update)
+    csv_path, json_path = sweep.write_summary(result, out_dir)
+    emit(as_json, result.as_dict(), summary.sweep_text(result, csv_path, json_path))
+
+
+@main.group()
+def preset():
+    """Keep notch settings per speaker: save, list, show, delete."""
+
+
+@preset.command("save")
+@click.argument("name")
+@click.option("--speaker", required=True, help="who the preset is for (free text)")
+@click.option("--notes", default="", help="free-text notes")
+@circuit_options
+@click.option("--notch", help="save a design target instead: notch frequency, Hz")
+@click.option("--q", type=float, help="with --notch: target Q (active network)")
+@click.option("--series", help="with --notch: resistor series (default E24)")
+@click.option("--impedance", help="with --notch: level of R1 = R2, ohms")
+@click.option("--from-sweep", type=click.Path(file_okay=False),
+              help="save the pick of the sweep in this folder (its summary.json)")
+@click.option("--force", is_flag=True, help="replace an existing preset of that name")
+def preset_save(name, speaker, notes, notch, q, series, impedance, from_sweep, force, **options):
+    """Save preset NAME from circuit options, a design target, or a sweep's pick."""
+    store = store_from(options)
+    sources = [bool(notch), bool(from_sweep), _has_circuit(options)]
+    if sum(sources) != 1:
+        raise click.UsageError("give exactly one of: circuit options (--r1 .. or --circuit), "
+                               "--notch (a design target), --from-sweep DIR")
+    if from_sweep:
+        made = _from_sweep(from_sweep, options.get("mix"))
+    elif notch:
+        made = _from_target(notch, q, series, impedance, options)
+    else:
+        network = network_from_options(options)
+        made = {"circuit": spec.table_from_network(network), "mix": network.mix,
+                "made_by": "circuit options"}
+    path = store.save(presets.Preset(name=name, speaker=speaker, notes=notes, **made), force=force)
+    click.echo(f"saved preset '{name}' to {path}")
+
+
+def _has_circuit(options) -> bool:
+    parts = ("r1", "r2", "r3", "c1", "c2", "c3")
+    return bool(options.get("circuit_file") or options.get("preset")) or any(options.get(k) for k in parts)
+
+
+def _from_target(notch, q, series, impedance, options) -> dict:
+    target = {key: value for key, value in
+              {"notch": notch, "q": q, "series": series, "impedance": impedance}.items() if value is not None}
+    surroundings = spec.network_surroundings({"source": options.get("source"), "load": options.get("load")})
+    design = spec.design_from_table(target, where="", **surroundings)
+    mix = 1.0 if options.get("mix") is None else options["mix"]
+    return {"target": target, "circuit": spec.table_from_network(design.built), "mix": mix,
+            "made_by": f"design target: notch {notch} Hz, as built {design.built_metrics.notch_hz:.1f} Hz"}
+
+
+def _from_sweep(folder, mix) -> dict:
+    path = Path(folder) / "summary.json"
+    try:
+        result = json.loads(path.read_text())
+        pick, plan = result["pick"], result["plan"]
+    except (OSError, ValueError, KeyError) as exc:
+        raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
+    plan_obj = sweep.SweepPlan(**(plan | {"notches_hz": tuple(plan["notches_hz"])}))
+    network = plan_obj.network(pick["notch_target_hz"])
+    target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan["series"]}
+    if plan.get("q") is not None:
+        target["q"] = plan["q"]
+    return {"circuit": spec.table_from_network(network), "target": target,
+            "mix": plan["mix"] if mix is None else mix,
+            "made_by": f"sweep pick: {pick['setting']} of {len(plan['notches_hz'])}: {pick['reason']}"}
+
+
+@preset.command("list")
+@presets_option
+@json_option
+def preset_list(as_json, presets_dir):
+    """List the presets in the presets folder."""
+    store = presets.PresetStore(presets_dir)
+    found, problems = store.list_all()
+    for path, message in problems:
+        click.echo(f"warning: {message}", err=True)
+    emit(as_json, {"folder": str(store.root), "presets": [summary.preset_payload(p) for p in found],
+                   "problems": [m for _, m in problems]}, summary.preset_list_text(store.root, found))
+
+
+@preset.command("show")
+@click.argument("name")
+@presets_option
+@json_option
+def preset_show(name, as_json, presets_dir):
+    """Show preset NAME and what its circuit does."""
+    store = presets.PresetStore(presets_dir)
+    found = store.load(name)
+    network = spec.network_from_preset(found)
+    metrics = measure(network.response)
+    emit(as_json, summary.preset_payload(found) | {"metrics": metrics.as_dict()},
+         summary.preset_text(store.path(name), found, network, metrics))
+
+
+@preset.command("delete")
+@click.argument("name")
+@presets_option
+def preset_delete(name, presets_dir):
+    """Delete preset NAME (its file)."""
+    store = presets.PresetStore(presets_dir)
+    store.delete(name)
+    click.echo(f"deleted preset '{name}' from {store.root}")
+
