@@ -154,8 +154,8 @@ class TestZpk:
     def test_balanced_is_mt225(self, r_ohms, c_farads):
         # MT-225: H(s) = (s^2 + w0^2)/(s^2 + 4 w0 s + w0^2), w0 = 1/(RC); the third
         # pole-zero pair of the 3-capacitor network cancels. Coefficients scaled by
-        # w0^-i are [1, 0, 1] / [1, 4, 1]; 1e-9 relative allows the eigenvalue error of
-        # a 7x7 pencil (observed ~1e-14).
+        # w0^-i are [1, 0, 1] / [1, 4, 1]; 1e-9 allows the eigenvalue error of the
+        # scaled MNA pencil (worst seen over these values and K: 2.7e-15).
         net = TwinT(r_ohms, r_ohms, r_ohms / 2, c_farads, c_farads, 2 * c_farads)
         w0 = 1.0 / (r_ohms * c_farads)
         numerator, denominator = mt225_coefficients(net.zpk(), w0)
@@ -181,10 +181,11 @@ class TestZpk:
 
 class TestResponse:
     # Symbolic KCL (above) vs the engine. Both evaluate a rational function in float64:
-    # the engine by LU of the nodal matrix, sympy's expression directly. With parts over
-    # 4-5 decades the nodal matrix's condition number reaches ~1e5-1e7 at the test
-    # frequencies; over 3000 random draws the worst relative difference seen was 1.3e-11,
-    # so 1e-9 relative keeps a factor of ~100 in hand and still catches any wrong stamp.
+    # the engine by LU of the nodal matrix, sympy's expression directly, so each carries
+    # round-off growing with the spread of the part values (4-5 decades here). Over 3000
+    # random draws of these strategies the worst relative difference seen was 1.3e-11;
+    # 1e-9 keeps a factor of ~100 in hand and still catches any wrong stamp (a wrong
+    # element changes H at order 1).
     RTOL = 1e-9
     SPREAD = np.array([0.01, 0.1, 0.3, 1.0, 3.0, 10.0, 100.0])
 
