@@ -1,8 +1,8 @@
 """Tests of emulate.response: notch metrics and the twin-T rule checks.
 
 References:
-* the analog second-order notch H(s) = (s^2 + w0^2)/(s^2 + (w0/Q) s + w0^2), the prototype
-  that scipy.signal.iirnotch discretises (scipy docs), evaluated with scipy.signal.freqs;
+* the analog second-order notch H(s) = (s^2 + w0^2)/(s^2 + (w0/Q) s + w0^2), the analog
+  counterpart of scipy.signal.iirnotch's digital notch, evaluated with scipy.signal.freqs;
 * its -3 dB edges, derived here: |H|^2 = 1/2 gives (w0^2 - w^2)^2 = (w0 w / Q)^2, i.e.
   w^2 -+ (w0/Q) w - w0^2 = 0, so w = w0 (sqrt(1 + 1/(4Q^2)) -+ 1/(2Q)); for the passive
   twin-T (Q = 1/4, Analog Devices MT-225) that is w0 (sqrt(5) -+ 2);
