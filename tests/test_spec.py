@@ -116,7 +116,7 @@ class TestNetworkFromTable:
 
     @pytest.mark.parametrize("key, value", [
         ("bootstrap", 1.5),
-        pytest.param("bootstrap", -0.1),
+        ("bootstrap", -0.1),
     ])
     @pytest.mark.xfail(strict=True, reason="range checks made later by TwinT (bootstrap K in [0, 1)) "
                        "do not carry the table's field name, against the Raises section")
