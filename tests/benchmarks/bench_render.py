@@ -24,7 +24,9 @@ from __future__ import annotations
 
 import argparse
 import cProfile
+import io
 import json
+import os
 import pstats
 import statistics
 import subprocess
@@ -101,48 +103,77 @@ def make_take(path: Path, seconds: float) -> Path:
     return path
 
 
-def timed(fn, repeats: int) -> tuple[float, list[float]]:
-    times = []
+def timed_interleaved(cases: dict, repeats: int) -> dict:
+    """Median wall time of each case, the cases run in turn per repeat (same load drift)."""
+    runs = {name: [] for name in cases}
     for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times), times
+        for name, fn in cases.items():
+            t = time.perf_counter()
+            fn()
+            runs[name].append(time.perf_counter() - t)
+    return {name: (statistics.median(r), r) for name, r in runs.items()}
 
 
 CHILD = """
 import json, resource, sys
 sys.path.insert(0, {root!r})
 sys.path.insert(0, {bench!r})
-from bench_render import notch_processor, BilinearSos
-from emulate.audio import render_file
-proc = notch_processor() or BilinearSos()
-report = render_file({src!r}, {dst!r}, proc, block_frames={block})
-print(json.dumps({{"maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
-                  "frames": report.frames, "elapsed_s": report.elapsed_s,
-                  "processor": type(proc).__name__}}))
+mode, out = {mode!r}, {{}}
+if mode == "copy":  # the bare I/O path: emulate.audio and its imports only
+    from emulate.audio import copy_file
+    report = copy_file({src!r}, {dst!r}, {block})
+    out["processor"] = None
+elif mode == "render":
+    from bench_render import notch_processor, BilinearSos
+    from emulate.audio import render_file
+    proc = notch_processor() or BilinearSos()
+    report = render_file({src!r}, {dst!r}, proc, block_frames={block})
+    out["processor"] = type(proc).__name__
+else:  # imports only
+    import emulate.processor, scipy.signal
+    report = None
+out["maxrss_mb"] = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+with open("/proc/self/status") as status:  # cross-check: peak RSS of this process's memory
+    out["vmhwm_mb"] = next(int(l.split()[1]) for l in status if l.startswith("VmHWM")) / 1024
+if report is not None:
+    out.update(frames=report.frames, elapsed_s=report.elapsed_s)
+print(json.dumps(out))
 """
 
 
-def child_peak_rss(src: Path, dst: Path, block_frames: int) -> dict:
-    """Peak RSS (MB, ru_maxrss of the child) of a fresh process rendering ``src``."""
+def child_peak_rss(src: Path, dst: Path, block_frames: int, mode: str = "render") -> dict:
+    """Peak RSS (MB, ru_maxrss of a fresh child): ``mode`` "render", "copy" or "imports".
+
+    Linux keeps the larger of a process's own peak and the peak of the memory it had
+    before exec, so a child exec'd straight from this (large) process would report this
+    process's RSS. The child is therefore started by a small shell that forks it (the
+    trailing ``exit`` stops the shell from exec'ing it in place); VmHWM from
+    /proc/self/status is recorded beside ru_maxrss as a cross-check.
+    """
     code = CHILD.format(root=str(ROOT), bench=str(Path(__file__).parent), src=str(src),
-                        dst=str(dst), block=block_frames)
-    out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True,
-                         text=True)
+                        dst=str(dst), block=block_frames, mode=mode)
+    out = subprocess.run(["/bin/sh", "-c", '"$@"; exit $?', "sh", sys.executable, "-c", code],
+                         check=True, capture_output=True, text=True)
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
-def profile_render(src: Path, dst: Path, block_frames: int) -> str:
+def profile_render(src: Path, dst: Path, block_frames: int) -> dict:
+    """One render under cProfile: own time summed per source file, and the top functions."""
     proc = notch_processor() or BilinearSos()
     prof = cProfile.Profile()
     prof.enable()
     render_file(src, dst, proc, block_frames=block_frames)
     prof.disable()
-    import io
+    stats = pstats.Stats(prof)
+    by_file: dict[str, float] = {}
+    for (filename, _, func), (_, _, own_s, _, _) in stats.stats.items():
+        key = Path(filename).name if filename != "~" else func
+        by_file[key] = by_file.get(key, 0.0) + own_s
+    total = sum(by_file.values())
+    top = dict(sorted(by_file.items(), key=lambda kv: -kv[1])[:10])
     buf = io.StringIO()
-    pstats.Stats(prof, stream=buf).sort_stats("tottime").print_stats(12)
-    return buf.getvalue()
+    pstats.Stats(prof, stream=buf).sort_stats("tottime").print_stats(10)
+    return {"total_s": total, "own_s_by_file": top, "text": buf.getvalue()}
 
 
 def run(args) -> dict:
@@ -161,16 +192,19 @@ def run(args) -> dict:
     if proc is not None:
         render_file(src, out, proc, block_frames=bf)
 
-    copy_s, copy_all = timed(lambda: copy_file(src, out, bf), args.repeats)
-    results["copy"] = {"median_s": copy_s, "runs_s": copy_all, "rtf": seconds / copy_s}
-    cases = {"bilinear_scipy": BilinearSos}
+    cases = {"copy": lambda: copy_file(src, out, bf),
+             "bilinear_scipy": lambda: render_file(src, out, BilinearSos(), block_frames=bf)}
     if proc is not None:
-        cases["notch_processor"] = notch_processor
-    for name, make in cases.items():
-        med, runs = timed(lambda: render_file(src, out, make(), block_frames=bf),
-                          args.repeats)
-        results[name] = {"median_s": med, "runs_s": runs, "rtf": seconds / med,
-                         "ratio_to_copy": med / copy_s}
+        cases["notch_processor"] = lambda: render_file(src, out, notch_processor(),
+                                                       block_frames=bf)
+    load_before = os.getloadavg()[0]
+    timings = timed_interleaved(cases, args.repeats)
+    results["take"]["loadavg_1min_before_after"] = [load_before, os.getloadavg()[0]]
+    copy_s = timings["copy"][0]
+    for name, (med, runs) in timings.items():
+        results[name] = {"median_s": med, "runs_s": runs, "rtf": seconds / med}
+        if name != "copy":
+            results[name]["ratio_to_copy"] = med / copy_s
     if proc is not None:
         proc.prepare(RATE, 2)
         results["notch_processor"].update(
@@ -183,15 +217,18 @@ def run(args) -> dict:
     # a 1-second take shows the fixed cost (interpreter, numpy/scipy/numba, kernels);
     # longer takes must not add to it if memory is bounded
     short = make_take(work / "take1s.wav", 1.0)
-    results["memory"] = {"1s_child": child_peak_rss(short, work / "out1s.wav", bf),
-                         f"{args.minutes:g}min_child": child_peak_rss(src, out, bf)}
+    results["memory"] = {
+        "imports_only": child_peak_rss(short, work / "out1s.wav", bf, "imports"),
+        f"copy_{args.minutes:g}min": child_peak_rss(src, out, bf, "copy"),
+        "render_1s": child_peak_rss(short, work / "out1s.wav", bf),
+        f"render_{args.minutes:g}min": child_peak_rss(src, out, bf)}
     if args.hour:
         hour = make_take(work / "take60.wav", 3600)
-        results["memory"]["60min_child"] = child_peak_rss(hour, work / "out60.wav", bf)
+        results["memory"]["render_60min"] = child_peak_rss(hour, work / "out60.wav", bf)
         hour.unlink()
         (work / "out60.wav").unlink()
     if args.profile:
-        results["profile_text"] = profile_render(src, out, bf)
+        results["profile"] = profile_render(src, out, bf)
     if not args.work:
         for p in work.iterdir():
             p.unlink()
@@ -215,16 +252,20 @@ def report(results: dict) -> None:
         print(f"{name:17s} {r['median_s']:7.2f} s   RTF {r['rtf']:7.0f}x   "
               f"render/copy {r['ratio_to_copy']:.2f}{extra}")
     m = results["memory"]
-    print("peak RSS of a child rendering: " + "; ".join(
-        f"{k.replace('_child', '')} take {v['maxrss_mb']:.0f} MB" for k, v in m.items())
-        + f" ({m['1s_child']['processor']})")
-    if "profile_text" in results:
-        print(results["profile_text"])
+    print("peak RSS of a fresh child: " + "; ".join(
+        f"{k} {v['maxrss_mb']:.0f} MB" for k, v in m.items())
+        + f" (render with {m['render_1s']['processor']})")
+    if "profile" in results:
+        prof = results["profile"]
+        print(f"profile of one render ({prof['total_s']:.2f} s), own time by file: " + ", ".join(
+            f"{k} {v:.2f} s" for k, v in prof["own_s_by_file"].items()))
+        print(prof["text"])
 
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--work", help="folder for the generated takes (default: a temp folder)")
+    ap.add_argument("--work", help="folder for the generated takes (default: a temp folder; "
+                    "a tmpfs such as /dev/shm keeps disk writeback out of the timings)")
     ap.add_argument("--json", default="bench-out/render.json", help="where to write figures")
     ap.add_argument("--repeats", type=int, default=3, help="runs per case (median), >= 3")
     ap.add_argument("--minutes", type=float, default=10.0, help="length of the timed take")
@@ -232,6 +273,8 @@ def main(argv=None) -> int:
     ap.add_argument("--hour", action="store_true", help="also measure RSS on a 1-hour take")
     ap.add_argument("--profile", action="store_true", help="print a cProfile of one render")
     args = ap.parse_args(argv)
+    if args.repeats < 3:
+        ap.error(f"--repeats must be >= 3 (medians); got {args.repeats}")
     results = run(args)
     report(results)
     out = Path(args.json)
