@@ -253,7 +253,7 @@ def _check_out_dir(out_dir: Path, force: bool) -> None:
     if out_dir.exists() and not out_dir.is_dir():
         raise BadValueError(f"{out_dir}: exists and is not a folder")
     if out_dir.is_dir() and any(out_dir.iterdir()) and not force:
-        raise BadValueError(f"{out_dir}: folder exists and is not empty; choose another or force overwrite")
+        raise BadValueError(f"{out_dir}: folder exists and is not empty; choose another folder or force the overwrite (--force)")
 
 
 def _publish(temporary: Path, out_dir: Path) -> None:

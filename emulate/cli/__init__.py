@@ -5,6 +5,6 @@ module beside it holds the commands of one subject and registers them on import.
 """
 
 from emulate.cli.options import main
-from emulate.cli import circuit, sound, speaker  # noqa: F401  (registers the commands)
+from emulate.cli import build, circuit, sound, speaker  # noqa: F401  (registers the commands)
 
 __all__ = ["main"]

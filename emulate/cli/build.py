@@ -1,0 +1,91 @@
+"""Commands for building it for real: ``tolerance`` and ``sheet``."""
+
+from __future__ import annotations
+
+import click
+
+from emulate import plots, sheet, spec, tolerance
+from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
+
+
+def tolerance_options(command):
+    """Tolerances, distribution, draws, seed, spec and trim share (shared by both commands)."""
+    options = [
+        click.option("--r-tol", default="1%", show_default=True, help="resistor tolerance (1%, F, 0.01)"),
+        click.option("--c-tol", default="5%", show_default=True, help="capacitor tolerance (5%, J, 0.05)"),
+        click.option("--distribution", type=click.Choice(tolerance.DISTRIBUTIONS), default="uniform",
+                     show_default=True, help="uniform within tolerance, or normal with the tolerance as 3 sigma"),
+        click.option("--draws", type=int, default=tolerance.DEFAULT_DRAWS, show_default=True,
+                     help="Monte Carlo builds"),
+        click.option("--seed", type=int, default=0, show_default=True, help="seed; build i of a seed never changes"),
+        click.option("--spec-db", type=float, default=tolerance.DEFAULT_SPEC_DB, show_default=True,
+                     help="depth spec below the passband, dB, for the yield"),
+        click.option("--trim-share", type=float, default=tolerance.DEFAULT_TRIM_SHARE, show_default=True,
+                     help="share of builds the R3 trimmer must reach, 0.5-1"),
+    ]
+    for option in reversed(options):
+        command = option(command)
+    return command
+
+
+def _analyse(network, options):
+    tolerances = tolerance.Tolerances.parse(options["r_tol"], options["c_tol"], options["distribution"])
+    result = tolerance.monte_carlo(network, tolerances, draws=options["draws"], seed=options["seed"],
+                                   spec_db=options["spec_db"])
+    return tolerances, result, tolerance.suggest_trim(result, share=options["trim_share"])
+
+
+def _text(result, trim) -> str:
+    d = result.as_dict()
+    corner = result.corners.as_dict()
+    return "\n".join([
+        f"{result.draws} builds, {result.tolerances.describe()}, seed {result.seed}",
+        f"  notch   {d['notch_hz_p5']:.1f} / {d['notch_hz_p50']:.1f} / {d['notch_hz_p95']:.1f} Hz (5/50/95 %)",
+        f"  depth   {d['depth_db_p5']:.1f} / {d['depth_db_p50']:.1f} / {d['depth_db_p95']:.1f} dB below passband",
+        f"  yield   {result.yield_fraction:.1%} at {result.spec_db:g} dB; typical build {result.typical_index}",
+        f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
+        f"{corner['notch_high_hz']:.1f} Hz over 64 corners",
+        f"  matters most: {', '.join(s.part for s in result.sensitivity()[:3])} (depth)",
+        f"  trim    {trim.describe()}",
+    ])
+
+
+@main.command(name="tolerance")
+@circuit_options
+@tolerance_options
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (PNG)")
+@json_option
+def tolerance_command(plot_path, as_json, **options):
+    """Monte Carlo builds and worst-case corners of a circuit, with an R3 trim."""
+    network = network_from_options(options)
+    _, result, trim = _analyse(network, options)
+    if plot_path:
+        plots.plot_tolerance(result, plot_path)
+    emit(as_json, result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim))
+
+
+@main.command(name="sheet")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="folder to write")
+@circuit_options
+@click.option("--notch", help="design target instead of parts: notch frequency, Hz (e.g. 6.3k)")
+@click.option("--q", type=float, help="design target Q, 0.25-20 (active network); default passive")
+@click.option("--series", help="resistor series for the design, IEC 60063; default E24")
+@tolerance_options
+@click.option("--title", default=sheet.DEFAULT_TITLE, show_default=True, help="heading of the sheet")
+@click.option("--force", is_flag=True, help="replace a non-empty --out folder")
+@json_option
+def sheet_command(out_dir, notch, q, series, title, force, as_json, **options):
+    """Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions."""
+    design = None
+    if notch is not None:
+        surroundings = spec.network_surroundings({"source": options.get("source"), "load": options.get("load")})
+        design = spec.design_from_table({"notch": notch, "q": q, "series": series}, where="", **surroundings)
+        network = design.built
+    else:
+        network = network_from_options(options)
+    tolerances, result, trim = _analyse(network, options)
+    path = sheet.write_sheet(out_dir, network, tolerances=tolerances, design=design, tolerance_result=result,
+                             trim=trim, title=title, force=force)
+    payload = {"out": str(path), "files": sorted(p.name for p in path.iterdir())} | result.as_dict()
+    emit(as_json, payload, f"wrote {path}/sheet.md and sheet.html\n{_text(result, trim)}\n"
+                           f"cautions: {sheet.CAUTION_LINE}")
