@@ -93,3 +93,19 @@ class TestDepthControlText:
         # inverting summer: gains Rf/Rdry = 1 - mix, Rf/Rwet = mix (op-amp summing amplifier, textbook)
         lines = sheet.depth_control_text(NET.replace(mix=0.75))
         assert "40k2" in lines[1] and "13k3" in lines[1] and "12.0 dB" in lines[1]
+
+
+class TestSheetCommand:
+    def run(self, *args):
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        return CliRunner().invoke(main, ["sheet", *map(str, args)])
+
+    def test_design_target_writes_a_sheet(self, tmp_path):
+        result = self.run("--out", tmp_path / "s", "--notch", "6.3k", "--draws", "300")
+        assert result.exit_code == 0, result.output
+        assert "cautions:" in result.output and (tmp_path / "s" / "sheet.html").exists()
+        again = self.run("--out", tmp_path / "s", "--notch", "6.3k", "--draws", "300")
+        assert again.exit_code != 0 and "--force" in again.output
+        assert self.run("--out", tmp_path / "s", "--notch", "6.3k", "--draws", "300", "--force").exit_code == 0

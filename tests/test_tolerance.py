@@ -251,3 +251,29 @@ class TestSuggestTrim:
     def test_refuses_bad_values(self, run, kwargs, match):
         with pytest.raises(BadValueError, match=match):
             tol.suggest_trim(run, **kwargs)
+
+
+class TestToleranceCommand:
+    BALANCED = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
+
+    def run(self, *args):
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        return CliRunner().invoke(main, ["tolerance", *self.BALANCED, *map(str, args)])
+
+    def test_json_has_the_figures(self, tmp_path):
+        import json
+
+        result = self.run("--r-tol", "F", "--c-tol", "1%", "--draws", "500", "--json", "--plot", tmp_path / "t.png")
+        assert result.exit_code == 0, result.output
+        payload = json.loads(result.output)
+        assert {"notch_hz_p50", "depth_db_p50", "yield", "worst_corner", "trim"} <= set(payload)
+        assert payload["trim"]["part"] == "R3" and (tmp_path / "t.png").exists()
+
+    @pytest.mark.parametrize("args, match", [(["--r-tol", "70%"], "tolerance"), (["--draws", "0"], "draws"),
+                                             (["--trim-share", "2"], "trim share")])
+    def test_bad_values_are_one_line(self, args, match):
+        result = self.run(*args)
+        assert result.exit_code != 0 and "Traceback" not in result.output
+        assert match in result.output.strip().splitlines()[-1]
