@@ -56,6 +56,8 @@ __all__ = [
     "render_file",
     "copy_file",
     "output_format",
+    "read_all",
+    "write_array",
 ]
 
 DEFAULT_BLOCK_FRAMES = 65536
@@ -537,8 +539,14 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
                 frames += len(block)
                 if processor is None and progress is not None:
                     progress(len(block))
+    return _report(in_path, out_path, frames, rate, channels, fmt, out_subtype, latency,
+                   encoder, start)
+
+
+def _report(in_path, out_path, frames, rate, channels, fmt, subtype, latency,
+            encoder: _Encoder, start: float) -> RenderReport:
     peak_dbfs = 20.0 * math.log10(encoder.peak) if encoder.peak > 0 else -math.inf
-    return RenderReport(str(in_path), str(out_path), frames, rate, channels, fmt, out_subtype,
+    return RenderReport(str(in_path), str(out_path), frames, rate, channels, fmt, subtype,
                         latency, peak_dbfs, encoder.clipped, encoder.over, encoder.dither,
                         time.perf_counter() - start)
 
@@ -665,8 +673,25 @@ def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,
 def read_all(path) -> tuple[np.ndarray, int]:
     """Read a whole file as float64 ``(frames, channels)`` and its rate in Hz.
 
-    For takes that fit in memory (analysis, reels); long renders stream instead.
-    Same checks as :func:`iter_blocks` (unreadable, empty, NaN/Inf -> AudioFileError).
+    For takes that fit in memory (analysis, reels); long renders stream instead
+    (:func:`iter_blocks`, :func:`render_file`). Does not resample.
+
+    Parameters
+    ----------
+    path : str or path-like
+        Audio file libsndfile reads.
+
+    Returns
+    -------
+    x : numpy.ndarray
+        float64 ``(frames, channels)``, full scale 1.0.
+    fs : int
+        Sample rate in Hz.
+
+    Raises
+    ------
+    AudioFileError
+        Unreadable, missing or empty (see :func:`read_info`), or holds NaN/Inf samples.
 
     Example
     -------
@@ -688,26 +713,60 @@ def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
                 dither_seed: int = 0) -> RenderReport:
     """Write float samples ``(frames, channels)`` to OUT atomically, encoded as a render is.
 
-    16-bit (and 8-bit) output gets TPDF dither; integer output is clipped explicitly
-    and the clipped samples counted in the report. Refuses a folder, a missing folder
-    or an extension libsndfile cannot write, like :func:`render_file`.
+    8- and 16-bit output gets TPDF dither; integer output is clipped explicitly and the
+    clipped samples are counted; float output is never clipped. An existing OUT is
+    replaced atomically. Does not resample or normalise.
+
+    Parameters
+    ----------
+    out_path : str or path-like
+        Destination; the container comes from its extension.
+    x : array_like
+        Finite float samples, ``(frames,)`` (mono) or ``(frames, channels)``, frames >= 1.
+    samplerate : int
+        Sample rate in Hz, >= 1.
+    subtype : str, optional
+        libsndfile sample format the container holds (default "PCM_24").
+    dither_seed : int, optional
+        Seed (>= 0) of the dither generator.
+
+    Returns
+    -------
+    RenderReport
+        As :func:`render_file`, with an empty ``in_path`` and ``latency_samples == 0``.
+
+    Raises
+    ------
+    BadValueError
+        ``x`` is not a finite, non-empty 1-D/2-D array; ``samplerate`` or ``dither_seed``
+        is not an allowed integer.
+    AudioFileError
+        OUT is a folder, its folder is missing or not writable, its extension names no
+        writable container, or the container cannot hold ``subtype``.
+
+    Example
+    -------
+    >>> import tempfile, os
+    >>> p = os.path.join(tempfile.mkdtemp(), "hot.wav")
+    >>> write_array(p, np.array([0.5, 1.5, -2.0]), 44100, subtype="PCM_16").clipped_samples
+    2
     """
     start = time.perf_counter()
     x = np.asarray(x, dtype=np.float64)
     if x.ndim == 1:
         x = x[:, None]
-    if x.ndim != 2 or not len(x) or not np.all(np.isfinite(x)):
-        raise BadValueError(f"{out_path}: samples must be a finite, non-empty (frames, channels) array")
+    if x.ndim != 2 or not x.size or not np.all(np.isfinite(x)):
+        raise BadValueError(f"{out_path}: samples of shape {x.shape} are not allowed; "
+                            "allowed: a finite, non-empty (frames, channels) array")
+    samplerate = _check_int("samplerate (Hz)", samplerate, 1)
+    dither_seed = _check_int("dither_seed", dither_seed, 0)
     _check_out_folder(out_path)
     fmt = output_format(out_path)
     subtype = _check_subtype(out_path, fmt, subtype, kept=False)
     frames, channels = x.shape
     block = min(frames, DEFAULT_BLOCK_FRAMES)
     encoder = _Encoder(subtype, channels, block, dither=True, seed=dither_seed)
-    with _atomic_output(out_path, fmt, subtype, int(samplerate), channels) as dst:
+    with _atomic_output(out_path, fmt, subtype, samplerate, channels) as dst:
         for first in range(0, frames, block):
-            dst.write(encoder.encode(x[first:first + block]))
-    peak_dbfs = 20.0 * math.log10(encoder.peak) if encoder.peak > 0 else -math.inf
-    return RenderReport("", str(out_path), frames, int(samplerate), channels, fmt, subtype, 0,
-                        peak_dbfs, encoder.clipped, encoder.over, encoder.dither,
-                        time.perf_counter() - start)
+            dst.write(encoder.encode(np.ascontiguousarray(x[first:first + block])))
+    return _report("", out_path, frames, samplerate, channels, fmt, subtype, 0, encoder, start)

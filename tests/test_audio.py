@@ -19,7 +19,8 @@ import scipy.signal
 import soundfile as sf
 
 from emulate import audio
-from emulate.audio import copy_file, iter_blocks, output_format, read_info, render_file
+from emulate.audio import (copy_file, iter_blocks, output_format, read_info, render_file,
+                           write_array)
 from emulate.errors import AudioFileError, BadValueError, EmulateError
 from helpers_audio import (PCM_BITS, Delay, Gain, Identity, Interrupting, SosFilter,
                            random_codes, read_codes, snapshot, write_codes, write_float)
@@ -423,3 +424,61 @@ class TestCopyFile:
         with pytest.raises(AudioFileError, match="FLAC cannot hold subtype FLOAT"):
             copy_file(path, tmp_path / "c.flac")
         assert snapshot(tmp_path) == before
+
+
+class TestReadAll:
+    @pytest.mark.parametrize("ext,subtype", [("wav", "PCM_16"), ("flac", "PCM_24"),
+                                             ("aif", "DOUBLE")])
+    def test_known_samples(self, tmp_path, ext, subtype):
+        path, x = make_input(tmp_path, ext, subtype, frames=777, channels=3)
+        y, fs = audio.read_all(path)
+        assert fs == RATE and y.dtype == np.float64
+        np.testing.assert_array_equal(y, x)  # the helper's known samples, exact
+
+    @pytest.mark.parametrize("make,match", [
+        (lambda d: d / "nothing.wav", "no such file"),
+        (lambda d: put(d / "t.wav", b"RIFF but not really"), "not an audio file"),
+        (lambda d: write_float(d / "n.wav", np.array([0.0, np.nan]), RATE, "FLOAT"),
+         "frame 1, channel 0"),
+    ])
+    def test_refused(self, tmp_path, make, match):
+        with pytest.raises(AudioFileError, match=match):
+            audio.read_all(make(tmp_path))
+
+
+class TestWriteArray:
+    @pytest.mark.parametrize("ext,subtype", [("wav", "PCM_24"), ("flac", "PCM_16"),
+                                             ("aiff", "FLOAT"), ("wav", "DOUBLE")])
+    def test_round_trip(self, tmp_path, ext, subtype):
+        x = np.random.default_rng(3).uniform(-0.9, 0.9, size=(70_000, 2))  # > one block
+        report = write_array(tmp_path / f"o.{ext}", x, 44100, subtype=subtype)
+        y, fs = audio.read_all(tmp_path / f"o.{ext}")
+        # 0.5 LSB rounding (+ <= 1 LSB TPDF dither at 16-bit); float32: 24-bit mantissa
+        lsb = {"PCM_24": 2.0 ** -23, "PCM_16": 2.0 ** -15, "FLOAT": 2.0 ** -24,
+               "DOUBLE": 0.0}[subtype]
+        tol = 1.5 * lsb if subtype == "PCM_16" else (0.5 * lsb if subtype == "PCM_24" else lsb)
+        np.testing.assert_allclose(y, x, rtol=0, atol=tol)
+        assert (fs, report.frames, report.subtype) == (44100, 70_000, subtype)
+
+    def test_mono_vector_and_clip_count(self, tmp_path):
+        report = write_array(tmp_path / "m.wav", np.array([0.5, 1.0, -1.0, -1.5]), RATE,
+                             subtype="PCM_24")
+        # 1.0 is one LSB above the largest 24-bit code; -1.0 is the smallest code
+        assert report.clipped_samples == 2 and report.channels == 1
+
+    @pytest.mark.parametrize("x,rate,kw,error,match", [
+        (np.zeros((0, 2)), RATE, {}, BadValueError, "non-empty"),
+        (np.array([0.0, np.inf]), RATE, {}, BadValueError, "finite"),
+        (np.zeros((2, 2, 2)), RATE, {}, BadValueError, "allowed: a finite"),
+        (np.zeros(4), 0, {}, BadValueError, "samplerate .Hz. must be an integer >= 1"),
+        (np.zeros(4), RATE, {"subtype": "FLOAT", "name": "o.flac"}, AudioFileError,
+         "FLAC cannot hold subtype FLOAT"),
+        (np.zeros(4), RATE, {"name": "o.xyz"}, AudioFileError, "not a container"),
+        (np.zeros(4), RATE, {"name": "gone/o.wav"}, AudioFileError, "does not exist"),
+    ])
+    def test_refused_and_nothing_written(self, tmp_path, x, rate, kw, error, match):
+        kw = dict(kw)
+        out = tmp_path / kw.pop("name", "o.wav")
+        with pytest.raises(error, match=match):
+            write_array(out, x, rate, **kw)
+        assert snapshot(tmp_path) == {}
