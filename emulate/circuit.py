@@ -126,12 +126,15 @@ class Circuit:
         Only for scalar part values. Raises :class:`CircuitError` when the network
         does not conduct from source to output or its equations are singular.
         """
-        g, c, b, l = (m[0] if m.ndim == 3 else m for m in self.matrices(output))
-        if g.ndim != 2:
+        g, c, b, l = self.matrices(output)
+        if g.shape[0] != 1:
             raise CircuitError("transfer_zpk needs scalar part values, not a batch")
-        g_ref = np.max(np.abs(g))
-        w_ref = g_ref / max(np.max(np.abs(c)), 1e-300)
-        gs, cs = g / g_ref, c * (w_ref / g_ref)
+        g, c = g[0], c[0]
+        # frequency scale: a typical conductance over a typical capacitance (rad/s),
+        # so the scaled eigenvalues are of order 1 and the tidying tolerances apply
+        dynamic = np.abs(c).sum(axis=1) > 0
+        w_ref = _typical(g[dynamic] if dynamic.any() else g) / _typical(c)
+        gs, cs = g, c * w_ref
         poles = _finite_eigenvalues(-gs, cs)
         n = len(b)
         system_a = np.block([[gs, b[:, None]], [l[None, :], np.zeros((1, 1))]])
@@ -140,7 +143,7 @@ class Circuit:
         zeros = _finite_eigenvalues(-system_a, system_b)
         zeros, poles = _cancel_common(zeros, poles)
         zeros, poles = zeros * w_ref, poles * w_ref
-        gain = _gain_at_test_point(self, output, zeros, poles, w_ref)
+        gain = _gain_at_test_point(self.compile(output), output, zeros, poles, w_ref)
         return zeros, poles, gain
 
 
@@ -270,12 +273,26 @@ def _finite_eigenvalues(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 
 def _tidy(roots: np.ndarray) -> np.ndarray:
-    """Snap numerically real roots to the real axis and pair conjugates exactly."""
+    """Snap numerically real roots to the real axis and pair conjugates exactly.
+
+    A real network's roots come in conjugate pairs; eigenvalue round-off breaks
+    the pairing slightly, which later stages (SOS conversion) do not accept.
+    """
     roots = np.asarray(roots, complex)
-    scale = np.maximum(np.abs(roots), 1e-300)
-    roots = np.where(np.abs(roots.imag) < 1e-10 * scale, roots.real + 0j, roots)
+    scale = np.maximum(np.abs(roots), 1e-2 * np.max(np.abs(roots), initial=1e-300))
+    roots = np.where(np.abs(roots.imag) < 1e-9 * scale, roots.real + 0j, roots)
     roots = np.where(np.abs(roots.real) < 1e-12 * scale, 1j * roots.imag, roots)
-    return np.sort_complex(roots)
+    upper, lower = list(roots[roots.imag > 0]), list(roots[roots.imag < 0])
+    paired = []
+    for root in upper:
+        if not lower:
+            raise CircuitError(f"complex root {root} has no conjugate partner")
+        j = int(np.argmin([abs(root - np.conj(other)) for other in lower]))
+        mean = (root + np.conj(lower.pop(j))) / 2
+        paired += [mean, np.conj(mean)]
+    if lower:
+        raise CircuitError(f"complex roots {lower} have no conjugate partners")
+    return np.sort_complex(np.concatenate([roots[roots.imag == 0], paired]))
 
 
 def _cancel_common(zeros: np.ndarray, poles: np.ndarray):
@@ -292,9 +309,15 @@ def _cancel_common(zeros: np.ndarray, poles: np.ndarray):
     return _tidy(np.array(zeros, complex)), _tidy(np.array(poles, complex))
 
 
-def _gain_at_test_point(circuit: Circuit, output, zeros, poles, w_ref) -> float:
+def _typical(m: np.ndarray) -> float:
+    """Geometric mean of the non-zero magnitudes (a scale, not a statistic)."""
+    values = np.abs(m[m != 0])
+    return float(np.exp(np.mean(np.log(values)))) if len(values) else 1.0
+
+
+def _gain_at_test_point(compiled: "Compiled", output: str, zeros, poles, w_ref) -> float:
     f_test = 0.37 * w_ref / (2 * np.pi)
-    h = circuit.response([f_test], output)[0]
+    h = compiled.response([f_test])[0]
     s = 2j * np.pi * f_test
     if h == 0:
         raise CircuitError(f"no signal reaches node '{output}' from the source")

@@ -18,9 +18,10 @@ from pathlib import Path
 
 import numpy as np
 
-from emulate import audio, emulation, speech, spec, synth
+from emulate import audio, emulation, plots, speech, spec, synth
 from emulate.errors import PresetError
 from emulate.presets import PresetStore, default_presets_dir
+from emulate.response import measure
 
 DEMO_RATE_HZ = 48000
 DEMO_SECONDS = 12.0
@@ -57,8 +58,10 @@ class DemoTake:
     path: Path
     report: speech.SibilanceReport
     preset_path: Path
+    notch_hz: float
     renders: tuple[DemoRender, ...]
     burst_times_s: tuple[float, ...]
+    pictures: tuple[Path, ...]
 
 
 def presets_folder(presets_dir=None) -> Path:
@@ -80,8 +83,8 @@ def run_demo(out_dir, *, presets_dir=None, seconds: float = DEMO_SECONDS, progre
     """Write the takes and renders into ``out_dir`` (created) and return what was done."""
     out_dir = Path(out_dir)
     store = PresetStore(presets_folder(presets_dir))
-    (out_dir / "takes").mkdir(parents=True, exist_ok=True)
-    (out_dir / "renders").mkdir(exist_ok=True)
+    for folder in ("takes", "renders", "pictures"):
+        (out_dir / folder).mkdir(parents=True, exist_ok=True)
     return [_demo_take(out_dir, speaker, store, seconds, progress) for speaker in SPEAKERS]
 
 
@@ -97,14 +100,26 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
                     for mix in sorted({1.0, network.mix}))
     schedule = synth.take_schedule(seconds, seed=speaker.seed)
     bursts = tuple(round(start, 2) for start, _ in schedule.bursts_s)
-    return DemoTake(speaker, take_path, report, store.path(preset.name), renders, bursts)
+    notch_hz = measure(network.response).notch_hz
+    pictures = _pictures(out_dir, speaker, network, x, renders[-1].path, notch_hz, report)
+    return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts, pictures)
+
+
+def _pictures(out_dir, speaker, network, dry, wet_path, notch_hz, report) -> tuple[Path, ...]:
+    """The preset's analog-vs-digital response and the take's spectrum before and after."""
+    folder = out_dir / "pictures"
+    response = plots.plot_response(network, folder / f"{speaker.key}-response.png", fs=DEMO_RATE_HZ)
+    wet, _ = audio.read_all(wet_path)
+    spectrum = plots.plot_take_spectrum(dry, wet, DEMO_RATE_HZ, folder / f"{speaker.key}-spectrum.png",
+                                        notch_hz=notch_hz, band_hz=report.band_hz)
+    return response, spectrum
 
 
 def _render(out_dir, take_path, dry, network, report, preset_name, progress) -> DemoRender:
     out = out_dir / "renders" / f"{take_path.stem}--{preset_name}--mix{network.mix:.2f}.wav"
     processor = emulation.processor_for(network)
     audio.render_file(take_path, out, processor, progress=progress)
-    wet = audio.read_all(out)
+    wet, _ = audio.read_all(out)
     dry = np.asarray(dry, float).reshape(len(dry), -1)
     return DemoRender(
         path=out, mix=network.mix,

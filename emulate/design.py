@@ -32,6 +32,8 @@ DEFAULT_IMPEDANCE_OHMS = 10e3
 DEFAULT_CAP_SERIES = "E12"  # film capacitors are mostly sold in E6/E12 steps (common practice)
 SINGLE_PART_DEPTH_DB = 60.0  # about the best a 1 % build holds (MT-225)
 Q_RANGE = (0.25, 20.0)
+NOTCH_RANGE_HZ = (1.0, 100e3)
+IMPEDANCE_RANGE_OHMS = (10.0, 10e6)
 DIVIDER_TOTAL_OHMS = 10e3
 
 
@@ -95,7 +97,7 @@ def design_twin_t(notch_hz: float, *, q: float | None = None, impedance_ohms: fl
     True
     """
     series, cap_series = parts.parse_series(series), parts.parse_series(cap_series)
-    check_range("notch frequency (Hz)", notch_hz, 1.0, 100e3)
+    check_range("notch frequency (Hz)", notch_hz, *NOTCH_RANGE_HZ)
     if q is not None:
         check_range("Q", q, *Q_RANGE)
     bootstrap = None if q is None else 1.0 - 1.0 / (4.0 * q)
@@ -113,7 +115,7 @@ def _ideal_capacitor(notch_hz, impedance_ohms, capacitor_farads) -> float:
     if capacitor_farads is not None:
         return float(capacitor_farads)
     r = DEFAULT_IMPEDANCE_OHMS if impedance_ohms is None else float(impedance_ohms)
-    check_range("impedance level (ohms)", r, 10.0, 10e6)
+    check_range("impedance level (ohms)", r, *IMPEDANCE_RANGE_OHMS)
     return 1.0 / (2 * math.pi * notch_hz * r)
 
 

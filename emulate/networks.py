@@ -14,8 +14,10 @@ Topology (designators as on a schematic)::
   and a second follower drives the foot from a fraction K of the buffered output,
   raising Q to 1/(4(1-K)) for a balanced network (Analog Devices MT-225);
 * depth control: an ideal wet/dry mix ``(1-mix) + mix*H`` (dry = the source
-  voltage), or a real potentiometer wired from the network input to its output
-  with the wiper buffered (wiper at the output end = full notch).
+  voltage), or a real potentiometer wired from the network input to its
+  buffered output with the wiper buffered (wiper at the output end = full
+  notch); the passive network gets an output follower for it, since a pot
+  straight across the bare network would bridge the null.
 
 Every response runs from the source's open-circuit voltage to the voltage across
 the load (or the mixer output). Nothing here measures; see :mod:`emulate.response`.
@@ -152,6 +154,9 @@ class TwinT:
 
     def _depth_control(self, c: Circuit, wet: str) -> str:
         if self.depth_pot_ohms is not None:
+            if not self.is_active:  # a pot across the bare network would bridge it
+                c.follower(wet, "wetbuf")
+                wet = "wetbuf"
             c.potentiometer("in", wet, "wiper", self.depth_pot_ohms, self.mix)
             c.follower("wiper", "out")
             return "out"

@@ -48,7 +48,7 @@ from pathlib import Path
 import tomli_w
 
 from emulate import parts
-from emulate.design import Q_RANGE
+from emulate.design import NOTCH_RANGE_HZ, Q_RANGE
 from emulate.errors import BadValueError, EmulateWarning, PresetError
 from emulate.validate import check_range
 
@@ -57,7 +57,6 @@ __all__ = ["CIRCUIT_KEYS", "SCHEMA_VERSION", "TARGET_KEYS", "Preset", "PresetSto
 
 SCHEMA_VERSION = 1
 ENV_VAR = "EMULATE_PRESETS_DIR"
-NOTCH_RANGE_HZ = (1.0, 100e3)  # the range emulate.design.design_twin_t accepts
 
 # circuit key -> (kind for parts.parse_value, keyword of networks.TwinT)
 _CIRCUIT = {"r1": ("resistance", "r1"), "r2": ("resistance", "r2"), "r3": ("resistance", "r3"),

@@ -36,9 +36,10 @@ import tomllib
 from pathlib import Path
 
 from emulate import parts
-from emulate.design import Design, design_twin_t
+from emulate.design import IMPEDANCE_RANGE_OHMS, NOTCH_RANGE_HZ, Q_RANGE, Design, design_twin_t
 from emulate.errors import BadValueError
 from emulate.networks import PART_NAMES, TwinT, part_kind
+from emulate.validate import check_range
 
 CIRCUIT_KEYS = PART_NAMES + ("source", "load", "bootstrap", "depth_pot")
 TARGET_KEYS = ("notch", "q", "series", "cap_series", "impedance", "capacitor")
@@ -58,11 +59,14 @@ def network_from_table(table: dict, *, mix: float = 1.0, where: str = "circuit")
                             "give all of R1, R2, R3, C1, C2, C3")
     values = {name: _value(table[name], part_kind(name), _field(where, name)) for name in PART_NAMES}
     bootstrap = table.get("bootstrap")
+    if bootstrap is not None:
+        bootstrap = _number(bootstrap, _field(where, "bootstrap"))
+        check_range(_field(where, "bootstrap"), bootstrap, 0.0, 1.0, high_open=True)
     depth_pot = table.get("depth_pot")
     return TwinT(
         **values,
         **network_surroundings(table, where),
-        bootstrap=None if bootstrap is None else _number(bootstrap, _field(where, "bootstrap")),
+        bootstrap=bootstrap,
         mix=mix,
         depth_pot_ohms=None if depth_pot is None else _value(depth_pot, "resistance", _field(where, "depth_pot")),
     )
@@ -85,29 +89,52 @@ def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float
     options = {}
     if table.get("q") is not None:
         options["q"] = _number(table["q"], _field(where, "q"))
+        check_range(_field(where, "q"), options["q"], *Q_RANGE)
     for key in ("series", "cap_series"):
         if table.get(key) is not None:
-            options[key] = str(table[key])
+            options[key] = _series(table[key], _field(where, key))
     if table.get("impedance") is not None:
         options["impedance_ohms"] = _value(table["impedance"], "resistance", _field(where, "impedance"))
+        check_range(_field(where, "impedance"), options["impedance_ohms"], *IMPEDANCE_RANGE_OHMS)
     if table.get("capacitor") is not None:
         options["capacitor_farads"] = _value(table["capacitor"], "capacitance", _field(where, "capacitor"))
     notch = _value(table["notch"], None, _field(where, "notch"))
+    check_range(_field(where, "notch"), notch, *NOTCH_RANGE_HZ)
     return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
+
+
+def _series(raw, where: str) -> str:
+    try:
+        return parts.parse_series(str(raw))
+    except BadValueError as exc:
+        raise BadValueError(f"{where}: {exc}") from None
 
 
 def table_from_network(network: TwinT) -> dict:
     """The ``[circuit]`` table for a network, values as the trade writes them."""
-    table = {name: parts.format_value(value, part_kind(name)) for name, value in network.parts().items()}
+    table = {name: _exact_text(value, part_kind(name)) for name, value in network.parts().items()}
     if network.source_ohms:
-        table["source"] = parts.format_value(network.source_ohms, "resistance")
+        table["source"] = _exact_text(network.source_ohms, "resistance")
     if math.isfinite(network.load_ohms):
-        table["load"] = parts.format_value(network.load_ohms, "resistance")
+        table["load"] = _exact_text(network.load_ohms, "resistance")
     if network.bootstrap is not None:
         table["bootstrap"] = round(float(network.bootstrap), 6)
     if network.depth_pot_ohms is not None:
-        table["depth_pot"] = parts.format_value(network.depth_pot_ohms, "resistance")
+        table["depth_pot"] = _exact_text(network.depth_pot_ohms, "resistance")
     return table
+
+
+def _exact_text(value: float, kind: str) -> str:
+    """The trade's notation with as few figures as give the value back (3 to 7).
+
+    Half of an E96 value (R3 as two parts in parallel) needs 4 figures: 9k53 / 2
+    = 4765 ohms; writing 4k76 would unbalance the network by 0.1 %.
+    """
+    for digits in range(3, 8):
+        text = parts.format_value(value, kind, digits)
+        if abs(parts.parse_value(text, kind) / value - 1) < 1e-6:
+            return text
+    return text
 
 
 def read_circuit_file(path) -> dict:

@@ -226,3 +226,40 @@ def preset_text(path, preset, network, metrics) -> str:
     if preset.notes:
         lines += ["  notes:", *(f"    {line}" for line in preset.notes.strip().splitlines())]
     return "\n".join(lines)
+
+
+# --- the demo --------------------------------------------------------------------
+
+LISTENING_CAUTION = ("Protect your hearing: start with the monitor level low, then raise it; "
+                     "a deep notch swept through a loud take can surprise you.")
+
+
+def demo_payload(takes) -> dict:
+    return {"takes": [{
+        "speaker": t.speaker.key, "take": str(t.path), "preset": str(t.preset_path),
+        "notch_hz": t.notch_hz, "sibilance": _sibilance_fields(t.report),
+        "bursts_s": list(t.burst_times_s), "pictures": [str(p) for p in t.pictures],
+        "renders": [{"path": str(r.path), "mix": r.mix, "sibilance_reduction_db": r.sibilance_reduction_db,
+                     "loudness_change_db": r.loudness_change_db, "fidelity_db": r.fidelity_db,
+                     "digital_method": r.method} for r in t.renders]} for t in takes]}
+
+
+def demo_text(out_dir, takes) -> str:
+    lines = ["Low Tide Notes (an invented podcast): two invented hosts, one synthetic take each,",
+             f"written to {out_dir}/", ""]
+    for t in takes:
+        bursts = ", ".join(f"{b:.1f}" for b in t.burst_times_s[:5])
+        lines += [f"{t.speaker.key}: {t.path}",
+                  _sibilance_line("sibilance", t.report), suggestion_line(t.report),
+                  f"  preset {t.preset_path.stem} ({t.preset_path}): as-built notch {t.notch_hz:.0f} Hz"]
+        for r in t.renders:
+            lines.append(f"  rendered {r.path.name}: sibilance band {-r.sibilance_reduction_db:+.1f} dB, "
+                         f"loudness {r.loudness_change_db:+.1f} dB; emulation within {r.fidelity_db:.3f} dB "
+                         f"of the analog circuit ({r.method})")
+        lines += [f"  pictures: {', '.join(str(p) for p in t.pictures)}",
+                  f"  listen: play the take, then each render; the /s/ bursts start at {bursts} s ... "
+                  "should lose their hiss while the vowels keep their body.", ""]
+    lines += ["Try your own: emulate sibilance TAKE.wav, then emulate sweep TAKE.wav --from 4k --to 8k "
+              "--out sweep-out, then emulate preset save NAME --from-sweep sweep-out --speaker WHO.",
+              LISTENING_CAUTION]
+    return "\n".join(lines)

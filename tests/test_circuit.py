@@ -116,8 +116,6 @@ class TestTransferZpk:
         with pytest.raises(CircuitError, match="singular"):
             c.transfer_zpk("out")
 
-    @pytest.mark.xfail(strict=True, reason="transfer_zpk takes build 0 of every matrix before "
-                       "its batch check, so a batch ends in a TypeError from float(k.real)")
     def test_batch_raises_circuit_error_not_type_error_bug(self):
         # the docstring promises a CircuitError for batched part values
         c = rc_lowpass([1e3, 2e3], 1e-9)

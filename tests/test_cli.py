@@ -97,7 +97,7 @@ class TestDesign:
 
     @pytest.mark.parametrize("args, match", [
         (["--notch", "0"], "notch"),
-        (["--notch", "6k", "--q", "0.1"], "Q"),
+        (["--notch", "6k", "--q", "0.1"], "q 0.1"),
         (["--notch", "6k", "--series", "E7"], "E7"),
     ])
     def test_bad_targets(self, args, match):

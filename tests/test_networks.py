@@ -282,9 +282,6 @@ class TestResponse:
         np.testing.assert_allclose(at_one, full.response(f_hz), atol=2e-6)
         np.testing.assert_allclose(at_zero, 1.0, atol=2e-6)
 
-    @pytest.mark.xfail(strict=True, reason="the passive network's depth pot is wired from 'in' "
-                       "to the unbuffered network output, so its track bridges the twin-T "
-                       "and leaks the input at the null (-26 dB instead of a full notch)")
     def test_passive_depth_pot_full_notch_at_one_bug(self):
         # same promise as above, for the passive network (networks.py docstring:
         # "wiper at the output end = full notch")

@@ -58,9 +58,6 @@ class TestTableFromNetwork:
         assert abs(back.bootstrap - k) <= 5e-7
         assert 1 / (1 - back.bootstrap) == pytest.approx(1 / (1 - k), rel=1e-5)
 
-    @pytest.mark.xfail(strict=True, reason="table_from_network writes 3 significant figures, so "
-                       "R3 = 9k53/2 = 4765 ohms (a design's '2 x 9k53 in parallel') comes back as "
-                       "4k76 and the network is unbalanced by 0.105 %, over the 0.1 % warning limit")
     def test_round_trip_keeps_half_of_an_e96_value_bug(self):
         network = TwinT(9.53e3, 9.53e3, 9.53e3 / 2, 10e-9, 10e-9, 20e-9)
         back = network_from_table(table_from_network(network))
@@ -118,8 +115,6 @@ class TestNetworkFromTable:
         ("bootstrap", 1.5),
         ("bootstrap", -0.1),
     ])
-    @pytest.mark.xfail(strict=True, reason="range checks made later by TwinT (bootstrap K in [0, 1)) "
-                       "do not carry the table's field name, against the Raises section")
     def test_range_errors_name_the_field_bug(self, key, value):
         with pytest.raises(BadValueError, match=rf"circuit\.{key}"):
             network_from_table(BALANCED_TABLE | {key: value})
@@ -156,8 +151,6 @@ class TestDesignFromTable:
         ({"notch": "1k", "series": "E5"}, "series"),
         ({"notch": "1k", "impedance": "1R"}, "impedance"),
     ])
-    @pytest.mark.xfail(strict=True, reason="range checks made later by design_twin_t do not carry "
-                       "the table's field name (target.q, target.notch, ...)")
     def test_range_errors_name_the_field_bug(self, table, field):
         with pytest.raises(BadValueError, match=rf"target\.{field}"):
             design_from_table(table)

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import click
 
-from emulate import audio, emulation, summary
-from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options, progress,
-                                 run_quietly)
+from emulate import audio, demo, emulation, summary
+from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options, presets_option,
+                                 progress, run_quietly)
 
 
 @main.command()
@@ -28,3 +28,17 @@ def render(in_path, out_path, subtype, as_float, as_json, **options):
     payload = report.to_dict() | {"fidelity_db": processor.fidelity_db,
                                   "digital_method": processor.design.method}
     emit(as_json, payload, summary.render_text(report, processor))
+
+
+@main.command("demo")
+@click.option("--out", "out_dir", default="demo-out", show_default=True, type=click.Path(file_okay=False),
+              help="folder for the demo takes, renders and pictures (created)")
+@click.option("--seconds", type=float, default=demo.DEMO_SECONDS, show_default=True,
+              help="length of each invented take, s")
+@presets_option
+@json_option
+@run_quietly
+def demo_command(out_dir, seconds, presets_dir, as_json):
+    """Invented two-host podcast: takes, sibilance, presets, renders and pictures."""
+    takes = demo.run_demo(out_dir, presets_dir=presets_dir, seconds=seconds)
+    emit(as_json, summary.demo_payload(takes), summary.demo_text(out_dir, takes))
