@@ -125,12 +125,12 @@ def table_from_network(network: TwinT) -> dict:
 
 
 def _exact_text(value: float, kind: str) -> str:
-    """The trade's notation with as few figures as give the value back (3 to 7).
+    """The trade's notation with as few figures as give the value back (3 to 6).
 
     Half of an E96 value (R3 as two parts in parallel) needs 4 figures: 9k53 / 2
     = 4765 ohms; writing 4k76 would unbalance the network by 0.1 %.
     """
-    for digits in range(3, 8):
+    for digits in range(3, 7):
         text = parts.format_value(value, kind, digits)
         if abs(parts.parse_value(text, kind) / value - 1) < 1e-6:
             return text

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from emulate import audio, demo, emulation, summary
+from emulate import audio, demo, emulation, spec, summary
 from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options, presets_option,
                                  progress, run_quietly)
 
@@ -15,19 +15,35 @@ from emulate.cli.options import (circuit_options, emit, json_option, main, netwo
 @circuit_options
 @click.option("--subtype", help="output sample format (PCM_16, PCM_24, PCM_32, FLOAT); default: keep IN's")
 @click.option("--float", "as_float", is_flag=True, help="write 32-bit float (no clipping, no dither)")
+@click.option("--build", help="hear a real build: typical, worst (corner), or a draw number N "
+                              "of the tolerance run (see 'emulate tolerance')")
+@click.option("--r-tol", default="1%", show_default=True, help="with --build: resistor tolerance")
+@click.option("--c-tol", default="5%", show_default=True, help="with --build: capacitor tolerance")
+@click.option("--distribution", type=click.Choice(["uniform", "normal"]), default="uniform",
+              show_default=True, help="with --build: how parts spread within tolerance")
+@click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
 @json_option
 @run_quietly
-def render(in_path, out_path, subtype, as_float, as_json, **options):
+def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, as_json, **options):
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
     network = network_from_options(options)
+    if build is not None:
+        from emulate import tolerance
+
+        tolerances = tolerance.Tolerances.parse(r_tol, c_tol, distribution)
+        network = tolerance.build_at(network, tolerances, build, seed)
     processor = emulation.processor_for(network)
     info = audio.read_info(in_path)
     with progress(info.frames, f"rendering {in_path}") as bar:
         report = audio.render_file(in_path, out_path, processor, progress=bar.update,
                                    subtype="FLOAT" if as_float else subtype)
     payload = report.to_dict() | {"fidelity_db": processor.fidelity_db,
-                                  "digital_method": processor.design.method}
-    emit(as_json, payload, summary.render_text(report, processor))
+                                  "digital_method": processor.design.method,
+                                  "build": build, "parts": spec.table_from_network(network)}
+    text = summary.render_text(report, processor)
+    if build is not None:
+        text += f"\n  build {build}: {summary.network_line(network)}"
+    emit(as_json, payload, text)
 
 
 @main.command("demo")
