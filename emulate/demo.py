@@ -25,6 +25,7 @@ from emulate.response import measure
 
 DEMO_RATE_HZ = 48000
 DEMO_SECONDS = 12.0
+MORE_TAKES = 2  # extra takes per host, for trying the sibilance, sweep and preset commands
 
 
 @dataclass(frozen=True)
@@ -62,6 +63,7 @@ class DemoTake:
     renders: tuple[DemoRender, ...]
     burst_times_s: tuple[float, ...]
     pictures: tuple[Path, ...]
+    more_takes: tuple[Path, ...]
 
 
 def presets_folder(presets_dir=None) -> Path:
@@ -102,7 +104,19 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
     bursts = tuple(round(start, 2) for start, _ in schedule.bursts_s)
     notch_hz = measure(network.response).notch_hz
     pictures = _pictures(out_dir, speaker, network, x, renders[-1].path, notch_hz, report)
-    return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts, pictures)
+    more = tuple(_more_take(out_dir, speaker, number, seconds) for number in range(2, 2 + MORE_TAKES))
+    return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts,
+                    pictures, more)
+
+
+def _more_take(out_dir, speaker, number: int, seconds: float) -> Path:
+    """Another take of the same host: same voice, other words (seed), pitch a little off."""
+    x = synth.voice_like_take(DEMO_RATE_HZ, seconds, pitch_hz=speaker.pitch_hz * (1 + 0.02 * number),
+                              sibilance_hz=speaker.sibilance_hz * (1 - 0.01 * number),
+                              seed=speaker.seed + number)
+    path = out_dir / "takes" / f"{speaker.key}-take{number}.wav"
+    audio.write_array(path, x, DEMO_RATE_HZ, subtype="PCM_24")
+    return path
 
 
 def _pictures(out_dir, speaker, network, dry, wet_path, notch_hz, report) -> tuple[Path, ...]:

@@ -587,7 +587,7 @@ class PresetStore:
         path = self.path(preset.name)
         if path.exists() and not force:
             raise PresetError(f"preset {preset.name!r} already exists ({_shown(path)}); "
-                              "save with force to replace it")
+                              "save with force (--force) to replace it")
         try:
             self.root.mkdir(parents=True, exist_ok=True)
             _write_atomic(path, preset_to_toml(preset))

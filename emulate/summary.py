@@ -239,6 +239,7 @@ def demo_payload(takes) -> dict:
         "speaker": t.speaker.key, "take": str(t.path), "preset": str(t.preset_path),
         "notch_hz": t.notch_hz, "sibilance": _sibilance_fields(t.report),
         "bursts_s": list(t.burst_times_s), "pictures": [str(p) for p in t.pictures],
+        "more_takes": [str(p) for p in t.more_takes],
         "renders": [{"path": str(r.path), "mix": r.mix, "sibilance_reduction_db": r.sibilance_reduction_db,
                      "loudness_change_db": r.loudness_change_db, "fidelity_db": r.fidelity_db,
                      "digital_method": r.method} for r in t.renders]} for t in takes]}
@@ -257,9 +258,11 @@ def demo_text(out_dir, takes) -> str:
                          f"loudness {r.loudness_change_db:+.1f} dB; emulation within {r.fidelity_db:.3f} dB "
                          f"of the analog circuit ({r.method})")
         lines += [f"  pictures: {', '.join(str(p) for p in t.pictures)}",
+                  f"  more takes to try: {', '.join(str(p) for p in t.more_takes)}",
                   f"  listen: play the take, then each render; the /s/ bursts start at {bursts} s ... "
                   "should lose their hiss while the vowels keep their body.", ""]
-    lines += ["Try your own: emulate sibilance TAKE.wav, then emulate sweep TAKE.wav --from 4k --to 8k "
-              "--out sweep-out, then emulate preset save NAME --from-sweep sweep-out --speaker WHO.",
+    lines += ["Next, per host (see the README's walk-through): emulate sibilance on the takes, "
+              "emulate sweep them, listen to the reels, emulate preset save NAME --from-sweep DIR, "
+              "then emulate render a new take --preset NAME.",
               LISTENING_CAUTION]
     return "\n".join(lines)

@@ -40,7 +40,7 @@ from emulate.errors import BadValueError
 from emulate.response import measure
 from emulate.validate import check_range
 
-TIE_DB = 0.5  # relative reductions this close count as equal (a judgement call)
+TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 REEL_GAP_S = 0.6
 REEL_EXCERPT_S = 3.0
 MAX_STEPS = 64
@@ -59,12 +59,15 @@ class SweepPlan:
     source_ohms: float = 0.0
     load_ohms: float = math.inf
 
+    def design(self, notch_hz: float):
+        """The design (ideal and as built) for one setting."""
+        return design_twin_t(notch_hz, q=self.q, series=self.series, cap_series=self.cap_series,
+                             impedance_ohms=self.impedance_ohms, source_ohms=self.source_ohms,
+                             load_ohms=self.load_ohms)
+
     def network(self, notch_hz: float):
-        """The as-built network for one setting."""
-        design = design_twin_t(notch_hz, q=self.q, series=self.series, cap_series=self.cap_series,
-                               impedance_ohms=self.impedance_ohms, source_ohms=self.source_ohms,
-                               load_ohms=self.load_ohms)
-        return design.built.replace(mix=self.mix)
+        """The as-built network for one setting, at the plan's mix."""
+        return self.design(notch_hz).built.replace(mix=self.mix)
 
 
 def notch_steps(from_hz: float, to_hz: float, steps: int) -> tuple[float, ...]:

@@ -113,6 +113,8 @@ def preset_save(name, speaker, notes, notch, q, series, impedance, from_sweep, f
         network = network_from_options(options)
         made = {"circuit": spec.table_from_network(network), "mix": network.mix,
                 "made_by": "circuit options"}
+    build = made.pop("build", "")
+    notes = "\n".join(text for text in (notes, build) if text)
     path = store.save(presets.Preset(name=name, speaker=speaker, notes=notes, **made), force=force)
     click.echo(f"saved preset '{name}' to {path}")
 
@@ -129,7 +131,12 @@ def _from_target(notch, q, series, impedance, options) -> dict:
     design = spec.design_from_table(target, where="", **surroundings)
     mix = 1.0 if options.get("mix") is None else options["mix"]
     return {"target": target, "circuit": spec.table_from_network(design.built), "mix": mix,
+            "build": _build_note(design),
             "made_by": f"design target: notch {notch} Hz, as built {design.built_metrics.notch_hz:.1f} Hz"}
+
+
+def _build_note(design) -> str:
+    return f"build R3 as {design.r3_build} and C3 as {design.c3_build}."
 
 
 def _from_sweep(folder, mix) -> dict:
@@ -140,11 +147,12 @@ def _from_sweep(folder, mix) -> dict:
     except (OSError, ValueError, KeyError) as exc:
         raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
     plan_obj = sweep.SweepPlan(**(plan | {"notches_hz": tuple(plan["notches_hz"])}))
-    network = plan_obj.network(pick["notch_target_hz"])
+    design = plan_obj.design(pick["notch_target_hz"])
+    network = design.built
     target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan["series"]}
     if plan.get("q") is not None:
         target["q"] = plan["q"]
-    return {"circuit": spec.table_from_network(network), "target": target,
+    return {"circuit": spec.table_from_network(network), "target": target, "build": _build_note(design),
             "mix": plan["mix"] if mix is None else mix,
             "made_by": f"sweep pick: {pick['setting']} of {len(plan['notches_hz'])}: {pick['reason']}"}
 
