@@ -50,18 +50,16 @@ import numpy as np
 from scipy import optimize, signal
 
 from emulate.errors import BadValueError, CircuitError
+from emulate.validate import check_range
 
 __all__ = [
     "DigitalNotch",
-    "bilinear_prewarped_zpk",
-    "check_mix",
     "analog_null_hz",
+    "bilinear_prewarped_zpk",
     "check_sample_rate_hz",
-    "depth_db_to_mix",
     "design_sections",
-    "fidelity_error_db",
     "fidelity_band_hz",
-    "mix_to_depth_db",
+    "fidelity_error_db",
 ]
 
 # Response level below which the fidelity target does not apply (dB).
@@ -128,13 +126,8 @@ def check_sample_rate_hz(fs):
     >>> check_sample_rate_hz(48000)
     48000.0
     """
-    try:
-        value = float(fs)
-    except (TypeError, ValueError):
-        raise BadValueError(f"sample rate {fs!r} Hz is not a number; allowed: > 0 Hz") from None
-    if not math.isfinite(value) or value <= 0.0:
-        raise BadValueError(f"sample rate {fs!r} Hz is not allowed; allowed: finite, > 0 Hz")
-    return value
+    check_range("sample rate (Hz)", fs, 0.0, math.inf, low_open=True, high_open=True)
+    return float(fs)
 
 
 def _check_notch_hz(notch_hz, fs):
@@ -147,37 +140,6 @@ def _check_notch_hz(notch_hz, fs):
         raise BadValueError(
             f"notch {notch_hz!r} Hz is not allowed at {fs:g} Hz; allowed: 0 < notch < {fs / 2.0:g} Hz (Nyquist)"
         )
-    return value
-
-
-def check_mix(mix):
-    """Return ``mix`` as float after checking 0 <= mix <= 1.
-
-    Parameters
-    ----------
-    mix : float
-        Wet/dry mix, 0 (dry, no notch) to 1 (full notch), endpoints included.
-
-    Returns
-    -------
-    float
-
-    Raises
-    ------
-    BadValueError
-        If ``mix`` is not a number in [0, 1].
-
-    Example
-    -------
-    >>> check_mix(0.5)
-    0.5
-    """
-    try:
-        value = float(mix)
-    except (TypeError, ValueError):
-        raise BadValueError(f"mix {mix!r} is not a number; allowed: 0 to 1") from None
-    if not 0.0 <= value <= 1.0:  # also rejects NaN
-        raise BadValueError(f"mix {mix!r} is not allowed; allowed: 0 to 1 (endpoints included)")
     return value
 
 
@@ -558,9 +520,8 @@ def design_sections(z, p, k, fs, *, notch_hz, tolerance_db=0.1):
     """
     fs = check_sample_rate_hz(fs)
     notch_hz = _check_notch_hz(notch_hz, fs)
+    check_range("tolerance (dB)", tolerance_db, 0.0, math.inf, low_open=True, high_open=True)
     tol = float(tolerance_db)
-    if not tol > 0.0:
-        raise BadValueError(f"tolerance {tolerance_db!r} dB is not allowed; allowed: > 0 dB")
     z, p, k = _check_zpk(z, p, k)
     band = fidelity_band_hz(fs)
     best = None
@@ -583,65 +544,3 @@ def design_sections(z, p, k, fs, *, notch_hz, tolerance_db=0.1):
         band_hz=band,
         notch_hz=_digital_null_hz(sos, fs, notch_hz),
     )
-
-
-# --- wet/dry mix and depth ---------------------------------------------------
-
-
-def mix_to_depth_db(mix):
-    """Depth in dB of an ideal null under a wet/dry mix: 20 log10(1 - mix) (common practice).
-
-    Parameters
-    ----------
-    mix : float
-        0 (dry) to 1 (full notch), endpoints included.
-
-    Returns
-    -------
-    float
-        Depth in dB, 0 at mix 0, ``-inf`` at mix 1.
-
-    Raises
-    ------
-    BadValueError
-        If ``mix`` is not in [0, 1].
-
-    Example
-    -------
-    >>> round(mix_to_depth_db(0.9), 6)
-    -20.0
-    """
-    mix = check_mix(mix)
-    return -math.inf if mix == 1.0 else 20.0 * math.log10(1.0 - mix)
-
-
-def depth_db_to_mix(depth_db):
-    """Mix giving ``depth_db`` at an ideal null: 1 - 10^(depth_db / 20) (common practice).
-
-    Parameters
-    ----------
-    depth_db : float
-        Depth in dB, -inf to 0 (endpoints included).
-
-    Returns
-    -------
-    float
-        Mix in [0, 1].
-
-    Raises
-    ------
-    BadValueError
-        If ``depth_db`` is NaN or above 0 dB.
-
-    Example
-    -------
-    >>> round(depth_db_to_mix(-20.0), 6)
-    0.9
-    """
-    try:
-        value = float(depth_db)
-    except (TypeError, ValueError):
-        raise BadValueError(f"depth {depth_db!r} dB is not a number; allowed: -inf to 0 dB") from None
-    if not value <= 0.0:  # also rejects NaN
-        raise BadValueError(f"depth {depth_db!r} dB is not allowed; allowed: -inf to 0 dB")
-    return 1.0 - 10.0 ** (value / 20.0)

@@ -21,21 +21,18 @@ import math
 import numpy as np
 
 from emulate import kernels
-from emulate.digital import check_mix, check_sample_rate_hz, design_sections
+from emulate.depth import check_mix
+from emulate.digital import check_sample_rate_hz, design_sections
 from emulate.errors import BadValueError, EmulateError
+from emulate.validate import check_range
 
 __all__ = ["NotchProcessor"]
 
 
 def _check_smoothing_ms(smoothing_ms):
     """Return ``smoothing_ms`` as float if finite and >= 0 ms, else raise BadValueError."""
-    try:
-        value = float(smoothing_ms)
-    except (TypeError, ValueError):
-        raise BadValueError(f"smoothing {smoothing_ms!r} ms is not a number; allowed: >= 0 ms") from None
-    if not (math.isfinite(value) and value >= 0.0):
-        raise BadValueError(f"smoothing {smoothing_ms!r} ms is not allowed; allowed: finite, >= 0 ms")
-    return value
+    check_range("smoothing (ms)", smoothing_ms, 0.0, math.inf, high_open=True)
+    return float(smoothing_ms)
 
 
 def _check_channels(channels):

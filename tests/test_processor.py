@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from emulate.digital import mix_to_depth_db
+from emulate.depth import mix_to_depth_db
 from emulate.errors import BadValueError, CircuitError, EmulateError
 from emulate.processor import NotchProcessor
 
@@ -37,7 +37,11 @@ def noise(frames, channels=2, seed=7):
 
 
 class TestNotchProcessor:
-    @pytest.mark.parametrize("kwargs, match", [({"mix": 1.5}, "mix 1.5"), ({"smoothing_ms": -1}, "smoothing -1")])
+    @pytest.mark.parametrize("kwargs, match", [
+        ({"mix": 1.5}, r"mix 1.5: allowed \[0, 1\]"),
+        ({"smoothing_ms": -1}, r"smoothing \(ms\) -1: allowed \[0, inf\)"),
+        ({"smoothing_ms": float("inf")}, r"smoothing \(ms\) inf"),
+    ])
     def test_rejects_bad_settings(self, kwargs, match):
         with pytest.raises(BadValueError, match=match):
             NotchProcessor(*balanced_zpk(1000.0), notch_hz=1000.0, **kwargs)
@@ -53,7 +57,7 @@ class TestNotchProcessor:
 class TestPrepare:
     @pytest.mark.parametrize(
         "rate, channels, match",
-        [(0, 2, "sample rate 0"), (48000, 0, "channels 0"), (48000, 1.5, "channels 1.5"), (8000, 1, "notch 5000")],
+        [(0, 2, r"sample rate \(Hz\) 0"), (48000, 0, "channels 0"), (48000, 1.5, "channels 1.5"), (8000, 1, "notch 5000")],
     )
     def test_rejects(self, rate, channels, match):
         proc = NotchProcessor(*balanced_zpk(5000.0), notch_hz=5000.0)
