@@ -87,19 +87,31 @@ def part_type(name: str, value: float, tolerance: float) -> str:
     return "polypropylene (PP) film, or polyester (PET) film; not high-k ceramic"
 
 
+STOCKED_SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")  # E3 is rarely stocked (common practice)
+
+
 def preferred_series(value: float) -> str:
-    """The coarsest IEC 60063 series holding ``value`` (E3 .. E192), or ``"not preferred"``."""
-    for series in parts.E_SERIES:
+    """The coarsest stocked IEC 60063 series holding ``value`` (E6 .. E192), or ``"not preferred"``."""
+    for series in STOCKED_SERIES:
         if any(math.isclose(value, v, rel_tol=1e-6) for v in parts.series_values(series, value * 0.99,
                                                                                value * 1.01)):
             return series
     return "not preferred"
 
 
+def _pair_text(value: float, partner: float, kind: str, ratio: float) -> str | None:
+    """'2 x 12k in parallel' where a shunt part that is no preferred value is a pair of its partner."""
+    if preferred_series(value) != "not preferred" or not math.isclose(value, ratio * partner, rel_tol=1e-6):
+        return None
+    return f"2 x {parts.format_value(partner, kind)} in parallel"
+
+
 def parts_rows(network: TwinT, tolerances, design=None, trim=None) -> list[list[str]]:
     """Designator, value, series, tolerance, part type for each part (R3 split when trimmed)."""
     fractions = dict(zip(PART_NAMES, tolerances.fractions()))
-    shunt_text = {} if design is None else {"r3": design.r3_build, "c3": design.c3_build}
+    shunt_text = ({"r3": _pair_text(network.r3, network.r1, "resistance", 0.5),
+                   "c3": _pair_text(network.c3, network.c1, "capacitance", 2.0)}
+                  if design is None else {"r3": design.r3_build, "c3": design.c3_build})
     rows = []
     for name, value in network.parts().items():
         written = shunt_text.get(name) or parts.format_value(value, part_kind(name))

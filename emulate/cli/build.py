@@ -29,8 +29,9 @@ def tolerance_options(command):
 
 
 def _analyse(network, options):
+    """Tolerances of the network at full notch: the parts set the null, the mix only scales it."""
     tolerances = tolerance.Tolerances.parse(options["r_tol"], options["c_tol"], options["distribution"])
-    result = tolerance.monte_carlo(network, tolerances, draws=options["draws"], seed=options["seed"],
+    result = tolerance.monte_carlo(network.wet(), tolerances, draws=options["draws"], seed=options["seed"],
                                    spec_db=options["spec_db"])
     return tolerances, result, tolerance.suggest_trim(result, share=options["trim_share"])
 
