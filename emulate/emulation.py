@@ -25,7 +25,11 @@ from emulate.processor import NotchProcessor
 from emulate.response import measure
 
 
-def processor_for(network: TwinT, *, tolerance_db: float = 0.1, smoothing_ms: float = 20.0) -> NotchProcessor:
+DESIGN_TOLERANCE_DB = 0.05  # half the 0.1 dB fidelity target: margin for the worst grid cases
+
+
+def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
+                  smoothing_ms: float = 20.0) -> NotchProcessor:
     """A :class:`NotchProcessor` that emulates ``network`` (not yet prepared).
 
     Example
@@ -40,7 +44,7 @@ def processor_for(network: TwinT, *, tolerance_db: float = 0.1, smoothing_ms: fl
                           tolerance_db=tolerance_db, smoothing_ms=smoothing_ms)
 
 
-def digital_for(network: TwinT, fs: float, *, tolerance_db: float = 0.1):
+def digital_for(network: TwinT, fs: float, *, tolerance_db: float = DESIGN_TOLERANCE_DB):
     """The digital sections that emulate ``network`` at ``fs`` Hz (a prepared processor's design)."""
     processor = processor_for(network, tolerance_db=tolerance_db)
     processor.prepare(fs, 1)

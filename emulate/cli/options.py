@@ -8,6 +8,7 @@ status 1; :class:`~emulate.errors.EmulateWarning` lines are printed as
 from __future__ import annotations
 
 import functools
+import importlib
 import json
 import math
 import warnings
@@ -27,8 +28,26 @@ PART_HELP = {
 }
 
 
+# each command lives in the module of its subject, imported only when the command
+# runs, so `emulate render` does not pay for plotting or speech analysis imports
+COMMAND_MODULES = {
+    "response": "circuit", "design": "circuit",
+    "render": "sound", "demo": "demo",
+    "sibilance": "speaker", "sweep": "speaker", "preset": "speaker",
+    "tolerance": "build", "sheet": "build",
+}
+
+
 class _Group(click.Group):
-    """Turns package errors into one clear line and package warnings into notes."""
+    """Lazy commands; package errors become one clear line, package warnings notes."""
+
+    def list_commands(self, ctx):
+        return sorted(COMMAND_MODULES)
+
+    def get_command(self, ctx, name):
+        if name in COMMAND_MODULES and name not in self.commands:
+            importlib.import_module(f"emulate.cli.{COMMAND_MODULES[name]}")
+        return super().get_command(ctx, name)
 
     def invoke(self, ctx):
         with warnings.catch_warnings(record=True) as caught:

@@ -1,12 +1,11 @@
-"""Commands that make sound: ``render`` (and the ``demo``)."""
+"""The command that makes sound: ``render``."""
 
 from __future__ import annotations
 
 import click
 
-from emulate import audio, demo, emulation, spec, summary
-from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options, presets_option,
-                                 progress, run_quietly)
+from emulate import audio, emulation, spec, summary
+from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
 
 
 @main.command()
@@ -44,17 +43,3 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
     emit(as_json, payload, text)
-
-
-@main.command("demo")
-@click.option("--out", "out_dir", default="demo-out", show_default=True, type=click.Path(file_okay=False),
-              help="folder for the demo takes, renders and pictures (created)")
-@click.option("--seconds", type=float, default=demo.DEMO_SECONDS, show_default=True,
-              help="length of each invented take, s")
-@presets_option
-@json_option
-@run_quietly
-def demo_command(out_dir, seconds, presets_dir, as_json):
-    """Invented two-host podcast: takes, sibilance, presets, renders and pictures."""
-    takes = demo.run_demo(out_dir, presets_dir=presets_dir, seconds=seconds)
-    emit(as_json, summary.demo_payload(takes), summary.demo_text(out_dir, takes))

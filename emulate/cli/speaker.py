@@ -146,7 +146,7 @@ def _from_sweep(folder, mix) -> dict:
         pick, plan = result["pick"], result["plan"]
     except (OSError, ValueError, KeyError) as exc:
         raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
-    plan_obj = sweep.SweepPlan(**(plan | {"notches_hz": tuple(plan["notches_hz"])}))
+    plan_obj = sweep.SweepPlan.from_dict(plan)
     design = plan_obj.design(pick["notch_target_hz"])
     network = design.built
     target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan["series"]}

@@ -1,0 +1,22 @@
+"""The built-in demonstration command: ``demo``."""
+
+from __future__ import annotations
+
+import click
+
+from emulate import demo, summary
+from emulate.cli.options import emit, json_option, main, presets_option, run_quietly
+
+
+@main.command("demo")
+@click.option("--out", "out_dir", default="demo-out", show_default=True, type=click.Path(file_okay=False),
+              help="folder for the demo takes, renders and pictures (created)")
+@click.option("--seconds", type=float, default=demo.DEMO_SECONDS, show_default=True,
+              help="length of each invented take, s")
+@presets_option
+@json_option
+@run_quietly
+def demo_command(out_dir, seconds, presets_dir, as_json):
+    """Invented two-host podcast: takes, sibilance, presets, renders and pictures."""
+    takes = demo.run_demo(out_dir, presets_dir=presets_dir, seconds=seconds)
+    emit(as_json, summary.demo_payload(takes), summary.demo_text(out_dir, takes))
