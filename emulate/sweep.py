@@ -44,6 +44,7 @@ TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call
 REEL_GAP_S = 0.6
 REEL_EXCERPT_S = 3.0
 MAX_STEPS = 64
+MAX_WORKERS = 256
 
 
 @dataclass(frozen=True)
@@ -58,6 +59,20 @@ class SweepPlan:
     mix: float = 1.0
     source_ohms: float = 0.0
     load_ohms: float = math.inf
+
+    def __post_init__(self):
+        labels = [setting_label(f, self) for f in self.notches_hz]
+        if not labels or len(set(labels)) != len(labels):
+            raise BadValueError(f"sweep settings {[round(f) for f in self.notches_hz]} Hz: give one or more "
+                                "notch frequencies, no two within 0.5 Hz (each names its renders)")
+
+    @classmethod
+    def from_dict(cls, table: dict) -> "SweepPlan":
+        """The plan :meth:`SweepResult.as_dict` wrote (``None`` load: no load)."""
+        table = dict(table) | {"notches_hz": tuple(table["notches_hz"])}
+        if table.get("load_ohms") is None:
+            table["load_ohms"] = math.inf
+        return cls(**table)
 
     def design(self, notch_hz: float):
         """The design (ideal and as built) for one setting."""
@@ -78,7 +93,7 @@ def notch_steps(from_hz: float, to_hz: float, steps: int) -> tuple[float, ...]:
     >>> [round(f) for f in notch_steps(4000, 8000, 3)]
     [4000, 5657, 8000]
     """
-    check_range("sweep steps", steps, 1, MAX_STEPS)
+    _check_count("sweep steps", steps, MAX_STEPS)
     check_range("sweep start (Hz)", from_hz, 20.0, 30e3)
     check_range("sweep end (Hz)", to_hz, 20.0, 30e3)
     if steps == 1:
@@ -106,8 +121,17 @@ class SweepResult:
     reels: dict[str, str] = field(default_factory=dict)
 
     def as_dict(self) -> dict:
-        return {"plan": asdict(self.plan), "rows": self.rows, "pick": self.pick, "reels": self.reels,
-                "jobs": [asdict(job) for job in self.jobs]}
+        """Plain JSON-ready data; non-finite numbers (no load, a silenced band) become None."""
+        return _finite({"plan": asdict(self.plan), "rows": self.rows, "pick": self.pick,
+                        "reels": self.reels, "jobs": [asdict(job) for job in self.jobs]})
+
+
+def _finite(value):
+    if isinstance(value, dict):
+        return {key: _finite(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite(item) for item in value]
+    return None if isinstance(value, float) and not math.isfinite(value) else value
 
 
 def setting_label(notch_hz: float, plan: SweepPlan) -> str:
@@ -121,25 +145,34 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
 
     ``progress(n)`` is called with the frames finished, across the whole job
     (takes x settings). ``workers`` defaults to the machine's cores; designs,
-    sibilance bands, renders and reels all run on the same pool.
+    sibilance bands and renders run on the same pool; the reels are put together
+    here from the excerpts the renders return.
     """
     takes = [Path(t) for t in takes]
     frames = _check_takes(takes)
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
     with _executor(workers, len(takes) * len(plan.notches_hz)) as pool:
-        networks = list(pool.map(plan.network, plan.notches_hz))
-        bands = dict(zip(takes, pool.map(_sibilance_band, takes)))
-        jobs = [(t, target, net, bands[t], out_dir / f"{t.stem}--{setting_label(target, plan)}.wav")
+        # designs and dry takes in one wave, so neither waits for the other
+        network_futures = [pool.submit(plan.network, target) for target in plan.notches_hz]
+        dry_futures = [pool.submit(_dry_take, t) for t in takes]
+        networks = [f.result() for f in network_futures]
+        dries = {t: f.result() for t, f in zip(takes, dry_futures)}
+        jobs = [(t, target, net, dries[t].band_hz, dries[t].excerpt,
+                 out_dir / f"{t.stem}--{setting_label(target, plan)}.wav")
                 for t in takes for target, net in zip(plan.notches_hz, networks)]
         futures = [pool.submit(_render_job, *job) for job in jobs]
-        results = []
+        results, excerpts = [], {}
         for future, job in zip(futures, jobs):
-            results.append(future.result())
+            result, excerpts[job[0], job[1]] = future.result()
+            results.append(result)
             if progress is not None:
                 progress(frames[job[0]])
-        mine = [[r for r in results if r.take == str(t)] for t in takes]
-        reels = dict(zip(map(str, takes), map(str, pool.map(write_reel, takes, mine, [out_dir] * len(takes)))))
+    # reels from the excerpts the jobs returned: no render is read again
+    reels = {str(t): str(write_reel(out_dir / f"reel--{t.stem}.wav", dries[t].excerpt_audio,
+                                    [excerpts[t, f] for f in sorted(plan.notches_hz)], dries[t].fs,
+                                    dries[t].subtype))
+             for t in takes}
     rows = summarise(results, plan)
     return SweepResult(plan, results, rows, pick_setting(rows), reels)
 
@@ -162,7 +195,16 @@ class _Inline:
         return future
 
 
+def _check_count(what: str, value, high: int) -> None:
+    """A whole number from 1 to ``high``, else BadValueError showing the value."""
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer)) or value % 1 != 0:
+        raise BadValueError(f"{what} {value!r}: allowed a whole number from 1 to {high}")
+    check_range(what, value, 1, high)
+
+
 def _executor(workers: int | None, jobs: int):
+    if workers is not None:
+        _check_count("workers", workers, MAX_WORKERS)
     workers = max(1, min(workers or os.cpu_count() or 1, jobs))
     return _Inline() if workers == 1 else ProcessPoolExecutor(max_workers=workers)
 
@@ -177,23 +219,37 @@ def _check_takes(takes) -> dict:
     return {take: audio.read_info(take).frames for take in takes}
 
 
-def _sibilance_band(take: Path) -> tuple[float, float]:
+@dataclass(frozen=True)
+class _DryTake:
+    """What the jobs and the reel of one take need from it, found once per take."""
+
+    band_hz: tuple[float, float]  # the sibilant band (the search band if none is usable)
+    excerpt: tuple[int, int]  # the reel's stretch, sample frames
+    excerpt_audio: np.ndarray
+    fs: int
+    subtype: str
+
+
+def _dry_take(take: Path) -> _DryTake:
     x, fs = audio.read_all(take)
     report = speech.find_sibilance(x, fs)
-    return report.band_hz if report.usable else report.search_band_hz
+    start, stop = speech.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
+    return _DryTake(report.band_hz if report.usable else report.search_band_hz, (start, stop),
+                    x[start:stop], fs, audio.read_info(take).subtype)
 
 
-def _render_job(take: Path, target_hz: float, network, band_hz, out_path: Path) -> JobResult:
-    """One take at one setting (runs in a worker process)."""
+def _render_job(take: Path, target_hz: float, network, band_hz, excerpt, out_path: Path):
+    """One take at one setting (runs in a worker process): its result and its reel excerpt."""
     processor = emulation.processor_for(network)
     audio.render_file(take, out_path, processor)
     (dry, fs), (wet, _) = audio.read_all(take), audio.read_all(out_path)
-    return JobResult(
+    result = JobResult(
         take=str(take), notch_target_hz=target_hz, notch_hz=measure(network.response).notch_hz,
         path=str(out_path),
         sibilance_reduction_db=speech.sibilance_reduction_db(dry, wet, fs, band_hz),
         loudness_change_db=speech.loudness_change_db(dry, wet, fs),
         intelligibility_cost=speech.intelligibility_cost_of_takes(dry, wet, fs))
+    return result, wet[excerpt[0]:excerpt[1]]
 
 
 MEASURES = ("sibilance_reduction_db", "loudness_change_db", "intelligibility_cost")
@@ -226,18 +282,46 @@ def pick_setting(rows: list[dict]) -> dict:
             "notch_target_hz": best["notch_target_hz"], "reason": why}
 
 
-def write_reel(take: Path, results: list[JobResult], out_dir: Path) -> Path:
-    """Dry excerpt, then the same excerpt at each setting in order, with silences between."""
-    dry, fs = audio.read_all(take)
-    start, stop = speech.most_sibilant_excerpt(dry, fs, seconds=min(REEL_EXCERPT_S, len(dry) / fs))
+def write_reel(reel_path, dry, wets, fs: int, subtype: str) -> Path:
+    """Write a listening reel: the dry excerpt, then each wet excerpt in turn, ``REEL_GAP_S`` apart.
+
+    Parameters
+    ----------
+    reel_path : path-like
+        The reel file (written atomically).
+    dry : numpy.ndarray
+        The dry excerpt, ``(frames, channels)``.
+    wets : list of numpy.ndarray
+        The same excerpt at each setting, in the order they are heard.
+    fs : int
+        Sample rate, Hz.
+    subtype : str
+        Sample format of the reel (the take's).
+
+    Returns
+    -------
+    pathlib.Path
+        ``reel_path``; its length is ``len(dry) * (1 + len(wets))`` plus one gap per wet excerpt.
+
+    Raises
+    ------
+    BadValueError, AudioFileError
+        As :func:`emulate.audio.write_array`.
+
+    Example
+    -------
+    >>> import tempfile, os
+    >>> p = write_reel(os.path.join(tempfile.mkdtemp(), "r.wav"), np.ones((10, 1)) / 2,
+    ...                [np.zeros((10, 1))], 48000, "PCM_24")
+    >>> audio.read_info(p).frames
+    28820
+    """
     gap = np.zeros((int(REEL_GAP_S * fs), dry.shape[1]))
-    pieces = [dry[start:stop]]
-    for result in sorted(results, key=lambda r: r.notch_target_hz):
-        wet, _ = audio.read_all(result.path)
-        pieces += [gap, wet[start:stop]]
-    reel = out_dir / f"reel--{take.stem}.wav"
-    audio.write_array(reel, np.concatenate(pieces), fs, subtype=audio.read_info(take).subtype)
-    return reel
+    pieces = [dry]
+    for wet in wets:
+        pieces += [gap, wet]
+    audio.write_array(reel_path, np.concatenate(pieces), fs, subtype=subtype)
+    return Path(reel_path)
 
 
 def rows_as_csv(rows: list[dict]) -> str:
@@ -259,5 +343,5 @@ def write_summary(result: SweepResult, out_dir) -> tuple[Path, Path]:
     out_dir = Path(out_dir)
     csv_path, json_path = out_dir / "summary.csv", out_dir / "summary.json"
     files.write_text(csv_path, rows_as_csv(result.rows))
-    files.write_text(json_path, json.dumps(result.as_dict(), indent=2, default=str))
+    files.write_text(json_path, json.dumps(result.as_dict(), indent=2, allow_nan=False, default=str))
     return csv_path, json_path
