@@ -1,0 +1,235 @@
+"""Tests of the sweep: notch steps, renders, reels, summary and pick (emulate.sweep).
+
+Takes are invented by :func:`emulate.synth.voice_like_take` and written into ``tmp_path``
+by :func:`emulate.audio.write_array`; 2-3 s each, so a sweep of 2 takes x 3 settings
+takes about a second.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import numpy as np
+import pytest
+
+from emulate import audio, speech, sweep, synth
+from emulate.errors import BadValueError
+
+FS = 48000
+PLANTED_HZ = 6000.0
+# Settings an octave apart around the planted sibilance (3k / 6k / 12k).
+SETTINGS_HZ = (3000.0, 6000.0, 12000.0)
+MEASURES = ("sibilance_reduction_db", "loudness_change_db", "intelligibility_cost", "relative_reduction_db")
+
+
+def write_take(path, seconds, *, sibilance_hz=PLANTED_HZ, seed=1, channels=2, pitch_hz=120.0,
+               subtype="PCM_24"):
+    """An invented voice-like take written as a file; returns its path."""
+    x = synth.voice_like_take(FS, seconds, pitch_hz=pitch_hz, sibilance_hz=sibilance_hz, seed=seed,
+                              channels=channels)
+    audio.write_array(path, x, FS, subtype=subtype)
+    return path
+
+
+@pytest.fixture(scope="module")
+def swept(tmp_path_factory):
+    """Two takes (2.0 s stereo 24-bit, 2.5 s mono 16-bit) swept over 3k / 6k / 12k."""
+    folder = tmp_path_factory.mktemp("sweep")
+    takes = [write_take(folder / "orrin.wav", 2.0, seed=1),
+             write_take(folder / "tamsin.wav", 2.5, seed=2, channels=1, pitch_hz=210.0, subtype="PCM_16")]
+    plan = sweep.SweepPlan(notches_hz=SETTINGS_HZ)
+    result = sweep.run_sweep(takes, plan, folder / "out", workers=1)
+    return takes, plan, result, folder / "out"
+
+
+class TestNotchSteps:
+    def test_geometric_with_both_ends(self):
+        # A geometric series: every ratio equal to (to/from)**(1/(steps-1)) (definition).
+        steps = sweep.notch_steps(3000, 12000, 5)
+        assert steps[0] == 3000 and steps[-1] == pytest.approx(12000, rel=1e-12)
+        np.testing.assert_allclose(np.diff(np.log(steps)), math.log(4) / 4, rtol=1e-12)
+
+    def test_matches_numpy_geomspace(self):
+        # numpy.geomspace is the general-purpose reference for equal ratios.
+        assert sweep.notch_steps(4000, 8000, 7) == pytest.approx(tuple(np.geomspace(4000, 8000, 7)))
+
+    def test_one_step_is_the_start(self):
+        assert sweep.notch_steps(5000, 9000, 1) == (5000.0,)
+
+    @pytest.mark.parametrize("from_hz, to_hz, steps, match", [
+        (3000, 12000, 0, r"sweep steps 0: allowed \[1, 64\]"),
+        (3000, 12000, 65, r"sweep steps 65"),
+        (3000, 12000, 2.5, r"sweep steps 2.5: allowed a whole number"),
+        (3000, 12000, True, r"sweep steps True"),
+        (3000, 12000, float("nan"), r"sweep steps nan"),
+        (10, 12000, 3, r"sweep start \(Hz\) 10: allowed \[20, 30000\]"),
+        (3000, 40000, 3, r"sweep end \(Hz\) 40000"),
+        (float("nan"), 12000, 3, r"sweep start \(Hz\) nan"),
+    ])
+    def test_bad_values(self, from_hz, to_hz, steps, match):
+        with pytest.raises(BadValueError, match=match):
+            sweep.notch_steps(from_hz, to_hz, steps)
+
+
+class TestSweepPlan:
+    @pytest.mark.parametrize("notches", [(), (4000.0, 4000.0), (4000.0, 4000.2)])
+    def test_settings_must_be_distinct(self, notches):
+        # each setting names its render files, so two at the same rounded frequency would clash
+        with pytest.raises(BadValueError, match="no two within 0.5 Hz"):
+            sweep.SweepPlan(notches_hz=notches)
+
+    def test_dict_round_trip_without_a_load(self):
+        plan = sweep.SweepPlan(notches_hz=(4000.0, 8000.0), q=1.0, mix=0.7)
+        table = sweep.SweepResult(plan, [], [], {}).as_dict()["plan"]
+        assert table["load_ohms"] is None  # JSON has no infinity
+        assert sweep.SweepPlan.from_dict(json.loads(json.dumps(table))) == plan
+
+
+class TestRunSweep:
+    def test_every_render_says_its_setting_and_keeps_the_take_format(self, swept):
+        takes, plan, result, out = swept
+        assert len(result.jobs) == len(takes) * len(SETTINGS_HZ)
+        for take in takes:
+            info = audio.read_info(take)
+            for target in SETTINGS_HZ:
+                path = out / f"{take.stem}--{sweep.setting_label(target, plan)}.wav"
+                assert f"notch{target:.0f}Hz" in path.name and "q0.25" in path.name and "mix1.00" in path.name
+                rendered = audio.read_info(path)
+                assert (rendered.frames, rendered.samplerate, rendered.channels, rendered.subtype) == \
+                    (info.frames, info.samplerate, info.channels, info.subtype)
+        assert sorted(job.path for job in result.jobs) == sorted(str(p) for p in out.glob("*--notch*.wav"))
+
+    def test_one_reel_per_take_of_the_documented_length(self, swept):
+        # Takes shorter than the excerpt (3 s) are heard whole: reel = take x (settings + 1) + gaps.
+        takes, _, result, _ = swept
+        assert set(result.reels) == {str(t) for t in takes}
+        for take in takes:
+            info = audio.read_info(take)
+            gap = int(sweep.REEL_GAP_S * FS)
+            reel = audio.read_info(result.reels[str(take)])
+            assert reel.frames == info.frames * (len(SETTINGS_HZ) + 1) + gap * len(SETTINGS_HZ)
+            assert (reel.channels, reel.subtype) == (info.channels, info.subtype)
+
+    def test_reel_is_dry_then_each_setting_in_order(self, tmp_path, monkeypatch):
+        monkeypatch.setattr(sweep, "REEL_EXCERPT_S", 1.0)  # shorter than the take: a real excerpt
+        take = write_take(tmp_path / "host.wav", 2.5, subtype="FLOAT")  # float: samples compare exactly
+        plan = sweep.SweepPlan(notches_hz=(8000.0, 4000.0))  # heard in rising order, not plan order
+        result = sweep.run_sweep([take], plan, tmp_path / "out", workers=1)
+        reel, _ = audio.read_all(result.reels[str(take)])
+        dry, _ = audio.read_all(take)
+        n, gap = FS, int(sweep.REEL_GAP_S * FS)
+        assert len(reel) == 3 * n + 2 * gap
+        start, stop = speech.most_sibilant_excerpt(dry, FS, seconds=1.0)
+        np.testing.assert_array_equal(reel[:n], dry[start:stop])
+        for i, target in enumerate(sorted(plan.notches_hz)):
+            wet, _ = audio.read_all(tmp_path / "out" / f"host--{sweep.setting_label(target, plan)}.wav")
+            piece = reel[n + i * (gap + n):n + (i + 1) * (gap + n)]
+            assert not piece[:gap].any()
+            np.testing.assert_array_equal(piece[gap:], wet[start:stop])
+
+    def test_summary_rows_hold_the_measures(self, swept, tmp_path):
+        _, plan, result, _ = swept
+        csv_path, json_path = sweep.write_summary(result, tmp_path)
+        rows = list(csv.DictReader(io.StringIO(csv_path.read_text())))
+        document = json.loads(json_path.read_text())  # strict JSON: no NaN/Infinity
+        for table in (rows, document["rows"]):
+            assert [float(r["notch_target_hz"]) for r in table] == list(SETTINGS_HZ)
+            for row in table:
+                assert all(math.isfinite(float(row[m])) for m in MEASURES)
+        for row in result.rows:
+            # relative reduction is defined as sibilance-band reduction plus loudness change (module doc)
+            assert row["relative_reduction_db"] == pytest.approx(
+                row["sibilance_reduction_db"] + row["loudness_change_db"])
+            assert 0 <= row["intelligibility_cost"] <= 1
+        assert document["pick"] == result.pick
+
+    def test_rows_are_means_over_takes(self, swept):
+        _, _, result, _ = swept
+        for row in result.rows:
+            mine = [j for j in result.jobs if j.notch_target_hz == row["notch_target_hz"]]
+            assert len(mine) == 2
+            assert row["sibilance_reduction_db"] == pytest.approx(np.mean([j.sibilance_reduction_db for j in mine]))
+
+    def test_pick_is_the_planted_frequency_with_a_reason(self, swept):
+        # Takes with strong sibilance planted at 6 kHz: of 3k/6k/12k the 6 kHz notch is the one
+        # that lowers the sibilant band most against the programme.
+        _, _, result, _ = swept
+        assert result.pick["notch_target_hz"] == PLANTED_HZ
+        assert "sibilance band falls" in result.pick["reason"]
+        best = max(result.rows, key=lambda r: r["relative_reduction_db"])
+        assert best["notch_target_hz"] == PLANTED_HZ
+
+    @pytest.mark.parametrize("planted_hz", [4800.0, 7200.0])
+    def test_pick_follows_the_planted_frequency(self, tmp_path, planted_hz):
+        # The demo hosts' /s/ (invented): settings a half-octave apart, one near each.
+        takes = [write_take(tmp_path / f"t{s}.wav", 2.0, sibilance_hz=planted_hz, seed=s, channels=1)
+                 for s in (3, 4)]
+        plan = sweep.SweepPlan(notches_hz=(3400.0, 4800.0, 6800.0, 9600.0))
+        result = sweep.run_sweep(takes, plan, tmp_path / "out", workers=1)
+        nearest = min(plan.notches_hz, key=lambda f: abs(math.log(f / planted_hz)))
+        assert result.pick["notch_target_hz"] == nearest
+
+    def test_one_and_two_workers_agree(self, swept, tmp_path):
+        takes, plan, result, _ = swept
+        again = sweep.run_sweep(takes, plan, tmp_path / "out", workers=2)
+        assert again.rows == result.rows and again.pick == result.pick
+
+    def test_progress_counts_every_frame(self, swept, tmp_path):
+        takes, _, _, _ = swept
+        seen = []
+        plan = sweep.SweepPlan(notches_hz=(5000.0,))
+        sweep.run_sweep(takes, plan, tmp_path, workers=1, progress=seen.append)
+        assert sum(seen) == sum(audio.read_info(t).frames for t in takes)
+
+    def test_same_file_name_in_two_folders_is_refused(self, tmp_path):
+        takes = []
+        for folder in ("a", "b"):
+            (tmp_path / folder).mkdir()
+            takes.append(write_take(tmp_path / folder / "take.wav", 1.0))
+        with pytest.raises(BadValueError, match=r"takes need distinct file names .*'take', 'take'"):
+            sweep.run_sweep(takes, sweep.SweepPlan(notches_hz=(5000.0,)), tmp_path / "out", workers=1)
+        assert not (tmp_path / "out").exists()  # refused before anything is written
+
+    @pytest.mark.parametrize("workers, match", [(0, r"workers 0: allowed \[1, 256\]"),
+                                                (1.5, "workers 1.5: allowed a whole number")])
+    def test_bad_workers(self, swept, tmp_path, workers, match):
+        takes, plan, _, _ = swept
+        with pytest.raises(BadValueError, match=match):
+            sweep.run_sweep(takes, plan, tmp_path, workers=workers)
+
+    def test_no_takes(self, tmp_path):
+        with pytest.raises(BadValueError, match="no takes given"):
+            sweep.run_sweep([], sweep.SweepPlan(notches_hz=(5000.0,)), tmp_path)
+
+    def test_take_without_sibilance_sweeps_over_the_search_band(self, tmp_path):
+        take = write_take(tmp_path / "vowels.wav", 2.0, sibilance_hz=None, channels=1)
+        dry, _ = audio.read_all(take)
+        assert not speech.find_sibilance(dry, FS).usable
+        result = sweep.run_sweep([take], sweep.SweepPlan(notches_hz=(4000.0, 8000.0)), tmp_path / "out",
+                                 workers=1)
+        for job in result.jobs:
+            wet, _ = audio.read_all(job.path)
+            # the measure falls back to the finder's search band (2-12 kHz, speech.DEFAULT_SEARCH_BAND_HZ)
+            assert job.sibilance_reduction_db == pytest.approx(
+                speech.sibilance_reduction_db(dry, wet, FS, speech.DEFAULT_SEARCH_BAND_HZ), abs=1e-12)
+        assert "reason" in result.pick and len(result.reels) == 1
+
+
+class TestWriteReel:
+    def test_length_and_gaps(self, tmp_path):
+        dry, wets = np.full((100, 2), 0.5), [np.full((100, 2), 0.25), np.full((100, 2), -0.25)]
+        path = sweep.write_reel(tmp_path / "r.wav", dry, wets, FS, "FLOAT")
+        reel, fs = audio.read_all(path)
+        gap = int(sweep.REEL_GAP_S * FS)
+        assert fs == FS and reel.shape == (300 + 2 * gap, 2)
+        np.testing.assert_array_equal(reel[100:100 + gap], 0.0)
+        np.testing.assert_array_equal(reel[-100:], -0.25)
+
+
+class TestRowsAsCsv:
+    def test_header_and_numbers(self):
+        text = sweep.rows_as_csv([{"setting": "a", "notch_hz": 1234.56789, "q": 0.25}])
+        assert text == "setting,notch_hz,q\na,1234.57,0.25\n"
