@@ -246,7 +246,7 @@ def demo_payload(takes) -> dict:
 
 
 def demo_text(out_dir, takes) -> str:
-    lines = ["Low Tide Notes (an invented podcast): two invented hosts, one synthetic take each,",
+    lines = ["Low Tide Notes (an invented podcast): two invented hosts, three synthetic takes each,",
              f"written to {out_dir}/", ""]
     for t in takes:
         bursts = ", ".join(f"{b:.1f}" for b in t.burst_times_s[:5])
