@@ -229,7 +229,8 @@ class TestR3ForNull:
 
 class TestSuggestTrim:
     @pytest.fixture(scope="class")
-    def run(self):
+    @classmethod
+    def run(cls):
         return tol.monte_carlo(NOMINAL, tol.Tolerances(0.01, 0.05), draws=3000, seed=8)
 
     def test_covers_the_share_and_deepens_the_notch(self, run):
