@@ -31,7 +31,9 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from emulate import audio, sweep, synth  # noqa: E402
+from emulate import audio, sweep, synth  # noqa: E402  (emulate first: it sets OPENBLAS_NUM_THREADS)
+
+import numpy as np  # noqa: E402
 
 RATE = 48000
 TARGET_SPEEDUP = 1.6
@@ -51,11 +53,14 @@ def make_takes(folder: Path, seconds: float) -> list[Path]:
 
 
 def _blas_threads(_):
-    return os.environ.get("OPENBLAS_NUM_THREADS")
+    """OPENBLAS_NUM_THREADS here, and this process's OS threads after a BLAS product."""
+    a = np.ones((400, 400))
+    a @ a  # starts OpenBLAS's thread pool if it has one
+    return os.environ.get("OPENBLAS_NUM_THREADS"), len(os.listdir("/proc/self/task"))
 
 
 def worker_blas_threads() -> list:
-    """OPENBLAS_NUM_THREADS as the sweep's pool workers see it."""
+    """(OPENBLAS_NUM_THREADS, OS threads) as the sweep's pool workers see them; (value, 1) = in effect."""
     with sweep._executor(2, 2) as pool:
         return sorted(set(pool.map(_blas_threads, range(4))), key=str)
 
@@ -117,7 +122,7 @@ def main(argv=None) -> int:
     print(f"  workers=1  {one:7.2f} s   runs {', '.join(f'{t:.2f}' for t in times[1])}")
     print(f"  workers=2  {two:7.2f} s   runs {', '.join(f'{t:.2f}' for t in times[2])}")
     print(f"  speed-up   {one / two:7.2f}   (target >= {TARGET_SPEEDUP}, {os.cpu_count()} cores)")
-    print(f"  rows identical: {result['rows_identical']}; OPENBLAS_NUM_THREADS in workers: "
+    print(f"  rows identical: {result['rows_identical']}; (OPENBLAS_NUM_THREADS, OS threads) in workers: "
           f"{result['worker_openblas_threads']}")
     if args.profile:
         print(profile_text(run))
