@@ -23,7 +23,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import optimize
 
 from emulate.errors import BadValueError
 from emulate.response import measure
@@ -339,4 +338,6 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
         raise BadValueError(
             f"depth {depth_db!r} dB is outside what this depth pot reaches; "
             f"allowed [{full + target:.2f}, {dry + target:.2f}] dB")
+    from scipy import optimize  # here, not at the top: rendering never solves a pot position
+
     return float(optimize.brentq(miss, 0.0, 1.0, xtol=_POSITION_XTOL))

@@ -19,7 +19,9 @@ The stage reads top to bottom like the math:
                |H_analog|^2 / |H_matched|^2; the correction is spectrally
                factorised into its minimum-phase roots.  Method ``"matched+fit<m>"``
                where m is the correction order (1 to 4).
-5. convert     zpk -> sos (scipy.signal.zpk2sos).
+5. convert     zpk -> sos, roots paired as scipy.signal.zpk2sos pairs them by
+               default ("nearest"): the pole nearest the unit circle with its
+               conjugate and its nearest zero, those sections last in the cascade.
 
 Why the correction sits on a matched core and not on the bilinear one: the
 bilinear map compresses frequency near the notch by g = 2x / sin(2x),
@@ -39,6 +41,12 @@ The correction takes over as soon as the bilinear image misses the tolerance.
 
 All designs are causal minimum-phase IIR sections at the base rate: no
 oversampling, no look-ahead, so ``latency_samples`` is 0.
+
+Only numpy is imported: the zpk -> sos pairing, the response evaluation of zpk
+and sos on a frequency grid and the bounded null search are small module-private
+routines here, so rendering does not load scipy.signal or scipy.optimize (about
+50 MB of resident memory).  The tests check them against scipy.signal.zpk2sos,
+freqs_zpk and sosfreqz.
 """
 
 from __future__ import annotations
@@ -47,7 +55,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, signal
 
 from emulate.errors import BadValueError, CircuitError
 from emulate.validate import check_range
@@ -317,6 +324,125 @@ def _correction_zpk(z, p, fs, band_hz, order):
     return num[0], den[0], num[1] / den[1]
 
 
+# --- stage 5 and the response evaluations (numpy only) ----------------------
+
+# Relative size of the imaginary part below which a root counts as real, and
+# within which two roots count as a conjugate pair (100 eps, as scipy.signal).
+_REAL_TOL = 100.0 * np.finfo(float).eps
+
+
+def _split_conjugates(roots):
+    """One root per conjugate pair (imag > 0, the pair averaged), then the real roots.
+
+    Complex roots sorted by real part then |imag|, real roots by value.  Raises
+    BadValueError if a complex root has no conjugate.
+    """
+    roots = np.asarray(roots, complex)
+    is_real = np.abs(roots.imag) <= _REAL_TOL * np.abs(roots)
+    real = np.sort(roots[is_real].real)
+    upper, lower = roots[~is_real & (roots.imag > 0)], list(roots[~is_real & (roots.imag < 0)])
+    pairs = []
+    for r in upper:
+        i = int(np.argmin(np.abs(np.conj(lower) - r))) if lower else -1
+        if i < 0 or abs(np.conj(lower[i]) - r) > _REAL_TOL * abs(r):
+            raise BadValueError(f"root {r} has no complex conjugate; allowed: real roots and conjugate pairs")
+        pairs.append((r + np.conj(lower.pop(i))) / 2.0)
+    if lower:
+        raise BadValueError(f"roots {lower} have no complex conjugate; allowed: real roots and conjugate pairs")
+    pairs = np.array(sorted(pairs, key=lambda r: (r.real, abs(r.imag))), complex)
+    return np.concatenate([pairs, real.astype(complex)])
+
+
+def _take(roots, i):
+    """(roots[i], roots without element i)."""
+    return roots[i], np.delete(roots, i)
+
+
+def _nearest(roots, to, real_only=False):
+    """Index of the root nearest ``to`` (among the real ones if ``real_only``)."""
+    distance = np.abs(roots - to)
+    if real_only:
+        distance = np.where(roots.imag == 0.0, distance, np.inf)
+    return int(np.argmin(distance))
+
+
+def _quadratic(r1, r2):
+    """[1, -(r1 + r2), r1 r2] for a real root pair or a conjugate pair."""
+    return [1.0, -(r1 + r2).real, (r1 * r2).real]
+
+
+def _zpk_to_sos(z, p, k):
+    """Digital zpk -> second-order sections, paired as scipy.signal.zpk2sos(pairing="nearest").
+
+    Pads zeros or poles at z = 0 to equal, even counts; then, from the last
+    section backwards, takes the remaining pole nearest the unit circle with
+    its conjugate (a real one with the next real pole nearest the circle) and
+    the zero nearest that pole with its conjugate (a real one with the next
+    nearest real zero).  The gain goes into the first section.  With equal,
+    even counts every section is second order.
+    """
+    z, p = np.asarray(z, complex), np.asarray(p, complex)
+    n = max(len(z), len(p))
+    n += n % 2
+    z = _split_conjugates(np.concatenate([z, np.zeros(n - len(z))]))
+    p = _split_conjugates(np.concatenate([p, np.zeros(n - len(p))]))
+    sos = np.zeros((max(n // 2, 1), 6))
+    sos[:, 0] = sos[:, 3] = 1.0
+    for row in range(n // 2 - 1, -1, -1):
+        p1, p = _take(p, int(np.argmin(np.abs(1.0 - np.abs(p)))))
+        if p1.imag == 0.0:
+            p2, p = _take(p, int(np.argmin(np.where(p.imag == 0.0, np.abs(1.0 - np.abs(p)), np.inf))))
+        else:
+            p2 = np.conj(p1)
+        z1, z = _take(z, _nearest(z, p1))
+        z2 = np.conj(z1) if z1.imag != 0.0 else None
+        if z2 is None:
+            z2, z = _take(z, _nearest(z, p1, real_only=True))
+        sos[row] = _quadratic(z1, z2) + _quadratic(p1, p2)
+    sos[0, :3] *= k
+    return sos
+
+
+def _zpk_response_s(z, p, k, w_rad_s):
+    """Analog H(j w) = k prod(j w - z) / prod(j w - p) at ``w_rad_s`` (as scipy.signal.freqs_zpk)."""
+    s = 1j * np.asarray(w_rad_s, float)[:, None]
+    return k * np.prod(s - np.asarray(z)[None, :], axis=1) / np.prod(s - np.asarray(p)[None, :], axis=1)
+
+
+def _sos_response_z(sos, f_hz, fs):
+    """Digital H(exp(j 2 pi f / fs)) of cascaded sections at ``f_hz`` (as scipy.signal.sosfreqz)."""
+    zm1 = np.exp(-2j * np.pi * np.asarray(f_hz, float) / fs)[:, None]
+    sos = np.asarray(sos, float)
+    num = sos[:, 0] + zm1 * (sos[:, 1] + zm1 * sos[:, 2])
+    den = sos[:, 3] + zm1 * (sos[:, 4] + zm1 * sos[:, 5])
+    return np.prod(num / den, axis=1)
+
+
+# Golden-section ratio (3 - sqrt 5) / 2: the interior point's share of a bracket.
+_GOLDEN = (3.0 - math.sqrt(5.0)) / 2.0
+
+
+def _golden_min(fun, a, b, xtol):
+    """Minimiser of a unimodal ``fun`` on [a, b] to within ``xtol`` (golden-section search).
+
+    Keeps a bracket [a, b] with two interior points and drops the side of the
+    worse one, shrinking the bracket by 0.618 per evaluation (Kiefer 1953;
+    Press et al., Numerical Recipes, 3rd ed., sec. 10.2).
+    """
+    x1, x2 = a + _GOLDEN * (b - a), b - _GOLDEN * (b - a)
+    f1, f2 = fun(x1), fun(x2)
+    while b - a > xtol:
+        if f1 <= f2:
+            b, x2, f2 = x2, x1, f1
+            x1 = a + _GOLDEN * (b - a)
+            f1 = fun(x1)
+        else:
+            a, x1, f1 = x1, x2, f2
+            x2 = b - _GOLDEN * (b - a)
+            f2 = fun(x2)
+    return x1 if f1 <= f2 else x2
+
+
 # --- stage 3: checks ---------------------------------------------------------
 
 
@@ -393,7 +519,7 @@ def fidelity_error_db(z, p, k, sos, fs, band_hz):
     -------
     >>> w0 = 2 * np.pi * 100.0
     >>> z, p, k = [1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0
-    >>> sos = signal.zpk2sos(*bilinear_prewarped_zpk(z, p, k, 48000, 100))
+    >>> sos = design_sections(z, p, k, 48000, notch_hz=100).sos
     >>> fidelity_error_db(z, p, k, sos, 48000, (20, 20000)) < 0.01
     True
     """
@@ -403,8 +529,8 @@ def fidelity_error_db(z, p, k, sos, fs, band_hz):
     if not 0.0 < lo < hi <= fs / 2.0:
         raise BadValueError(f"band {band_hz!r} Hz is not allowed; allowed: 0 < lo < hi <= {fs / 2.0:g} Hz")
     f = _check_grid_hz(p, z, (lo, hi))
-    _, h_a = signal.freqs_zpk(z, p, k, worN=2.0 * np.pi * f)
-    _, h_d = signal.sosfreqz(np.asarray(sos, float), worN=f, fs=fs)
+    h_a = _zpk_response_s(z, p, k, 2.0 * np.pi * f)
+    h_d = _sos_response_z(sos, f, fs)
     with np.errstate(divide="ignore"):
         db_a = 20.0 * np.log10(np.abs(h_a))
         db_d = 20.0 * np.log10(np.abs(h_d))
@@ -421,15 +547,12 @@ def _null_hz(magnitude, near_hz, hi_hz):
     i = int(np.argmin(magnitude(f)))
     step = f[1] - f[0]
     a, b = max(lo, f[i] - step), min(hi, f[i] + step)
-    res = optimize.minimize_scalar(
-        lambda x: float(magnitude(np.array([x]))[0]), bounds=(a, b), method="bounded", options={"xatol": near_hz * 1e-9}
-    )
-    return float(res.x)
+    return float(_golden_min(lambda x: float(magnitude(np.array([x]))[0]), a, b, near_hz * 1e-9))
 
 
 def _digital_null_hz(sos, fs, near_hz):
     """Frequency (Hz) of the digital null nearest ``near_hz``."""
-    return _null_hz(lambda f: np.abs(signal.sosfreqz(sos, worN=f, fs=fs)[1]), near_hz, 0.4999 * fs)
+    return _null_hz(lambda f: np.abs(_sos_response_z(sos, f, fs)), near_hz, 0.4999 * fs)
 
 
 def analog_null_hz(z, p, k, near_hz):
@@ -460,7 +583,7 @@ def analog_null_hz(z, p, k, near_hz):
     1000.0
     """
     z, p, k = _check_zpk(z, p, k)
-    return _null_hz(lambda f: np.abs(signal.freqs_zpk(z, p, k, worN=2.0 * np.pi * f)[1]), float(near_hz), np.inf)
+    return _null_hz(lambda f: np.abs(_zpk_response_s(z, p, k, 2.0 * np.pi * f)), float(near_hz), np.inf)
 
 
 # --- the design pipeline -----------------------------------------------------
@@ -528,7 +651,7 @@ def design_sections(z, p, k, fs, *, notch_hz, tolerance_db=0.1):
     for method, z_d, p_d, k_d in _candidates(z, p, k, fs, notch_hz, band):
         if np.any(np.abs(p_d) >= 1.0):
             continue  # only stable designs
-        sos = signal.zpk2sos(z_d, p_d, k_d)
+        sos = _zpk_to_sos(z_d, p_d, k_d)
         err = fidelity_error_db(z, p, k, sos, fs, band)
         if best is None or err < best[2]:
             best = (method, sos, err)

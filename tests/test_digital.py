@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from emulate import digital
 from emulate.digital import (
     DigitalNotch,
     analog_null_hz,
@@ -260,3 +261,109 @@ class TestCheckSampleRateHz:
         # One line showing the value and the allowed open interval.
         with pytest.raises(BadValueError, match=r"sample rate \(Hz\) .*: allowed \(0, inf\)"):
             check_sample_rate_hz(bad)
+
+
+# --- the numpy replacements for scipy.signal / scipy.optimize (scipy is the reference) ---
+
+# Relative agreement required with scipy: both evaluate the same products in the same
+# order, so they agree to a few ulp; 1e-12 leaves room for summation order only.
+SAME_RESPONSE_REL = 1e-12
+
+
+def digital_candidates():
+    """(name, z, p, k) of every digital design the pipeline proposes, across rates and variants."""
+    cases = []
+    for fs, f0, q in [(44100, 300.0, 0.25), (44100, 10000.0, 0.25), (48000, 6000.0, 2.5), (96000, 3000.0, 5.0),
+                      (32000, 11000.0, 0.25)]:
+        for variant in sorted(VARIANTS):
+            z, p, k = notch_zpk(f0, q, **VARIANTS[variant])
+            band = fidelity_band_hz(fs)
+            for method, z_d, p_d, k_d in digital._candidates(z, p, k, fs, f0, band):
+                cases.append((f"{fs}-{f0:g}-{q:g}-{variant}-{method}", z_d, p_d, k_d))
+    return cases
+
+
+CANDIDATES = digital_candidates()
+# scipy.signal.zpk2sos documentation example: 3 zeros and 3 poles, mixed real and complex.
+DOC_EXAMPLE = (np.array([-1, -0.5 - 0.5j, -0.5 + 0.5j]), np.array([0.75, 0.8 + 0.1j, 0.8 - 0.1j]), 1.0)
+
+
+def grid_hz(fs):
+    # a grid that avoids landing exactly on a null (relative error is undefined there)
+    return np.linspace(7.3, 0.4999 * fs, 3001)
+
+
+def relative_difference(h, h_ref):
+    return float(np.max(np.abs(h - h_ref) / np.abs(h_ref)))
+
+
+class TestZpkToSos:
+    @pytest.mark.parametrize("name, z, p, k", CANDIDATES, ids=[c[0] for c in CANDIDATES])
+    def test_same_sections_as_scipy(self, name, z, p, k):
+        # Reference: scipy.signal.zpk2sos (default pairing "nearest"); the same pairing rule
+        # gives the same sections in the same order, so the responses agree to rounding.
+        sos, ref = digital._zpk_to_sos(z, p, k), signal.zpk2sos(z, p, k)
+        np.testing.assert_allclose(sos, ref, rtol=SAME_RESPONSE_REL, atol=1e-15)
+        fs = 48000.0
+        _, h_ref = signal.sosfreqz(ref, worN=grid_hz(fs), fs=fs)
+        assert relative_difference(digital._sos_response_z(sos, grid_hz(fs), fs), h_ref) <= SAME_RESPONSE_REL
+
+    @pytest.mark.parametrize("z, p, k", [DOC_EXAMPLE, ([], [], 0.5), ([0.5], [0.1, -0.2], 2.0),
+                                         ([-1, -1], [0.9j, -0.9j], 1.0)])
+    def test_odd_counts_and_padding_as_scipy(self, z, p, k):
+        # Reference: scipy.signal.zpk2sos pads roots at z = 0 to equal, even counts.
+        np.testing.assert_allclose(digital._zpk_to_sos(z, p, k), signal.zpk2sos(z, p, k),
+                                   rtol=SAME_RESPONSE_REL, atol=1e-15)
+
+    def test_rejects_unpaired_complex_root(self):
+        with pytest.raises(BadValueError, match=r"root .* has no complex conjugate"):
+            digital._zpk_to_sos([0.5 + 0.5j, 0.5 - 0.4j], [0.1, 0.2], 1.0)
+
+
+class TestZpkResponseS:
+    @pytest.mark.parametrize("variant", sorted(VARIANTS))
+    @pytest.mark.parametrize("f0, q", [(50.0, 0.25), (6000.0, 5.0)])
+    def test_matches_scipy_freqs_zpk(self, variant, f0, q):
+        # Reference: scipy.signal.freqs_zpk.
+        z, p, k = notch_zpk(f0, q, **VARIANTS[variant])
+        w = 2 * np.pi * grid_hz(96000)
+        _, h_ref = signal.freqs_zpk(z, p, k, worN=w)
+        assert relative_difference(digital._zpk_response_s(z, p, k, w), h_ref) <= SAME_RESPONSE_REL
+
+    def test_pure_gain(self):
+        np.testing.assert_array_equal(digital._zpk_response_s([], [], 0.5, [1.0, 10.0]), [0.5, 0.5])
+
+
+class TestSosResponseZ:
+    @pytest.mark.parametrize("seed", range(4))
+    def test_matches_scipy_sosfreqz(self, seed):
+        # Reference: scipy.signal.sosfreqz, on random stable cascades of 1 to 4 sections.
+        rng = np.random.default_rng(seed)
+        n = 1 + seed
+        radius, angle = rng.uniform(0.1, 0.99, n), rng.uniform(0, np.pi, n)
+        sos = np.column_stack([rng.normal(size=(n, 3)), np.ones(n), -2 * radius * np.cos(angle), radius**2])
+        fs = 44100.0
+        _, h_ref = signal.sosfreqz(sos, worN=grid_hz(fs), fs=fs)
+        assert relative_difference(digital._sos_response_z(sos, grid_hz(fs), fs), h_ref) <= SAME_RESPONSE_REL
+
+
+class TestGoldenMin:
+    @pytest.mark.parametrize("fun, lo, hi, expected", [
+        (lambda x: (x - 2.0) ** 2, 0.0, 5.0, 2.0),          # smooth: minimum at 2 (arithmetic)
+        (lambda x: abs(x - 1.0 / 3.0), 0.0, 1.0, 1.0 / 3.0),  # V-shaped, like |H| at a null
+        (lambda x: x, 1.0, 2.0, 1.0),                        # monotonic: the lower bound
+    ])
+    def test_finds_minimum_within_xtol(self, fun, lo, hi, expected):
+        assert digital._golden_min(fun, lo, hi, 1e-10) == pytest.approx(expected, abs=1e-10)
+
+    @pytest.mark.parametrize("f0, q, variant", [(1000.0, 0.25, "shallow"), (8000.0, 2.0, "rhp-load")])
+    def test_null_agrees_with_scipy_bounded_minimiser(self, f0, q, variant):
+        # Reference: scipy.optimize.minimize_scalar(method="bounded") on the same bracket;
+        # both stop within 1e-9 of the notch (the tolerance analog_null_hz asks for).
+        from scipy import optimize
+
+        z, p, k = notch_zpk(f0, q, **VARIANTS[variant])
+        mag = lambda f: float(np.abs(signal.freqs_zpk(z, p, k, worN=[2 * np.pi * f])[1][0]))  # noqa: E731
+        ref = optimize.minimize_scalar(mag, bounds=(0.8 * f0, 1.25 * f0), method="bounded",
+                                       options={"xatol": 1e-10 * f0}).x
+        assert analog_null_hz(z, p, k, f0) == pytest.approx(ref, rel=5e-9)

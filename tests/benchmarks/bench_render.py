@@ -11,11 +11,17 @@ folder, or --work DIR), then measures in one run, as medians of --repeats runs:
   (scipy.signal.bilinear_zpk -> zpk2sos, run by scipy.signal.sosfilt) on the same path;
 
 and reports the real-time factor (audio seconds per wall second), the ratio
-render/copy, the fidelity the processor reports, and the peak resident memory of a
-child process rendering the take (and, with --hour, a 1-hour take), from
-resource.getrusage in the child. Targets: render <= 4x copy (goal 2x); 1-hour peak
-RSS <= 200 MB. Writes JSON (--json, default bench-out/render.json). --profile prints
-where the render time goes (cProfile, cumulative).
+render/copy and the fidelity the processor reports.
+
+Peak memory is measured on the user's path: a fresh child runs the command line,
+``python -m emulate render IN OUT --r1 10k --r2 10k --r3 5k --c1 2n2 --c2 2n2 --c3 4n4``
+(a balanced twin-T at about 7.2 kHz), on a 1-second take, the timed take and, with
+--hour, a 1-hour take; the figure is ru_maxrss from
+resource.getrusage(RUSAGE_CHILDREN) in a small meter process whose only child is
+the CLI, with the CLI's own VmHWM (read at exit) as a cross-check. Beside it: the
+resident memory after each import on the render path (where the fixed cost goes).
+Targets: render <= 4x copy (goal 2x); 1-hour peak RSS <= 200 MB. Writes JSON
+(--json, default bench-out/render.json). --profile prints where the render time goes.
 
 Run: python3 tests/benchmarks/bench_render.py [--hour] [--repeats 3] [--work DIR]
 """
@@ -87,9 +93,14 @@ def notch_processor():
 
 
 def make_take(path: Path, seconds: float) -> Path:
-    """Stereo 24-bit WAV: pink-ish noise plus a few tones at about -12 dBFS, in blocks."""
+    """Stereo 24-bit WAV: pink-ish noise plus a few tones at about -12 dBFS, in blocks.
+
+    An existing file of the right length (from an earlier run with --work) is reused.
+    """
     rng = np.random.default_rng(2024)
     frames = int(seconds * RATE)
+    if path.exists() and sf.info(str(path)).frames == frames:
+        return path
     shaper = scipy.signal.butter(1, 2000.0, fs=RATE, output="sos")
     zi = np.zeros((1, 2, 2))
     tones_hz = np.array([220.0, 1000.0, 6000.0, 9000.0])
@@ -114,47 +125,89 @@ def timed_interleaved(cases: dict, repeats: int) -> dict:
     return {name: (statistics.median(r), r) for name, r in runs.items()}
 
 
-CHILD = """
-import json, resource, sys
-sys.path.insert(0, {root!r})
-sys.path.insert(0, {bench!r})
-mode, out = {mode!r}, {{}}
-if mode == "copy":  # the bare I/O path: emulate.audio and its imports only
-    from emulate.audio import copy_file
-    report = copy_file({src!r}, {dst!r}, {block})
-    out["processor"] = None
-elif mode == "render":
-    from bench_render import notch_processor, BilinearSos
-    from emulate.audio import render_file
-    proc = notch_processor() or BilinearSos()
-    report = render_file({src!r}, {dst!r}, proc, block_frames={block})
-    out["processor"] = type(proc).__name__
-else:  # imports only
-    import emulate.processor, scipy.signal
-    report = None
-out["maxrss_mb"] = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-with open("/proc/self/status") as status:  # cross-check: peak RSS of this process's memory
-    out["vmhwm_mb"] = next(int(l.split()[1]) for l in status if l.startswith("VmHWM")) / 1024
-if report is not None:
-    out.update(frames=report.frames, elapsed_s=report.elapsed_s)
-print(json.dumps(out))
+CLI_PARTS = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "2n2", "--c2", "2n2",
+             "--c3", "4n4"]
+
+# The CLI exactly as ``python -m emulate`` runs it, plus an exit hook that writes the
+# process's VmHWM (peak resident set) to the file named by the first argument.
+CLI_CHILD = """
+import atexit, runpy, sys
+hwm_path = sys.argv.pop(1)
+def _hwm():
+    with open("/proc/self/status") as status, open(hwm_path, "w") as out:
+        out.write(next(l.split()[1] for l in status if l.startswith("VmHWM")))
+atexit.register(_hwm)
+sys.argv[0] = "emulate"
+runpy.run_module("emulate", run_name="__main__", alter_sys=True)
 """
 
+# The meter: its only child is the CLI, so RUSAGE_CHILDREN is that child's peak.
+METER = """
+import json, resource, subprocess, sys, time
+cmd, hwm_path = json.loads(sys.argv[1]), sys.argv[2]
+t = time.perf_counter()
+run = subprocess.run(cmd, capture_output=True, text=True)
+elapsed = time.perf_counter() - t
+if run.returncode:
+    sys.exit("CLI failed: " + run.stderr.strip())
+ru = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+with open(hwm_path) as f:
+    hwm = int(f.read()) / 1024
+print(json.dumps({"maxrss_mb": ru, "vmhwm_mb": hwm, "elapsed_s": elapsed}))
+"""
 
-def child_peak_rss(src: Path, dst: Path, block_frames: int, mode: str = "render") -> dict:
-    """Peak RSS (MB, ru_maxrss of a fresh child): ``mode`` "render", "copy" or "imports".
+# Resident memory after each import on the render path, in a fresh child.
+STEPS_CHILD = """
+import importlib, json, sys
+sys.path.insert(0, {root!r})
+def rss_mb():
+    with open("/proc/self/status") as status:
+        return next(int(l.split()[1]) for l in status if l.startswith("VmRSS")) / 1024
+steps = {{"python": rss_mb()}}
+for name in {modules!r}:
+    importlib.import_module(name)
+    steps[name] = rss_mb()
+import numpy as np
+from emulate import kernels
+kernels.sos_filter(np.zeros((1, 6)), np.zeros((4, 2)), np.zeros((1, 2, 2)), np.empty((4, 2)))
+steps["kernels run once"] = rss_mb()
+steps["scipy modules loaded"] = sorted({{m.split(".")[1] for m in sys.modules
+                                        if m.startswith("scipy.") and not m.split(".")[1].startswith("_")}})
+print(json.dumps(steps))
+"""
+RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "scipy.linalg", "numba", "emulate.kernels",
+                       "emulate.circuit", "emulate.cli.options", "emulate.digital",
+                       "emulate.processor", "emulate.cli.sound"]
+
+
+def _fresh_child(argv: list[str]) -> str:
+    """stdout of ``argv`` run as a fresh child (see :func:`cli_peak_rss` for why the shell)."""
+    out = subprocess.run(["/bin/sh", "-c", '"$@"; exit $?', "sh", *argv],
+                         check=True, capture_output=True, text=True)
+    return out.stdout.strip().splitlines()[-1]
+
+
+def cli_peak_rss(src: Path, dst: Path) -> dict:
+    """Peak RSS (MB) of ``emulate render SRC DST`` with the bench parts, in a fresh child.
 
     Linux keeps the larger of a process's own peak and the peak of the memory it had
     before exec, so a child exec'd straight from this (large) process would report this
-    process's RSS. The child is therefore started by a small shell that forks it (the
-    trailing ``exit`` stops the shell from exec'ing it in place); VmHWM from
-    /proc/self/status is recorded beside ru_maxrss as a cross-check.
+    process's RSS. The meter is therefore started by a small shell that forks it (the
+    trailing ``exit`` stops the shell from exec'ing it in place), and the meter (a bare
+    interpreter) starts the CLI; ru_maxrss of RUSAGE_CHILDREN in the meter is the CLI's
+    peak, and the CLI's own VmHWM is recorded beside it as a cross-check.
     """
-    code = CHILD.format(root=str(ROOT), bench=str(Path(__file__).parent), src=str(src),
-                        dst=str(dst), block=block_frames, mode=mode)
-    out = subprocess.run(["/bin/sh", "-c", '"$@"; exit $?', "sh", sys.executable, "-c", code],
-                         check=True, capture_output=True, text=True)
-    return json.loads(out.stdout.strip().splitlines()[-1])
+    hwm = dst.with_suffix(".hwm")
+    cmd = [sys.executable, "-c", CLI_CHILD, str(hwm), "render", str(src), str(dst), *CLI_PARTS]
+    result = json.loads(_fresh_child([sys.executable, "-c", METER, json.dumps(cmd), str(hwm)]))
+    hwm.unlink()
+    return result
+
+
+def import_steps_rss() -> dict:
+    """Resident MB after each import of the render path (a fresh child, nothing rendered)."""
+    code = STEPS_CHILD.format(root=str(ROOT), modules=RENDER_PATH_MODULES)
+    return json.loads(_fresh_child([sys.executable, "-c", code]))
 
 
 def profile_render(src: Path, dst: Path, block_frames: int) -> dict:
@@ -214,19 +267,19 @@ def run(args) -> dict:
     else:
         results["notch_processor"] = "emulate.processor.NotchProcessor not available"
 
-    # a 1-second take shows the fixed cost (interpreter, numpy/scipy/numba, kernels);
+    # a 1-second take shows the fixed cost (interpreter, imports, kernels, design);
     # longer takes must not add to it if memory is bounded
     short = make_take(work / "take1s.wav", 1.0)
     results["memory"] = {
-        "imports_only": child_peak_rss(short, work / "out1s.wav", bf, "imports"),
-        f"copy_{args.minutes:g}min": child_peak_rss(src, out, bf, "copy"),
-        "render_1s": child_peak_rss(short, work / "out1s.wav", bf),
-        f"render_{args.minutes:g}min": child_peak_rss(src, out, bf)}
+        "cli_render_1s": cli_peak_rss(short, work / "out1s.wav"),
+        f"cli_render_{args.minutes:g}min": cli_peak_rss(src, out)}
     if args.hour:
         hour = make_take(work / "take60.wav", 3600)
-        results["memory"]["render_60min"] = child_peak_rss(hour, work / "out60.wav", bf)
-        hour.unlink()
+        results["memory"]["cli_render_60min"] = cli_peak_rss(hour, work / "out60.wav")
         (work / "out60.wav").unlink()
+        if not args.work:
+            hour.unlink()
+    results["import_steps_rss_mb"] = import_steps_rss()
     if args.profile:
         results["profile"] = profile_render(src, out, bf)
     if not args.work:
@@ -251,10 +304,13 @@ def report(results: dict) -> None:
                  "sections)" if "fidelity_db" in r else "")
         print(f"{name:17s} {r['median_s']:7.2f} s   RTF {r['rtf']:7.0f}x   "
               f"render/copy {r['ratio_to_copy']:.2f}{extra}")
-    m = results["memory"]
-    print("peak RSS of a fresh child: " + "; ".join(
-        f"{k} {v['maxrss_mb']:.0f} MB" for k, v in m.items())
-        + f" (render with {m['render_1s']['processor']})")
+    print("peak RSS of `emulate render` in a fresh child (ru_maxrss / VmHWM): " + "; ".join(
+        f"{k} {v['maxrss_mb']:.0f} / {v['vmhwm_mb']:.0f} MB ({v['elapsed_s']:.1f} s)"
+        for k, v in results["memory"].items()))
+    steps = dict(results["import_steps_rss_mb"])
+    scipy_loaded = steps.pop("scipy modules loaded")
+    print("resident MB after each import: " + ", ".join(f"{k} {v:.0f}" for k, v in steps.items()))
+    print("scipy subpackages loaded: " + ", ".join(scipy_loaded))
     if "profile" in results:
         prof = results["profile"]
         print(f"profile of one render ({prof['total_s']:.2f} s), own time by file: " + ", ".join(
