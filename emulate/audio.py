@@ -36,7 +36,6 @@ from __future__ import annotations
 
 import math
 import os
-import secrets
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -47,6 +46,8 @@ import numpy as np
 import soundfile as sf
 
 from emulate.errors import AudioFileError, BadValueError, EmulateError
+from emulate.files import atomic_path
+from emulate.validate import check_count
 
 __all__ = [
     "AudioInfo",
@@ -155,16 +156,6 @@ class RenderReport:
 
 
 # --- validators (one per concept) ------------------------------------------------------
-def _check_int(what: str, value, lo: int, hi: int | None = None) -> int:
-    """``value`` as int if it is an integer (not bool) in ``lo..hi``, else BadValueError."""
-    ok = isinstance(value, (int, np.integer)) and not isinstance(value, bool) \
-        and value >= lo and (hi is None or value <= hi)
-    if not ok:
-        allowed = f"from {lo} to {hi}" if hi is not None else f">= {lo}"
-        raise BadValueError(f"{what} must be an integer {allowed}; got {value!r}")
-    return int(value)
-
-
 def _check_processor(processor) -> None:
     for name in ("prepare", "process"):
         if not callable(getattr(processor, name, None)):
@@ -352,7 +343,7 @@ def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.n
     >>> [b.shape for b in iter_blocks(p, block_frames=400)]
     [(400, 1), (400, 1), (200, 1)]
     """
-    block_frames = _check_int("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
+    block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
     with _open_read(path) as snd:
         yield from _read_blocks(snd, path, block_frames, reuse=False)
 
@@ -486,11 +477,9 @@ def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
     """A SoundFile on a hidden temporary file beside OUT, moved onto OUT on success.
 
     On any exception (KeyboardInterrupt included) the temporary file is removed and the
-    exception goes on; OUT is untouched.
+    exception goes on; OUT is untouched (:func:`emulate.files.atomic_path`).
     """
-    dst = Path(out_path)
-    tmp = dst.with_name(f".{dst.name}.{secrets.token_hex(6)}.part")
-    try:
+    with atomic_path(out_path) as tmp:
         try:
             snd = sf.SoundFile(tmp, "w", samplerate, channels, subtype, format=fmt)
         except (sf.SoundFileError, OSError) as exc:
@@ -498,18 +487,14 @@ def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
                                  f"{channels} channel(s) ({exc})") from None
         with snd:
             yield snd
-        os.replace(tmp, dst)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
 
 
 def _stream(in_path, out_path, processor, subtype, block_frames, progress, dither,
             dither_seed) -> RenderReport:
     start = time.perf_counter()
     # 1. check: everything about IN and OUT before any processing
-    block_frames = _check_int("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
-    dither_seed = _check_int("dither_seed", dither_seed, 0)
+    block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
+    dither_seed = check_count("dither_seed", dither_seed, 0)
     if processor is not None:
         _check_processor(processor)
     if progress is not None and not callable(progress):
@@ -522,8 +507,8 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
         latency = 0
         if processor is not None:
             processor.prepare(rate, channels)
-            latency = _check_int("processor latency_samples",
-                                 getattr(processor, "latency_samples", 0), 0)
+            latency = check_count("processor latency_samples",
+                                  getattr(processor, "latency_samples", 0), 0)
         encoder = _Encoder(out_subtype, channels, block_frames, dither, dither_seed)
         frames = 0
         with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst:
@@ -758,8 +743,8 @@ def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
     if x.ndim != 2 or not x.size or not np.all(np.isfinite(x)):
         raise BadValueError(f"{out_path}: samples of shape {x.shape} are not allowed; "
                             "allowed: a finite, non-empty (frames, channels) array")
-    samplerate = _check_int("samplerate (Hz)", samplerate, 1)
-    dither_seed = _check_int("dither_seed", dither_seed, 0)
+    samplerate = check_count("samplerate (Hz)", samplerate, 1)
+    dither_seed = check_count("dither_seed", dither_seed, 0)
     _check_out_folder(out_path)
     fmt = output_format(out_path)
     subtype = _check_subtype(out_path, fmt, subtype, kept=False)

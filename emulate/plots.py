@@ -12,8 +12,6 @@ numbers come from :mod:`emulate.response`, :mod:`emulate.tolerance`,
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -22,6 +20,7 @@ from matplotlib.figure import Figure
 from scipy import signal
 
 from emulate.errors import BadValueError
+from emulate.files import atomic_path
 from emulate.parts import format_value
 from emulate.response import db, measure
 
@@ -74,16 +73,8 @@ def _save(figure: Figure, path) -> Path:
     path = Path(path)
     if not path.parent.is_dir():
         raise BadValueError(f"{path}: folder {path.parent} does not exist")
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".png", dir=path.parent)
-    os.close(handle)
-    os.chmod(temporary, 0o644)  # mkstemp makes it private; a picture is for reading
-    try:
-        with matplotlib.rc_context(_STYLE):
-            figure.savefig(temporary, format="png", dpi=DPI, facecolor="white")
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    with atomic_path(path, mode=0o644) as temporary, matplotlib.rc_context(_STYLE):  # for reading by all
+        figure.savefig(temporary, format="png", dpi=DPI, facecolor="white")
     return path
 
 

@@ -39,7 +39,6 @@ import datetime as dt
 import numbers
 import os
 import re
-import tempfile
 import tomllib
 import warnings
 from dataclasses import dataclass, field
@@ -47,7 +46,7 @@ from pathlib import Path
 
 import tomli_w
 
-from emulate import parts
+from emulate import files, parts
 from emulate.design import NOTCH_RANGE_HZ, Q_RANGE
 from emulate.errors import BadValueError, EmulateWarning, PresetError
 from emulate.validate import check_range
@@ -590,7 +589,9 @@ class PresetStore:
                               "save with force (--force) to replace it")
         try:
             self.root.mkdir(parents=True, exist_ok=True)
-            _write_atomic(path, preset_to_toml(preset))
+            # a replaced preset keeps its permissions; a new one is readable by all
+            mode = path.stat().st_mode & 0o777 if path.exists() else 0o644
+            files.write_text(path, preset_to_toml(preset), mode=mode)
         except OSError as exc:
             raise PresetError(f"{_shown(path)}: cannot be written: {exc}") from exc
         return path
@@ -604,18 +605,3 @@ class PresetStore:
             path.unlink()
         except OSError as exc:
             raise PresetError(f"{_shown(path)}: cannot be deleted: {exc}") from exc
-
-
-def _write_atomic(path: Path, text: str) -> None:
-    """Write ``text`` beside ``path``, then rename it over: readers see old or new, never half."""
-    handle, temp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=".tmp")
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="\n") as out:
-            out.write(text)
-            out.flush()
-            os.fsync(out.fileno())
-        os.chmod(temp, path.stat().st_mode & 0o777 if path.exists() else 0o644)
-        os.replace(temp, path)
-    except BaseException:
-        Path(temp).unlink(missing_ok=True)
-        raise

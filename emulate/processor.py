@@ -24,7 +24,7 @@ from emulate import kernels
 from emulate.depth import check_mix
 from emulate.digital import check_sample_rate_hz, design_sections
 from emulate.errors import BadValueError, EmulateError
-from emulate.validate import check_range
+from emulate.validate import check_count, check_range
 
 __all__ = ["NotchProcessor"]
 
@@ -33,13 +33,6 @@ def _check_smoothing_ms(smoothing_ms):
     """Return ``smoothing_ms`` as float if finite and >= 0 ms, else raise BadValueError."""
     check_range("smoothing (ms)", smoothing_ms, 0.0, math.inf, high_open=True)
     return float(smoothing_ms)
-
-
-def _check_channels(channels):
-    """Return ``channels`` as int if it is an integer >= 1, else raise BadValueError."""
-    if isinstance(channels, bool) or not isinstance(channels, (int, np.integer)) or channels < 1:
-        raise BadValueError(f"channels {channels!r} is not allowed; allowed: an integer >= 1")
-    return int(channels)
 
 
 class _Stage:
@@ -129,7 +122,7 @@ class NotchProcessor:
         0
         """
         self._fs = check_sample_rate_hz(sample_rate)
-        self._channels = _check_channels(channels)
+        self._channels = check_count("channels", channels, 1)
         self._stage = _Stage(self._design(*self._circuit), self._channels)
         self.reset()
 

@@ -24,14 +24,12 @@ from __future__ import annotations
 import base64
 import html
 import math
-import os
-import shutil
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 from emulate import parts, plots
 from emulate.errors import BadValueError
+from emulate.files import atomic_path
 from emulate.networks import PART_NAMES, TwinT, part_kind
 from emulate.response import measure
 
@@ -268,22 +266,6 @@ def _check_out_dir(out_dir: Path, force: bool) -> None:
         raise BadValueError(f"{out_dir}: folder exists and is not empty; choose another folder or force the overwrite (--force)")
 
 
-def _publish(temporary: Path, out_dir: Path) -> None:
-    """Swap the finished folder into place; the old one is removed only after the swap."""
-    old = None
-    if out_dir.exists():
-        old = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.old-", dir=out_dir.parent))
-        os.replace(out_dir, old / "sheet")
-    try:
-        os.replace(temporary, out_dir)
-    except BaseException:
-        if old is not None:
-            os.replace(old / "sheet", out_dir)
-        raise
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
-
-
 def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
                 title: str = DEFAULT_TITLE, fs: float = 48000.0, force: bool = False) -> Path:
     """Write the build sheet folder: sheet.md, sheet.html and the pictures.
@@ -331,16 +313,12 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     _check_out_dir(out_dir, force)
     blocks = compose(network, tolerances=tolerances, design=design, tolerance_result=tolerance_result,
                      trim=trim, title=title)
-    temporary = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", dir=out_dir.parent))
-    try:
+    # the whole folder is written beside out_dir, then swapped in (an old one removed after)
+    with atomic_path(out_dir, mode=0o755) as temporary:  # a sheet is for sharing
+        temporary.mkdir()
         plots.plot_response(network, temporary / PICTURES["response"], fs=fs)
         if tolerance_result is not None:
             plots.plot_tolerance(tolerance_result, temporary / PICTURES["tolerance"])
         (temporary / "sheet.md").write_text(render_markdown(blocks), encoding="utf-8")
         (temporary / "sheet.html").write_text(render_html(blocks, temporary), encoding="utf-8")
-        os.chmod(temporary, 0o755)  # mkdtemp makes it private; a sheet is for sharing
-        _publish(temporary, out_dir)
-    except BaseException:
-        shutil.rmtree(temporary, ignore_errors=True)
-        raise
     return out_dir

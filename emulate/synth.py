@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.errors import BadValueError
+from emulate.validate import check_count
 
 __all__ = [
     "TakeSchedule",
@@ -35,6 +36,8 @@ __all__ = [
 #: Lowest and highest sample rates the generators accept, in Hz.
 MIN_FS_HZ = 8000.0
 MAX_FS_HZ = 384000.0
+#: Most channels the generators write.
+MAX_CHANNELS = 8
 
 #: Formant centre frequencies and bandwidths in Hz for five vowel-like
 #: colours. Values are round numbers in the range of adult vowels (common
@@ -99,13 +102,6 @@ def _check_range(value: float, name: str, *, low: float = 0.0, high: float = np.
     if not (np.isfinite(value) and low < value <= high):
         raise BadValueError(f"{name} = {value!r} is out of range; allowed > {low:g} and <= {high:g}")
     return value
-
-
-def _check_channels(channels: int) -> int:
-    """Validate a channel count; allowed 1 to 8."""
-    if int(channels) != channels or not 1 <= channels <= 8:
-        raise BadValueError(f"channels = {channels!r} is not allowed; use a whole number from 1 to 8")
-    return int(channels)
 
 
 def _check_band(band_hz: tuple[float, float], fs: float, name: str) -> tuple[float, float]:
@@ -322,7 +318,7 @@ def voice_like_take(
     fs = _check_fs(fs)
     n = round(_check_range(seconds, "seconds", high=3600.0) * fs)
     pitch_hz = _check_range(pitch_hz, "pitch_hz", low=40.0, high=500.0)
-    channels = _check_channels(channels)
+    channels = check_count("channels", channels, 1, MAX_CHANNELS)
     level_dbfs = _check_range(level_dbfs, "level_dbfs", low=-120.0, high=0.0)
     rng = np.random.default_rng([seed, 2])
     schedule = take_schedule(seconds, seed=seed)
@@ -404,4 +400,4 @@ def bursts_over_tone(
     gate = _gate(n, fs, [(s, s + burst_s) for s in starts])
     bursts = _band_noise(rng, n, fs, band, bell=False) * gate
     mix = tone + bursts * np.sqrt(np.mean(tone**2)) * 10.0 ** (burst_db / 20.0)
-    return _finish(mix, fs, _check_channels(channels), level_dbfs, rng)
+    return _finish(mix, fs, check_count("channels", channels, 1, MAX_CHANNELS), level_dbfs, rng)

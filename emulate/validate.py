@@ -1,6 +1,9 @@
-"""The one range validator: every bounded number goes through :func:`check_range`."""
+"""The validators shared across modules: bounded numbers (:func:`check_range`) and counts (:func:`check_count`)."""
 
 from __future__ import annotations
+
+import math
+import numbers
 
 import numpy as np
 
@@ -27,3 +30,43 @@ def check_range(what: str, value, low: float, high: float, *,
     if np.any(np.isnan(array)) or np.any(below) or np.any(above):
         left, right = "(" if low_open else "[", ")" if high_open else "]"
         raise BadValueError(f"{what} {value!r}: allowed {left}{low:g}, {high:g}{right}")
+
+
+def check_count(what: str, value, low: int = 1, high: float = math.inf) -> int:
+    """Return ``value`` as int if it is a whole number with ``low <= value <= high``.
+
+    A whole number is an int, a numpy integer or an integral float (2.0); bools,
+    strings and fractions are refused. The message shows the value and the
+    allowed range, e.g. ``channels 0: allowed a whole number from 1 to 8``.
+
+    Parameters
+    ----------
+    what : str
+        Name shown in the message (with its unit, if any).
+    value : object
+        The count to check.
+    low : int, optional
+        Smallest allowed value (default 1), included.
+    high : int or float, optional
+        Largest allowed value, included (default ``inf``: no upper bound).
+
+    Returns
+    -------
+    int
+
+    Raises
+    ------
+    BadValueError
+        If ``value`` is not a whole number in ``[low, high]``.
+
+    Example
+    -------
+    >>> check_count("channels", 2.0, 1, 8)
+    2
+    """
+    whole = (isinstance(value, (numbers.Integral, float)) and not isinstance(value, bool)
+             and math.isfinite(value) and value % 1 == 0)
+    if not whole or not low <= value <= high:
+        allowed = f"from {low} to {high}" if math.isfinite(high) else f">= {low}"
+        raise BadValueError(f"{what} {value!r}: allowed a whole number {allowed}")
+    return int(value)

@@ -23,7 +23,7 @@ def png_size(path):
 def assert_picture(path):
     assert png_size(path) == plots.FIG_SIZE_PX
     assert path.stat().st_size > 20_000  # a chart with curves and text, not an empty canvas
-    assert not list(path.parent.glob(".*.png"))  # no temporary file left
+    assert not list(path.parent.glob(".*"))  # no temporary file left
 
 
 def sweep_rows():

@@ -86,7 +86,7 @@ class TestVoiceLikeTake:
             ({"sibilance_hz": 7000, "fs": 16000}, "sibilant band"),
             ({"level_dbfs": 0.0}, "would clip"),
             ({"pitch_hz": 20}, "pitch_hz = 20"),
-            ({"channels": 0}, "channels = 0"),
+            ({"channels": 0}, "channels 0: allowed a whole number from 1 to 8"),
         ],
     )
     def test_rejects_bad_values(self, kwargs, match):
