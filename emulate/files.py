@@ -14,8 +14,8 @@ import contextlib
 import os
 import secrets
 import shutil
+from collections.abc import Iterator
 from pathlib import Path
-from typing import Iterator
 
 __all__ = ["atomic_path", "write_text"]
 
@@ -95,11 +95,10 @@ def write_text(target, text: str, *, mode: int | None = None) -> None:
     >>> write_text(path, "a\\n"); path.read_text()
     'a\\n'
     """
-    with atomic_path(target, mode=mode) as temp:
-        with open(temp, "w", encoding="utf-8", newline="\n") as out:
-            out.write(text)
-            out.flush()
-            os.fsync(out.fileno())
+    with atomic_path(target, mode=mode) as temp, open(temp, "w", encoding="utf-8", newline="\n") as out:
+        out.write(text)
+        out.flush()
+        os.fsync(out.fileno())
 
 
 def _beside(target: Path, suffix: str) -> Path:

@@ -363,7 +363,10 @@ class TestGoldenMin:
         from scipy import optimize
 
         z, p, k = notch_zpk(f0, q, **VARIANTS[variant])
-        mag = lambda f: float(np.abs(signal.freqs_zpk(z, p, k, worN=[2 * np.pi * f])[1][0]))  # noqa: E731
+
+        def mag(f):
+            return float(np.abs(signal.freqs_zpk(z, p, k, worN=[2 * np.pi * f])[1][0]))
+
         ref = optimize.minimize_scalar(mag, bounds=(0.8 * f0, 1.25 * f0), method="bounded",
                                        options={"xatol": 1e-10 * f0}).x
         assert analog_null_hz(z, p, k, f0) == pytest.approx(ref, rel=5e-9)

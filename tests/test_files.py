@@ -47,10 +47,9 @@ class TestAtomicPath:
     def test_exception_removes_temporary_and_keeps_target(self, tmp_path, error):
         target = tmp_path / "a.txt"
         target.write_text("old")
-        with pytest.raises(error):
-            with atomic_path(target) as temp:
-                temp.write_text("half")
-                raise error()
+        with pytest.raises(error), atomic_path(target) as temp:
+            temp.write_text("half")
+            raise error()
         assert target.read_text() == "old" and names(tmp_path) == ["a.txt"]
 
     def test_failed_rename_removes_temporary(self, tmp_path, monkeypatch):
@@ -60,9 +59,8 @@ class TestAtomicPath:
         def refuse(*_args):
             raise OSError("disk full")
         monkeypatch.setattr(files.os, "replace", refuse)
-        with pytest.raises(OSError, match="disk full"):
-            with atomic_path(target) as temp:
-                temp.write_text("new")
+        with pytest.raises(OSError, match="disk full"), atomic_path(target) as temp:
+            temp.write_text("new")
         assert target.read_text() == "old" and names(tmp_path) == ["a.txt"]
 
     def test_new_folder(self, tmp_path):
@@ -82,11 +80,10 @@ class TestAtomicPath:
 
     def test_failed_folder_write_keeps_old_folder(self, tmp_path, old_folder):
         target = old_folder
-        with pytest.raises(Boom):
-            with atomic_path(target) as temp:
-                temp.mkdir()
-                (temp / "new.md").write_text("new")
-                raise Boom()
+        with pytest.raises(Boom), atomic_path(target) as temp:
+            temp.mkdir()
+            (temp / "new.md").write_text("new")
+            raise Boom()
         assert names(target) == ["old.md"] and names(tmp_path) == ["sheet"]
 
     def test_failed_folder_swap_puts_old_folder_back(self, tmp_path, old_folder, monkeypatch):
@@ -98,17 +95,15 @@ class TestAtomicPath:
                 raise OSError("disk full")
             real_replace(src, dst)
         monkeypatch.setattr(files.os, "replace", refuse_new)
-        with pytest.raises(OSError, match="disk full"):
-            with atomic_path(target) as temp:
-                temp.mkdir()
+        with pytest.raises(OSError, match="disk full"), atomic_path(target) as temp:
+            temp.mkdir()
         assert names(target) == ["old.md"] and names(tmp_path) == ["sheet"]
 
     def test_file_never_replaces_a_folder(self, tmp_path, old_folder):
         # os.replace refuses a file onto a folder (POSIX rename(2): EISDIR); so does atomic_path
         target = old_folder
-        with pytest.raises(IsADirectoryError):
-            with atomic_path(target) as temp:
-                temp.write_text("file")
+        with pytest.raises(IsADirectoryError), atomic_path(target) as temp:
+            temp.write_text("file")
         assert names(target) == ["old.md"] and names(tmp_path) == ["sheet"]
 
     @pytest.mark.parametrize("mode", [0o600, 0o644, 0o755])
@@ -122,7 +117,7 @@ class TestWriteText:
     def test_writes_utf8_with_newlines_kept(self, tmp_path):
         target = tmp_path / "n.toml"
         write_text(target, "name = \"Ré\"\nmix = 0.5\n")
-        assert target.read_bytes() == "name = \"Ré\"\nmix = 0.5\n".encode("utf-8")
+        assert target.read_bytes() == "name = \"Ré\"\nmix = 0.5\n".encode()
         assert names(tmp_path) == ["n.toml"]
 
     def test_missing_folder_leaves_nothing(self, tmp_path):
