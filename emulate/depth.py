@@ -338,8 +338,7 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
         raise BadValueError(
             f"depth {depth_db!r} dB is outside what this depth pot reaches; "
             f"allowed [{full + target:.2f}, {dry + target:.2f}] dB")
-    from scipy import (
-        optimize,  # here, not at the top: rendering never solves a pot position
-    )
+    # imported here, not at the top: rendering never solves a pot position
+    from scipy import optimize
 
     return float(optimize.brentq(miss, 0.0, 1.0, xtol=_POSITION_XTOL))
