@@ -129,11 +129,18 @@ def json_option(command):
 
 
 def emit(as_json: bool, payload: dict, text: str) -> None:
-    click.echo(json.dumps(payload, indent=2, allow_nan=False, default=_json_default) if as_json else text)
+    """Print ``text``, or ``payload`` as strict JSON (non-finite numbers become null)."""
+    click.echo(json.dumps(_finite_json(payload), indent=2, allow_nan=False, default=str) if as_json else text)
 
 
-def _json_default(value):
-    return None if isinstance(value, float) and not math.isfinite(value) else str(value)
+def _finite_json(value):
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {key: _finite_json(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite_json(item) for item in value]
+    return value
 
 
 def run_quietly(function):
