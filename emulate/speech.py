@@ -30,6 +30,7 @@ import numpy as np
 import pyloudnorm
 
 from emulate.errors import BadValueError
+from emulate.validate import check_range
 
 __all__ = [
     "ANSI_S35_BANDS_HZ",
@@ -199,12 +200,8 @@ class SibilanceReport:
 
 def _check_fs(fs: float) -> float:
     """Validate an analysis sample rate in Hz; allowed 16000 to 384000 inclusive."""
-    fs = float(fs)
-    if not MIN_FS_HZ <= fs <= MAX_FS_HZ:
-        raise BadValueError(
-            f"sample rate {fs!r} Hz is not supported; allowed {MIN_FS_HZ:g} to {MAX_FS_HZ:g} Hz"
-        )
-    return fs
+    check_range("sample rate (Hz)", fs, MIN_FS_HZ, MAX_FS_HZ)
+    return float(fs)
 
 
 def _as_take(x, name: str = "take") -> np.ndarray:

@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.errors import BadValueError
+from emulate.validate import check_range
 from emulate.validate import check_count
 
 __all__ = [
@@ -88,12 +89,8 @@ class TakeSchedule:
 
 def _check_fs(fs: float) -> float:
     """Validate a sample rate in Hz; the allowed range is [8000, 384000]."""
-    fs = float(fs)
-    if not MIN_FS_HZ <= fs <= MAX_FS_HZ:
-        raise BadValueError(
-            f"sample rate {fs!r} Hz is out of range; allowed {MIN_FS_HZ:g} to {MAX_FS_HZ:g} Hz"
-        )
-    return fs
+    check_range("sample rate (Hz)", fs, MIN_FS_HZ, MAX_FS_HZ)
+    return float(fs)
 
 
 def _check_range(value: float, name: str, *, low: float = 0.0, high: float = np.inf) -> float:

@@ -82,7 +82,7 @@ class TestVoiceLikeTake:
     @pytest.mark.parametrize(
         "kwargs, match",
         [
-            ({"fs": 4000}, "sample rate 4000"),
+            ({"fs": 4000}, r"sample rate \(Hz\) 4000: allowed \[8000, 384000\]"),
             ({"sibilance_hz": 7000, "fs": 16000}, "sibilant band"),
             ({"level_dbfs": 0.0}, "would clip"),
             ({"pitch_hz": 20}, "pitch_hz = 20"),
