@@ -39,6 +39,9 @@ __all__ = [
     "SibilanceReport",
     "band_gains_db",
     "band_level_db",
+    "compare_levels",
+    "take_levels",
+    "TakeLevels",
     "combine_reports",
     "find_sibilance",
     "intelligibility_cost",
@@ -675,9 +678,13 @@ def sibilance_reduction_db(dry, wet, fs: float, band_hz) -> float:
     6.02
     """
     dry_db, wet_db = _pair_levels_db(dry, wet, fs, [band_hz])
-    if not np.isfinite(dry_db[0]):
+    return _reduction_db(dry_db[0], wet_db[0], band_hz)
+
+
+def _reduction_db(dry_db: float, wet_db: float, band_hz) -> float:
+    if not np.isfinite(dry_db):
         raise BadValueError(f"dry take has no energy in band_hz = {tuple(band_hz)!r} Hz; nothing to reduce")
-    return float(dry_db[0] - wet_db[0])
+    return float(dry_db - wet_db)
 
 
 def _pair_levels_db(dry, wet, fs, bands_hz):
@@ -722,6 +729,11 @@ def band_gains_db(dry, wet, fs: float) -> np.ndarray:
     True
     """
     dry_db, wet_db = _pair_levels_db(dry, wet, fs, _ansi_band_edges_hz())
+    return _band_gains(dry_db, wet_db)
+
+
+def _band_gains(dry_db: np.ndarray, wet_db: np.ndarray) -> np.ndarray:
+    """Gains in dB; 0 where the dry take has nothing in a band (nothing there to lose)."""
     with np.errstate(invalid="ignore"):
         gains = wet_db - dry_db
     return np.where(np.isfinite(dry_db), gains, 0.0)
@@ -878,7 +890,45 @@ def loudness_change_db(dry, wet, fs: float) -> float:
     >>> round(loudness_change_db(x, 0.5 * x, 48000), 2)
     -6.02
     """
-    dry_lufs = loudness_lufs(dry, fs)
+    return _loudness_change(loudness_lufs(dry, fs), loudness_lufs(wet, fs))
+
+
+def _loudness_change(dry_lufs: float, wet_lufs: float) -> float:
     if not np.isfinite(dry_lufs):
         raise BadValueError("dry take is below the -70 LUFS gate; its loudness change is undefined")
-    return loudness_lufs(wet, fs) - dry_lufs
+    return wet_lufs - dry_lufs
+
+
+# --------------------------------------------------------------------------- dry/wet comparison
+
+
+@dataclass(frozen=True)
+class TakeLevels:
+    """What comparing a dry take with a wet one needs of each, measured once.
+
+    ``band_db`` is the level in ``band_hz`` (dBFS), ``ansi_bands_db`` the levels in
+    the ANSI S3.5 one-third-octave bands, ``lufs`` the BS.1770 loudness. A sweep
+    measures the dry take once and each render once, instead of both per setting.
+    """
+
+    band_hz: tuple[float, float]
+    band_db: float
+    ansi_bands_db: np.ndarray
+    lufs: float
+
+
+def take_levels(x, fs: float, band_hz) -> TakeLevels:
+    """Measure a take for :func:`compare_levels` (one FFT for every band, one loudness)."""
+    levels = _band_levels_db(x, fs, [band_hz, *_ansi_band_edges_hz()])
+    return TakeLevels(tuple(band_hz), float(levels[0]), levels[1:], loudness_lufs(x, fs))
+
+
+def compare_levels(dry: TakeLevels, wet: TakeLevels) -> dict[str, float]:
+    """Sibilance-band reduction, loudness change and intelligibility cost, dry to wet.
+
+    The same figures as :func:`sibilance_reduction_db`, :func:`loudness_change_db`
+    and :func:`intelligibility_cost_of_takes` give for the two takes.
+    """
+    return {"sibilance_reduction_db": _reduction_db(dry.band_db, wet.band_db, dry.band_hz),
+            "loudness_change_db": _loudness_change(dry.lufs, wet.lufs),
+            "intelligibility_cost": intelligibility_cost(_band_gains(dry.ansi_bands_db, wet.ansi_bands_db))}

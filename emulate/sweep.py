@@ -158,7 +158,7 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
         dry_futures = [pool.submit(_dry_take, t) for t in takes]
         networks = [f.result() for f in network_futures]
         dries = {t: f.result() for t, f in zip(takes, dry_futures)}
-        jobs = [(t, target, net, dries[t].band_hz, dries[t].excerpt,
+        jobs = [(t, target, net, dries[t].levels, dries[t].excerpt,
                  out_dir / f"{t.stem}--{setting_label(target, plan)}.wav")
                 for t in takes for target, net in zip(plan.notches_hz, networks)]
         futures = [pool.submit(_render_job, *job) for job in jobs]
@@ -223,7 +223,7 @@ def _check_takes(takes) -> dict:
 class _DryTake:
     """What the jobs and the reel of one take need from it, found once per take."""
 
-    band_hz: tuple[float, float]  # the sibilant band (the search band if none is usable)
+    levels: speech.TakeLevels  # in the sibilant band (the search band if none is usable)
     excerpt: tuple[int, int]  # the reel's stretch, sample frames
     excerpt_audio: np.ndarray
     fs: int
@@ -234,21 +234,19 @@ def _dry_take(take: Path) -> _DryTake:
     x, fs = audio.read_all(take)
     report = speech.find_sibilance(x, fs)
     start, stop = speech.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
-    return _DryTake(report.band_hz if report.usable else report.search_band_hz, (start, stop),
-                    x[start:stop], fs, audio.read_info(take).subtype)
+    band_hz = report.band_hz if report.usable else report.search_band_hz
+    return _DryTake(speech.take_levels(x, fs, band_hz), (start, stop), x[start:stop], fs,
+                    audio.read_info(take).subtype)
 
 
-def _render_job(take: Path, target_hz: float, network, band_hz, excerpt, out_path: Path):
+def _render_job(take: Path, target_hz: float, network, dry_levels, excerpt, out_path: Path):
     """One take at one setting (runs in a worker process): its result and its reel excerpt."""
     processor = emulation.processor_for(network)
     audio.render_file(take, out_path, processor)
-    (dry, fs), (wet, _) = audio.read_all(take), audio.read_all(out_path)
-    result = JobResult(
-        take=str(take), notch_target_hz=target_hz, notch_hz=measure(network.response).notch_hz,
-        path=str(out_path),
-        sibilance_reduction_db=speech.sibilance_reduction_db(dry, wet, fs, band_hz),
-        loudness_change_db=speech.loudness_change_db(dry, wet, fs),
-        intelligibility_cost=speech.intelligibility_cost_of_takes(dry, wet, fs))
+    wet, fs = audio.read_all(out_path)
+    measures = speech.compare_levels(dry_levels, speech.take_levels(wet, fs, dry_levels.band_hz))
+    result = JobResult(take=str(take), notch_target_hz=target_hz,
+                       notch_hz=measure(network.response).notch_hz, path=str(out_path), **measures)
     return result, wet[excerpt[0]:excerpt[1]]
 
 

@@ -29,6 +29,7 @@ from emulate.speech import (
     most_sibilant_excerpt,
     sibilance_reduction_db,
 )
+from emulate import speech
 from emulate.synth import bursts_over_tone, take_schedule, voice_like_take
 
 RATES_HZ = [16000, 44100, 48000, 96000]
@@ -387,3 +388,18 @@ class TestLoudnessChangeDb:
     def test_silent_dry_is_refused(self):
         with pytest.raises(BadValueError, match="-70 LUFS gate"):
             loudness_change_db(np.zeros(48000), _noise(48000), 48000)
+
+
+class TestCompareLevels:
+    def test_same_figures_as_the_three_functions(self):
+        # the measure-once path must agree with the pairwise functions it replaces in a sweep
+        rng = np.random.default_rng(4)
+        dry = rng.standard_normal((48000, 2)) * 0.1
+        wet = dry * np.linspace(1.0, 0.3, 48000)[:, None]
+        band = (4000.0, 8000.0)
+        measured = speech.compare_levels(speech.take_levels(dry, 48000, band), speech.take_levels(wet, 48000, band))
+        assert measured["sibilance_reduction_db"] == pytest.approx(
+            speech.sibilance_reduction_db(dry, wet, 48000, band), abs=1e-12)
+        assert measured["loudness_change_db"] == pytest.approx(speech.loudness_change_db(dry, wet, 48000), abs=1e-12)
+        assert measured["intelligibility_cost"] == pytest.approx(
+            speech.intelligibility_cost_of_takes(dry, wet, 48000), abs=1e-12)
