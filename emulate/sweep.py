@@ -38,7 +38,7 @@ from emulate import audio, emulation, files, speech
 from emulate.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.response import measure
-from emulate.validate import check_range
+from emulate.validate import check_count, check_range
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 REEL_GAP_S = 0.6
@@ -93,7 +93,7 @@ def notch_steps(from_hz: float, to_hz: float, steps: int) -> tuple[float, ...]:
     >>> [round(f) for f in notch_steps(4000, 8000, 3)]
     [4000, 5657, 8000]
     """
-    _check_count("sweep steps", steps, MAX_STEPS)
+    check_count("sweep steps", steps, 1, MAX_STEPS)
     check_range("sweep start (Hz)", from_hz, 20.0, 30e3)
     check_range("sweep end (Hz)", to_hz, 20.0, 30e3)
     if steps == 1:
@@ -195,16 +195,9 @@ class _Inline:
         return future
 
 
-def _check_count(what: str, value, high: int) -> None:
-    """A whole number from 1 to ``high``, else BadValueError showing the value."""
-    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer)) or value % 1 != 0:
-        raise BadValueError(f"{what} {value!r}: allowed a whole number from 1 to {high}")
-    check_range(what, value, 1, high)
-
-
 def _executor(workers: int | None, jobs: int):
     if workers is not None:
-        _check_count("workers", workers, MAX_WORKERS)
+        check_count("workers", workers, 1, MAX_WORKERS)
     workers = max(1, min(workers or os.cpu_count() or 1, jobs))
     return _Inline() if workers == 1 else ProcessPoolExecutor(max_workers=workers)
 
