@@ -9,7 +9,6 @@ carrying the state gives the same output as one call on the whole signal.
 
 from __future__ import annotations
 
-import numpy as np
 from numba import njit
 
 __all__ = ["sos_filter", "ramp_blend", "delay_line", "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET"]

@@ -228,6 +228,7 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -
     ----------
     dry, wet : ndarray, (frames, channels) float
         The take before and after; channels are averaged (Welch, 8192-point Hann).
+        ``wet`` may be None: the take alone (e.g. where its sibilance sits).
     fs : float
         Sample rate, Hz (> 0).
     path : str or Path
@@ -251,12 +252,12 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -
     if not (isinstance(fs, (int, float)) and math.isfinite(fs) and fs > 0):
         raise BadValueError(f"sample rate {fs!r} Hz: allowed a finite rate > 0")
     f, before = _average_spectrum_db(dry, fs)
-    _, after = _average_spectrum_db(wet, fs)
     figure, (ax,) = _figure(1)
     if band_hz is not None:
         ax.axvspan(*band_hz, color=_BAND, alpha=0.35, label=f"band {band_hz[0]:.0f}-{band_hz[1]:.0f} Hz")
-    ax.plot(f, before, color=_INK, linewidth=1.4, label="before (dry)")
-    ax.plot(f, after, color=_DIGITAL, linewidth=1.6, label="after (wet)")
+    ax.plot(f, before, color=_INK, linewidth=1.4, label="the take" if wet is None else "before (dry)")
+    if wet is not None:
+        ax.plot(f, _average_spectrum_db(wet, fs)[1], color=_DIGITAL, linewidth=1.6, label="after (wet)")
     if notch_hz is not None:
         ax.axvline(notch_hz, color=_MARK, linewidth=1.2, linestyle=":", label=f"notch {notch_hz:.0f} Hz")
     ax.set_ylabel("level (dB re full scale, per band)")

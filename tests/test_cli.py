@@ -129,3 +129,18 @@ class TestRender:
         args = ["--r1", "1k", "--r2", "1k", "--r3", "500", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
         assert_one_line_error(run("render", take, tmp_path / "o.wav", *args), "Nyquist")
         assert sorted(p.name for p in tmp_path.iterdir()) == ["take.wav"]
+
+
+class TestPlots:
+    """--plot writes a PNG wherever a picture helps (PNG signature per ISO/IEC 15948)."""
+
+    def test_response_plot(self, tmp_path):
+        result = run("response", *BALANCED, "--plot", tmp_path / "r.png")
+        assert result.exit_code == 0, result.output
+        assert (tmp_path / "r.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+    def test_render_plot(self, tmp_path):
+        take = TestRender().write_take(tmp_path / "take.wav")
+        result = run("render", take, tmp_path / "o.wav", *BALANCED, "--plot", tmp_path / "s.png")
+        assert result.exit_code == 0, result.output
+        assert (tmp_path / "s.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

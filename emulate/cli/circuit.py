@@ -12,8 +12,9 @@ from emulate.response import check_twin_t, measure
 @main.command()
 @circuit_options
 @click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (PNG)")
 @json_option
-def response(rate, as_json, **options):
+def response(rate, plot_path, as_json, **options):
     """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
     network = network_from_options(options)
     metrics = measure(network.response)
@@ -24,6 +25,10 @@ def response(rate, as_json, **options):
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)
+    if plot_path:
+        from emulate import plots
+
+        text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0)}"
     emit(as_json, payload, text)
 
 

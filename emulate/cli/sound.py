@@ -21,9 +21,11 @@ from emulate.cli.options import circuit_options, emit, json_option, main, networ
 @click.option("--distribution", type=click.Choice(["uniform", "normal"]), default="uniform",
               show_default=True, help="with --build: how parts spread within tolerance")
 @click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (PNG)")
 @json_option
 @run_quietly
-def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, as_json, **options):
+def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path, as_json,
+           **options):
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
     network = network_from_options(options)
     if build is not None:
@@ -42,4 +44,10 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     text = summary.render_text(report, processor)
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
+    if plot_path:
+        from emulate import plots
+        from emulate.response import measure
+
+        (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
+        text += f"\n  wrote {plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz)}"
     emit(as_json, payload, text)

@@ -23,8 +23,9 @@ takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=T
 @takes_argument
 @click.option("--band", nargs=2, type=float, metavar="LO HI",
               help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (PNG)")
 @json_option
-def sibilance(takes, band, as_json):
+def sibilance(takes, band, plot_path, as_json):
     """Find where one speaker's sibilance sits, over one or more takes."""
     options = {} if not band else {"search_band_hz": tuple(band)}
     reports = []
@@ -33,7 +34,15 @@ def sibilance(takes, band, as_json):
         reports.append(find_sibilance(x, fs, **options))
     combined = combine_reports(reports) if len(reports) > 1 else reports[0]
     payload = summary.sibilance_payload(takes, reports, combined)
-    emit(as_json, payload, summary.sibilance_text(takes, reports, combined))
+    text = summary.sibilance_text(takes, reports, combined)
+    if plot_path:
+        from emulate import plots
+
+        x, fs = audio.read_all(takes[0])
+        notch = combined.suggested_notch_hz if combined.usable else None
+        band = combined.band_hz if combined.usable else None
+        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band)}"
+    emit(as_json, payload, text)
 
 
 def _sweep_notches(from_hz, to_hz, steps, at):
@@ -62,10 +71,11 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--source", help="source resistance, ohms; default 0")
 @click.option("--load", help="load resistance, ohms; default none")
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
 @json_option
 @run_quietly
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
-                  source, load, workers, as_json):
+                  source, load, workers, plot_path, as_json):
     """Render every take at every notch setting; reels, a summary table and a pick."""
     surroundings = spec.network_surroundings({"source": source, "load": load})
     plan = sweep.SweepPlan(
@@ -78,7 +88,13 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
     with progress(total, "sweeping") as bar:
         result = sweep.run_sweep(takes, plan, out_dir, workers=workers, progress=bar.update)
     csv_path, json_path = sweep.write_summary(result, out_dir)
-    emit(as_json, result.as_dict(), summary.sweep_text(result, csv_path, json_path))
+    text = summary.sweep_text(result, csv_path, json_path)
+    if plot_path:
+        from emulate import plots
+
+        rows = [row | {"pick": row["setting"] == result.pick["setting"]} for row in result.rows]
+        text += f"\nwrote {plots.plot_sweep(rows, plot_path)}"
+    emit(as_json, result.as_dict(), text)
 
 
 @main.group()
