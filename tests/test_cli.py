@@ -144,3 +144,19 @@ class TestPlots:
         result = run("render", take, tmp_path / "o.wav", *BALANCED, "--plot", tmp_path / "s.png")
         assert result.exit_code == 0, result.output
         assert (tmp_path / "s.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+class TestDepthOption:
+    @pytest.mark.parametrize("extra", [[], ["--depth-pot", "10k"]])
+    def test_depth_sets_the_control(self, extra):
+        # an exact null mixed with dry: depth = 20 log10(1 - mix), so -12 dB needs mix 0.749 (common practice)
+        payload = json.loads(run("response", *BALANCED, "--depth", "-12", *extra, "--json").output)
+        assert payload["depth_db"] == pytest.approx(-12.0, abs=0.01)
+        assert payload["mix"] == pytest.approx(1 - 10 ** (-12 / 20), abs=1e-3)
+
+    def test_depth_beyond_reach(self):
+        args = ["--r1", "10k", "--r2", "10k", "--r3", "10k", "--c1", "10n", "--c2", "10n", "--c3", "10n"]
+        assert_one_line_error(run("response", *args, "--depth", "-20"), "deeper than this network")
+
+    def test_mix_and_depth_together(self):
+        assert_one_line_error(run("response", *BALANCED, "--depth", "-6", "--mix", "0.5"), "not both")

@@ -93,6 +93,8 @@ def circuit_options(command):
                      help="K, 0 <= K < 1: bootstrapped active network, Q = 1/(4(1-K)) when balanced"),
         click.option("--depth-pot", help="model a real depth potentiometer of this track, ohms"),
         click.option("--mix", type=float, help="wet/dry depth control, 0 (dry) to 1 (full notch)"),
+        click.option("--depth", "depth_db", type=float,
+                     help="set the depth control by the level at the notch instead, dB (e.g. -12)"),
         click.option("--circuit", "circuit_file", type=click.Path(dir_okay=False),
                      help="TOML circuit file with a [circuit] or [target] table"),
         click.option("--preset", help="start from this saved preset (see 'emulate preset list')"),
@@ -121,7 +123,20 @@ def network_from_options(options: dict):
     if not document:
         raise click.UsageError("give the circuit: --r1 .. --c3 (plus --source, --load, --bootstrap), "
                                "--circuit FILE or --preset NAME")
-    return spec.network_from_document(document, where=where, mix=options.get("mix"))
+    network = spec.network_from_document(document, where=where, mix=options.get("mix"))
+    return _at_depth(network, options) if options.get("depth_db") is not None else network
+
+
+def _at_depth(network, options):
+    """The depth control set so that the notch lies at ``--depth`` dB (ideal mix or pot)."""
+    from emulate import depth
+
+    if options.get("mix") is not None:
+        raise click.UsageError("give either --mix or --depth, not both")
+    full = network.replace(mix=1.0)
+    if network.depth_pot_ohms is not None:
+        return full.replace(mix=depth.pot_position_for_depth(full, options["depth_db"]))
+    return full.replace(mix=depth.mix_for_depth(full, options["depth_db"]))
 
 
 def json_option(command):
