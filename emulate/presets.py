@@ -46,8 +46,7 @@ from pathlib import Path
 
 import tomli_w
 
-from emulate import files, parts
-from emulate.design import NOTCH_RANGE_HZ, Q_RANGE
+from emulate import files, parts, spec
 from emulate.errors import BadValueError, EmulateWarning, PresetError
 from emulate.validate import check_range
 
@@ -57,18 +56,8 @@ __all__ = ["CIRCUIT_KEYS", "SCHEMA_VERSION", "TARGET_KEYS", "Preset", "PresetSto
 SCHEMA_VERSION = 1
 ENV_VAR = "EMULATE_PRESETS_DIR"
 
-# circuit key -> (kind for parts.parse_value, keyword of networks.TwinT)
-_CIRCUIT = {"r1": ("resistance", "r1"), "r2": ("resistance", "r2"), "r3": ("resistance", "r3"),
-            "c1": ("capacitance", "c1"), "c2": ("capacitance", "c2"),
-            "c3": ("capacitance", "c3"), "source": ("resistance", "source_ohms"),
-            "load": ("resistance", "load_ohms"), "bootstrap": (None, "bootstrap"),
-            "depth_pot": ("resistance", "depth_pot_ohms")}
-_CIRCUIT_REQUIRED = ("r1", "r2", "r3", "c1", "c2", "c3")
-# target key -> keyword of design.design_twin_t
-_TARGET = {"notch": "notch_hz", "q": "q", "series": "series",
-           "impedance": "impedance_ohms", "capacitor": "capacitor_farads"}
-CIRCUIT_KEYS = tuple(_CIRCUIT)
-TARGET_KEYS = tuple(_TARGET)
+CIRCUIT_KEYS = spec.CIRCUIT_KEYS
+TARGET_KEYS = spec.TARGET_KEYS
 _TOP_KEYS = ("schema_version", "name", "speaker", "mix", "notes", "made", "circuit", "target")
 _MADE_KEYS = ("when", "how")
 
@@ -167,16 +156,15 @@ def _number(where: str, value: object, low: float, high: float, *, high_open=Fal
     return float(value)
 
 
-def _part(where: str, value: object, kind: str | None) -> str:
-    """A part value kept as written, after checking it reads as ``kind``."""
-    if isinstance(value, bool) or not isinstance(value, (str, numbers.Real)):
-        raise _field_error(where, f"{value!r} is not a value; write e.g. \"4k7\" or \"22n\"")
-    try:
-        parts.parse_value(value, kind)
-    except BadValueError as exc:
-        raise _field_error(where, str(exc)) from exc
+_NUMBER_KEYS = ("bootstrap", "q")  # kept as numbers; every other value is a part value, kept as text
+
+
+def _as_written(key: str, value: object):
+    """A table value kept as the user wrote it: text trimmed, a bare part value as its text."""
     if isinstance(value, str):
         return value.strip()
+    if key in _NUMBER_KEYS:
+        return float(value)
     return str(int(value)) if isinstance(value, numbers.Integral) else repr(float(value))
 
 
@@ -190,46 +178,34 @@ def _table(where: str, value: object, allowed: tuple[str, ...]) -> dict:
     return value
 
 
-def _circuit(value: object) -> dict | None:
+def _checked_by_spec(name: str, value: object, check) -> dict | None:
+    """A [circuit] or [target] table checked by the one reader of that layout (emulate.spec)."""
     if value is None:
         return None
-    table = _table("circuit", value, CIRCUIT_KEYS)
-    missing = [key for key in _CIRCUIT_REQUIRED if key not in table]
-    if missing:
-        raise _field_error(f"circuit.{missing[0]}", f"missing; a circuit needs "
-                           f"{', '.join(_CIRCUIT_REQUIRED)}")
-    checked = {}
-    for key in CIRCUIT_KEYS:  # canonical order, so files read the same every time
-        if key == "bootstrap" and key in table:
-            checked[key] = _number("circuit.bootstrap", table[key], 0.0, 1.0, high_open=True)
-        elif key in table:
-            checked[key] = _part(f"circuit.{key}", table[key], _CIRCUIT[key][0])
-    return checked
+    table = _table(name, value, CIRCUIT_KEYS if name == "circuit" else TARGET_KEYS)
+    try:
+        check(table)
+    except BadValueError as exc:
+        found = _SPEC_FIELD.match(str(exc))
+        raise (_field_error(*found.groups()) if found else PresetError(str(exc))) from None
+    order = CIRCUIT_KEYS if name == "circuit" else TARGET_KEYS  # canonical order: files read the same
+    kept = {key: _as_written(key, table[key]) for key in order if key in table}
+    for key in ("series", "cap_series"):
+        if key in kept:
+            kept[key] = parts.parse_series(kept[key])
+    return kept
+
+
+# spec names the field first: "circuit.r1: resistance ..." or "target.q 0.2: allowed ..."
+_SPEC_FIELD = re.compile(r"^((?:circuit|target)(?:\.\w+)?):? (.*)$", re.S)
+
+
+def _circuit(value: object) -> dict | None:
+    return _checked_by_spec("circuit", value, lambda t: spec.network_from_table(t, where="circuit"))
 
 
 def _target(value: object) -> dict | None:
-    if value is None:
-        return None
-    table = _table("target", value, TARGET_KEYS)
-    if "notch" not in table:
-        raise _field_error("target.notch", "missing; a target needs a notch frequency in Hz")
-    checks = {"notch": _notch, "q": lambda v: _number("target.q", v, *Q_RANGE),
-              "series": _series, "impedance": lambda v: _part("target.impedance", v, "resistance"),
-              "capacitor": lambda v: _part("target.capacitor", v, "capacitance")}
-    return {key: checks[key](table[key]) for key in TARGET_KEYS if key in table}
-
-
-def _notch(value: object) -> str:
-    written = _part("target.notch", value, None)
-    _number("target.notch", parts.parse_value(written), *NOTCH_RANGE_HZ)
-    return written
-
-
-def _series(value: object) -> str:
-    try:
-        return parts.parse_series(value)
-    except BadValueError as exc:
-        raise _field_error("target.series", str(exc)) from exc
+    return _checked_by_spec("target", value, lambda t: spec.target_arguments(t, where="target"))
 
 
 def _created(value: object) -> str:
@@ -334,47 +310,16 @@ class Preset:
         for key, value in checked.items():
             object.__setattr__(self, key, value)
 
-    def circuit_values(self) -> dict[str, float] | None:
-        """The circuit as numbers, keyed like :class:`emulate.networks.TwinT`.
-
-        Returns
-        -------
-        dict or None
-            ``r1..r3`` ohms, ``c1..c3`` farads, ``source_ohms``, ``load_ohms``,
-            ``depth_pot_ohms`` (only those given) and ``bootstrap`` (K); None
-            without a circuit. ``TwinT(**values, mix=preset.mix)`` builds it.
+    def network(self):
+        """The :class:`emulate.networks.TwinT` this preset describes, at its mix.
 
         Example
         -------
         >>> c = {"r1": "10k", "r2": "10k", "r3": "4k7", "c1": "10n", "c2": "10n", "c3": "22n"}
-        >>> Preset("x", "y", circuit=c).circuit_values()["r3"]
+        >>> Preset("x", "y", circuit=c, mix=0.5).network().r3
         4700.0
         """
-        if self.circuit is None:
-            return None
-        return {_CIRCUIT[key][1]: value if key == "bootstrap"
-                else parts.parse_value(value, _CIRCUIT[key][0])
-                for key, value in self.circuit.items()}
-
-    def target_values(self) -> dict[str, float | str] | None:
-        """The target as numbers, keyed like :func:`emulate.design.design_twin_t`.
-
-        Returns
-        -------
-        dict or None
-            ``notch_hz`` (Hz), and those given of ``q``, ``series``,
-            ``impedance_ohms``, ``capacitor_farads``; None without a target.
-
-        Example
-        -------
-        >>> Preset("x", "y", target={"notch": "4.8k", "series": "e12"}).target_values()
-        {'notch_hz': 4800.0, 'series': 'E12'}
-        """
-        if self.target is None:
-            return None
-        kinds = {"notch": None, "impedance": "resistance", "capacitor": "capacitance"}
-        return {_TARGET[key]: parts.parse_value(value, kinds[key]) if key in kinds else value
-                for key, value in self.target.items()}
+        return spec.network_from_preset(self)
 
 
 # ---------------------------------------------------------------------------

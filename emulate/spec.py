@@ -83,6 +83,17 @@ def network_surroundings(table: dict, where: str = "") -> dict:
 def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float = math.inf,
                       where: str = "target") -> Design:
     """Design from a ``[target]`` table; see :func:`emulate.design.design_twin_t`."""
+    notch, options = target_arguments(table, where=where)
+    return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
+
+
+def target_arguments(table: dict, *, where: str = "target") -> tuple[float, dict]:
+    """Check a ``[target]`` table: the notch (Hz) and the keyword arguments of the design.
+
+    Raises
+    ------
+    BadValueError : a missing notch, an unknown key or a bad value, naming the field.
+    """
     _known_keys(table, TARGET_KEYS, where)
     if table.get("notch") is None:
         raise BadValueError(f"{where}: missing notch (Hz), e.g. notch = \"6.3k\"")
@@ -100,7 +111,7 @@ def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float
         options["capacitor_farads"] = _value(table["capacitor"], "capacitance", _field(where, "capacitor"))
     notch = _value(table["notch"], None, _field(where, "notch"))
     check_range(_field(where, "notch"), notch, *NOTCH_RANGE_HZ)
-    return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
+    return notch, options
 
 
 def _series(raw, where: str) -> str:

@@ -15,6 +15,7 @@ from click.testing import CliRunner
 import emulate
 from emulate import audio, spec, summary
 from emulate.cli import main
+from emulate.parts import parse_value
 from emulate.presets import PresetStore
 from emulate.response import measure
 
@@ -113,13 +114,12 @@ class TestShippedPresets:
         network = spec.network_from_preset(preset)
         notch_hz = measure(network.response).notch_hz
         if preset.circuit is not None:
-            parts = preset.circuit_values()
-            assert parts["r1"] == parts["r2"] and parts["c1"] == parts["c2"]  # the notes say balanced
-            expected = balanced_notch_hz(parts["r1"], parts["c1"])
+            assert network.r1 == network.r2 and network.c1 == network.c2  # the notes say balanced
+            expected = balanced_notch_hz(network.r1, network.c1)
         else:
-            expected = preset.target_values()["notch_hz"]
+            expected = parse_value(preset.target["notch"])
         # 5 %: the source and load resistances and preferred values (E24/E12 about 5 % apart)
         # move the as-built notch a little from the formula / the target
         assert notch_hz == pytest.approx(expected, rel=0.05)
         if preset.target is not None:
-            assert notch_hz == pytest.approx(preset.target_values()["notch_hz"], rel=0.05)
+            assert notch_hz == pytest.approx(parse_value(preset.target["notch"]), rel=0.05)

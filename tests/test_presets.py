@@ -78,23 +78,20 @@ class TestPreset:
         assert p.circuit["source"] == "600" and p.mix == 1.0 and isinstance(p.mix, float)
         assert p.created == WHEN  # ISO 8601, converted to UTC
 
-    def test_circuit_values_build_the_network(self):
-        from emulate.networks import TwinT
+    def test_network_is_what_the_circuit_says(self):
         p = make(circuit={**CIRCUIT, "source": "100", "bootstrap": 0.75})
-        values = p.circuit_values()
-        assert values["c3"] == pytest.approx(4.4e-9, rel=1e-12)
-        assert values["source_ohms"] == 100.0 and values["bootstrap"] == 0.75
-        net = TwinT(**values, mix=p.mix)
+        net = p.network()
+        assert net.c3 == pytest.approx(4.4e-9, rel=1e-12)
+        assert net.source_ohms == 100.0 and net.bootstrap == 0.75 and net.mix == p.mix
         # Balanced twin-T null f0 = 1/(2 pi R C), Analog Devices MT-225; 1e-9
         # relative allows for the nodal solver's rounding only.
         assert net.null_hz() == pytest.approx(1 / (2 * math.pi * 10e3 * 2.2e-9), rel=1e-9)
 
-    def test_target_values_use_design_keywords(self):
-        p = make(circuit=None, target={"notch": "6.3k", "q": 2, "impedance": "4k7",
-                                       "capacitor": "10n"})
-        assert p.target_values() == {"notch_hz": 6300.0, "q": 2.0, "impedance_ohms": 4700.0,
-                                     "capacitor_farads": 1e-8}
-        assert p.circuit_values() is None
+    def test_target_is_kept_as_written_and_designs(self):
+        p = make(circuit=None, target={"notch": "6.3k", "q": 2, "impedance": "4k7", "capacitor": "10n"})
+        assert p.target == {"notch": "6.3k", "q": 2.0, "impedance": "4k7", "capacitor": "10n"}
+        assert p.circuit is None
+        assert p.network().bootstrap == pytest.approx(1 - 1 / (4 * 2.0), abs=0.02)  # K = 1 - 1/(4Q), MT-225
 
     @pytest.mark.parametrize("changes,match", [
         ({"mix": 1.5}, r"field 'mix': value 1.5: allowed \[0, 1\]"),
@@ -102,20 +99,20 @@ class TestPreset:
         ({"mix": "0.8"}, r"field 'mix': '0.8' is not a number"),
         ({"mix": True}, r"field 'mix': True is not a number"),
         ({"circuit": {**CIRCUIT, "bootstrap": 1.0}},
-         r"field 'circuit.bootstrap': value 1.0: allowed \[0, 1\)"),
+         r"field 'circuit.bootstrap': 1.0: allowed \[0, 1\)"),
         ({"circuit": {**CIRCUIT, "bootstrap": -0.1}}, r"field 'circuit.bootstrap'"),
         ({"circuit": {**CIRCUIT, "r1": "10nF"}},
          r"field 'circuit.r1': resistance '10nF': unit 'F' is for capacitance"),
         ({"circuit": {**CIRCUIT, "c1": "4k7"}}, r"field 'circuit.c1': capacitance '4k7': 4700 F"),
-        ({"circuit": {**CIRCUIT, "c1": None}}, r"field 'circuit.c1': None is not a value"),
+        ({"circuit": {**CIRCUIT, "c1": None}}, r"field 'circuit': missing C1"),
         ({"circuit": {**CIRCUIT, "r4": "1k"}}, r"field 'circuit.r4': unknown key; allowed r1"),
         ({"circuit": {k: v for k, v in CIRCUIT.items() if k != "r3"}},
-         r"field 'circuit.r3': missing; a circuit needs r1, r2, r3"),
+         r"field 'circuit': missing R3; give all of R1, R2, R3"),
         ({"circuit": "10k"}, r"field 'circuit': '10k' is not a table"),
-        ({"target": {"q": 1.0}}, r"field 'target.notch': missing"),
-        ({"target": {"notch": "5k", "q": 0.2}}, r"field 'target.q': value 0.2: allowed \[0.25, 20\]"),
+        ({"target": {"q": 1.0}}, r"field 'target': missing notch"),
+        ({"target": {"notch": "5k", "q": 0.2}}, r"field 'target.q': 0.2: allowed \[0.25, 20\]"),
         ({"target": {"notch": "5k", "q": 21}}, r"field 'target.q'"),
-        ({"target": {"notch": "0.5"}}, r"field 'target.notch': value 0.5: allowed \[1, 100000\]"),
+        ({"target": {"notch": "0.5"}}, r"field 'target.notch': 0.5: allowed \[1, 100000\]"),
         ({"target": {"notch": "5x"}}, r"field 'target.notch': value '5x': not a value"),
         ({"target": {"notch": "5k", "series": "E7"}}, r"field 'target.series': series 'E7'"),
         ({"target": {"notch": "5k", "width": 3}}, r"field 'target.width': unknown key"),
@@ -332,20 +329,20 @@ class TestShippedPresets:
     @pytest.mark.parametrize("name,band_hz", [("orrin-passive", (4.5e3, 5e3)),
                                               ("tamsin-active", (7e3, 7.5e3))])
     def test_circuits_are_balanced_preferred_parts_in_their_band(self, name, band_hz):
-        c = PresetStore(SHIPPED).load(name).circuit_values()
-        r, cap = c["r1"], c["c1"]
+        c = PresetStore(SHIPPED).load(name).network()
+        r, cap = c.r1, c.c1
         # Balanced twin-T: R1 = R2 = R, R3 = R/2, C1 = C2 = C, C3 = 2C and
         # f0 = 1/(2 pi R C) (Analog Devices MT-225). 1e-12: exact decimal values.
-        assert c["r2"] == r and c["c2"] == cap
-        assert c["r3"] == pytest.approx(r / 2, rel=1e-12)
-        assert c["c3"] == pytest.approx(2 * cap, rel=1e-12)
+        assert c.r2 == r and c.c2 == cap
+        assert c.r3 == pytest.approx(r / 2, rel=1e-12)
+        assert c.c3 == pytest.approx(2 * cap, rel=1e-12)
         assert band_hz[0] <= 1 / (2 * math.pi * r * cap) <= band_hz[1]
         # R and C are IEC 60063 E12 values (so also E24).
         assert parts.neighbours(r, "E12") == (r, r)
         assert parts.neighbours(cap, "E12") == (cap, cap)
 
     def test_active_bootstrap_gives_a_sensible_q(self):
-        k = PresetStore(SHIPPED).load("tamsin-active").circuit_values()["bootstrap"]
+        k = PresetStore(SHIPPED).load("tamsin-active").network().bootstrap
         # Bootstrapped twin-T: Q = 1/(4(1-K)) (Analog Devices MT-225).
         assert 1 / (4 * (1 - k)) == pytest.approx(1.0)
 

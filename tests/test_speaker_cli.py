@@ -144,12 +144,12 @@ class TestPresetSave:
                      "--presets", tmp_path)
         assert result.exit_code == 0, result.output
         saved = presets.PresetStore(tmp_path).load("host-b")
-        assert saved.target_values() == {"notch_hz": 7200.0, "q": 1.0}
-        values = saved.circuit_values()
+        assert saved.target == {"notch": "7.2k", "q": 1.0}
+        values = saved.network()
         # as built from preferred values, the balanced formula lands near the target (MT-225);
         # 5 %: E24/E12 values are at most about 5 % apart
-        assert balanced_notch_hz(values["r1"], values["c1"]) == pytest.approx(7200, rel=0.05)
-        assert 0 < values["bootstrap"] < 1  # Q 1 needs the active network
+        assert balanced_notch_hz(values.r1, values.c1) == pytest.approx(7200, rel=0.05)
+        assert 0 < values.bootstrap < 1  # Q 1 needs the active network
 
     def test_from_sweep(self, swept, tmp_path):
         out, payload = swept
@@ -157,7 +157,7 @@ class TestPresetSave:
                      "--presets", tmp_path)
         assert result.exit_code == 0, result.output
         saved = presets.PresetStore(tmp_path).load("host-c")
-        assert saved.target_values()["notch_hz"] == PLANTED_HZ
+        assert float(saved.target["notch"]) == PLANTED_HZ
         assert "sweep pick" in saved.made_by and payload["pick"]["setting"] in saved.made_by
         shown = json.loads(run("preset", "show", "host-c", "--presets", tmp_path, "--json").output)
         assert shown["metrics"]["notch_hz"] == pytest.approx(payload["pick"]["notch_hz"], rel=1e-9)
