@@ -253,11 +253,12 @@ class Preset:
         (farads) required, ``source``, ``load``, ``depth_pot`` (ohms) optional,
         e.g. ``{"r1": "3k3", ..., "c3": "22n", "source": "600"}``; ``bootstrap``
         (K, a float in [0, 1)) makes it the active network. Values are kept as
-        written (numbers become their ``repr``); use :meth:`circuit_values`.
+        written (numbers become their text); :meth:`network` builds it. Both
+        tables are checked by :mod:`emulate.spec`, the one reader of that layout.
     target : dict or None
         A design target: ``notch`` (Hz, e.g. ``"6.3k"``; 1 Hz..100 kHz)
-        required; ``q`` (0.25..20), ``series`` (E3..E192), ``impedance``
-        (ohms), ``capacitor`` (farads) optional. At least one of ``circuit``
+        required; ``q`` (0.25..20), ``series`` and ``cap_series`` (E3..E192),
+        ``impedance`` (ohms), ``capacitor`` (farads) optional. At least one of ``circuit``
         and ``target`` must be given.
     mix : float
         Wet/dry mix, 0..1 inclusive (1 = full notch).
@@ -282,8 +283,8 @@ class Preset:
     Example
     -------
     >>> p = Preset("demo", "A. Speaker", target={"notch": "6.3k", "q": 1.0}, mix=0.8)
-    >>> p.target_values()
-    {'notch_hz': 6300.0, 'q': 1.0}
+    >>> p.target
+    {'notch': '6.3k', 'q': 1.0}
     """
 
     name: str
@@ -433,8 +434,8 @@ class PresetStore:
     >>> import tempfile
     >>> store = PresetStore(tempfile.mkdtemp())
     >>> _ = store.save(Preset("demo", "A. Speaker", target={"notch": "6.3k"}))
-    >>> store.names(), store.load("demo").target_values()
-    (['demo'], {'notch_hz': 6300.0})
+    >>> store.names(), store.load("demo").target
+    (['demo'], {'notch': '6.3k'})
     """
 
     def __init__(self, root: str | os.PathLike | None = None):
