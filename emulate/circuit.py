@@ -59,7 +59,7 @@ class Circuit:
     >>> c.resistor("in", "out", 1e3)
     >>> c.capacitor("out", "gnd", 1e-6)
     >>> z, p, k = c.transfer_zpk("out")
-    >>> round(-p[0].real, 3)
+    >>> round(float(-p[0].real), 3)
     1000.0
     """
 

@@ -9,6 +9,7 @@ carrying the state gives the same output as one call on the whole signal.
 
 from __future__ import annotations
 
+import numpy as np  # noqa: F401  (the docstring examples use it)
 from numba import njit
 
 __all__ = ["sos_filter", "ramp_blend", "delay_line", "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET"]
