@@ -467,6 +467,9 @@ def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None
     return Corners(_CORNER_SIGNS.copy(), measured.notch_hz, measured.depth_db)
 
 
+MAX_DRAW_NUMBER = 2**62  # draw numbers index a 64-bit counter stream
+
+
 def build_at(nominal: TwinT, tolerances: Tolerances, which, seed: int = 0, *,
              draws: int = DEFAULT_DRAWS) -> TwinT:
     """One build as a network: ``"typical"``, ``"worst"``, ``"nominal"`` or a draw number.
@@ -495,8 +498,9 @@ def build_at(nominal: TwinT, tolerances: Tolerances, which, seed: int = 0, *,
     if choice == "worst":
         corners = worst_corners(nominal, tolerances)
         return _single(builds(nominal, corners.signs[corners.worst_index] * tolerances.fractions()))
-    if not choice.isdigit():
-        raise BadValueError(f"build {which!r}: allowed typical, worst, nominal or a draw number >= 0")
+    if not choice.isdigit() or int(choice) > MAX_DRAW_NUMBER:
+        raise BadValueError(f"build {which!r}: allowed typical, worst, nominal or a draw number "
+                            f"0 to {MAX_DRAW_NUMBER}")
     return _single(builds(nominal, deviations(tolerances, check_seed(seed), [int(choice)])))
 
 

@@ -160,3 +160,18 @@ class TestDepthOption:
 
     def test_mix_and_depth_together(self):
         assert_one_line_error(run("response", *BALANCED, "--depth", "-6", "--mix", "0.5"), "not both")
+
+
+class TestFileSystemRefusals:
+    def test_unforeseen_os_error_is_one_line(self, tmp_path):
+        # regression: `emulate demo --out` under a path that cannot be created printed a traceback
+        blocker = tmp_path / "file"
+        blocker.write_text("x")
+        result = run("demo", "--out", blocker / "inside", "--seconds", "1")
+        assert_one_line_error(result, "inside")
+
+    def test_huge_build_number(self, tmp_path):
+        # regression: a draw number beyond 64 bits overflowed with a traceback
+        take = TestRender().write_take(tmp_path / "take.wav")
+        result = run("render", take, tmp_path / "o.wav", *BALANCED, "--build", "9" * 20)
+        assert_one_line_error(result, "draw number")

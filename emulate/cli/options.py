@@ -56,6 +56,9 @@ class _Group(click.Group):
                 return super().invoke(ctx)
             except EmulateError as exc:
                 raise click.ClickException(str(exc)) from None
+            except OSError as exc:  # a file system refusal the checks did not foresee
+                where = f"{exc.filename}: " if exc.filename else ""
+                raise click.ClickException(f"{where}{exc.strerror or exc}") from None
             finally:
                 for item in caught:
                     if issubclass(item.category, EmulateWarning):
