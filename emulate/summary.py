@@ -57,11 +57,11 @@ def warning_lines(found) -> list[str]:
 
 
 def table_lines(network, notch_hz) -> list[str]:
-    f = np.array(sorted(set(TABLE_HZ) | {round(notch_hz, 2)}))
+    f = np.array(sorted({*TABLE_HZ, notch_hz}))
     h = network.response(f)
     rows = ["  f (Hz)      gain (dB)   phase (deg)"]
     for fi, hi in zip(f, h):
-        mark = "  <- notch" if abs(fi - notch_hz) < 0.01 else ""
+        mark = "  <- notch" if fi == notch_hz else ""
         rows.append(f"  {fi:>9.1f}   {max(db(hi), IDEAL_NULL_DB):>9.2f}   {np.degrees(np.angle(hi)):>9.1f}{mark}")
     return rows
 
