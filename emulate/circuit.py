@@ -174,6 +174,64 @@ class Compiled:
         h = x @ self.l
         return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
 
+    def rational(self, f_ref_hz: float) -> "Rational":
+        """The same responses as polynomials N(s)/D(s) per build (fast to evaluate)."""
+        return Rational(self, f_ref_hz)
+
+
+class Rational:
+    """Each build's exact H(s) = N(s) / D(s) as polynomials, from its nodal equations.
+
+    D(s) = det(G + sC) and N(s) = -det([[G + sC, b], [l, 0]]) are polynomials of
+    degree <= rank(C), so their values at rank(C) + 1 points on a circle of radius
+    2 pi ``f_ref_hz`` give the coefficients exactly by a discrete Fourier transform
+    (well conditioned: the points are equally spaced on the circle). Evaluating
+    them is then far cheaper than solving the nodal equations at each frequency,
+    which is what Monte Carlo over thousands of builds needs.
+
+    Example
+    -------
+    >>> c = Circuit()
+    >>> c.drive("in")
+    >>> c.resistor("in", "out", 1e3)
+    >>> c.capacitor("out", "gnd", 1e-6)
+    >>> compiled = c.compile("out")
+    >>> bool(np.allclose(compiled.rational(159.15).response([100.0]), compiled.response([100.0])))
+    True
+    """
+
+    def __init__(self, compiled: "Compiled", f_ref_hz: float):
+        g, c, b, l = compiled.g, compiled.c, compiled.b, compiled.l
+        points = int(np.linalg.matrix_rank(c[0])) + 1
+        rotate = np.exp(1j * np.pi / points)  # keep the points off the real and j axes
+        sigma = rotate * np.exp(2j * np.pi * np.arange(points) / points)
+        system = g[:, None] + (2 * np.pi * f_ref_hz * sigma)[None, :, None, None] * c[:, None]
+        n = g.shape[-1]
+        bordered = np.zeros(system.shape[:2] + (n + 1, n + 1), complex)
+        bordered[..., :n, :n] = system
+        bordered[..., :n, n] = b
+        bordered[..., n, :n] = l
+        den = np.linalg.det(system)
+        num = -np.linalg.det(bordered)
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        powers = rotate ** -np.arange(points)
+        self.num = (np.fft.fft(num / scale, axis=1) / points * powers).real  # (builds, degree + 1)
+        self.den = (np.fft.fft(den / scale, axis=1) / points * powers).real
+        self.f_ref_hz = float(f_ref_hz)
+
+    def response(self, f_hz) -> np.ndarray:
+        """Complex response at ``f_hz``: (builds, m) for 1-D or per-build (builds, m) ``f_hz``."""
+        sigma = 1j * np.atleast_2d(np.asarray(f_hz, float)) / self.f_ref_hz
+        return _horner(self.num, sigma) / _horner(self.den, sigma)
+
+
+def _horner(coefficients: np.ndarray, sigma: np.ndarray) -> np.ndarray:
+    """sum_j c[:, j] sigma^j per build (coefficients lowest power first)."""
+    total = np.zeros(np.broadcast_shapes(sigma.shape, coefficients[:, :1].shape), complex)
+    for j in range(coefficients.shape[1] - 1, -1, -1):
+        total = total * sigma + coefficients[:, j:j + 1]
+    return total
+
 
 class _Assembly:
     """Stamps a :class:`Circuit` into MNA matrices (one concept: the bookkeeping)."""

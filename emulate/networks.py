@@ -176,6 +176,10 @@ class TwinT:
         """Exact complex response at ``f_hz`` (Hz); one row per build for batched parts."""
         return self._compiled.response(f_hz)
 
+    def rational(self, f_ref_hz: float):
+        """Each build's exact H(s) as polynomials (:class:`emulate.circuit.Rational`)."""
+        return self._compiled.rational(f_ref_hz)
+
     @functools.cached_property
     def _compiled(self):
         circuit, output = self.circuit()

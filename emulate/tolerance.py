@@ -12,13 +12,10 @@ The pipeline, top to bottom:
                number generators", OOPSLA 2014) at counter 6 i .. 6 i + 5 under a
                key mixed from s.  So ``build_at(..., which=37)`` rebuilds build 37
                alone, and 10,000 draws are one vectorised expression.
-3. rational    every build's exact H(s) = N(s) / D(s) from its nodal equations:
-               D(s) = det(G + sC) and N(s) = -det([[G + sC, b], [l, 0]]) are
-               polynomials of degree <= rank(C), so their values at rank(C) + 1 points
-               on a circle of radius 2 pi f_nominal give the coefficients exactly by
-               a discrete Fourier transform (well conditioned: the points are
-               equally spaced on the circle).  Evaluating a cubic is then ~100x
-               cheaper than solving the nodal equations at each frequency.
+3. rational    every build's exact H(s) = N(s) / D(s) as polynomials
+               (:class:`emulate.circuit.Rational`, ``TwinT.rational``): evaluating a
+               cubic is ~100x cheaper than solving the nodal equations at each
+               frequency.
 4. measure     :func:`emulate.response.measure_batch` on that rational form, in a
                narrow band around the nominal notch (the notch of a build moves by
                no more than a few times the tolerances) with a coarse grid and the
@@ -195,60 +192,6 @@ def builds(nominal: TwinT, deviation: np.ndarray) -> TwinT:
 
 # --- 3. the exact rational form of a batch ----------------------------------------
 
-class RationalBatch:
-    """Each build's exact H(s) = N(s) / D(s), from its nodal equations (module note 3).
-
-    Parameters
-    ----------
-    network : TwinT
-        Part values may be arrays (a batch of builds).
-    f_ref_hz : float
-        Radius of the interpolation circle, Hz (use the nominal notch).
-
-    Example
-    -------
-    >>> net = TwinT.balanced(1000.0, r_ohms=10e3)
-    >>> h = RationalBatch(net, 1000.0).response([100.0, 1000.0])
-    >>> bool(np.allclose(h, net.response([100.0, 1000.0]), atol=1e-12))
-    True
-    """
-
-    def __init__(self, network: TwinT, f_ref_hz: float):
-        circuit, output = network.circuit()
-        g, c, b, l = circuit.matrices(output)
-        points = int(np.linalg.matrix_rank(c[0])) + 1
-        rotate = np.exp(1j * np.pi / points)  # keep the points off the real and j axes
-        sigma = rotate * np.exp(2j * np.pi * np.arange(points) / points)
-        w_ref = 2 * np.pi * f_ref_hz
-        system = g[:, None] + (w_ref * sigma)[None, :, None, None] * c[:, None]
-        n = g.shape[-1]
-        bordered = np.zeros(system.shape[:2] + (n + 1, n + 1), complex)
-        bordered[..., :n, :n] = system
-        bordered[..., :n, n] = b
-        bordered[..., n, :n] = l
-        den = np.linalg.det(system)
-        num = -np.linalg.det(bordered)
-        scale = np.max(np.abs(den), axis=1, keepdims=True)
-        powers = rotate ** -np.arange(points)
-        self.num = (np.fft.fft(num / scale, axis=1) / points * powers).real  # (builds, degree + 1)
-        self.den = (np.fft.fft(den / scale, axis=1) / points * powers).real
-        self.f_ref_hz = float(f_ref_hz)
-        self.single = g.shape[0] == 1 and not np.ndim(network.r1)
-
-    def response(self, f_hz) -> np.ndarray:
-        """Complex response at ``f_hz``: (builds, m) for 1-D or per-build (builds, m) ``f_hz``."""
-        sigma = 1j * np.atleast_2d(np.asarray(f_hz, float)) / self.f_ref_hz
-        return _horner(self.num, sigma) / _horner(self.den, sigma)
-
-
-def _horner(coefficients: np.ndarray, sigma: np.ndarray) -> np.ndarray:
-    """sum_j c[:, j] sigma^j per build (coefficients lowest power first)."""
-    total = np.zeros(np.broadcast_shapes(sigma.shape, coefficients[:, :1].shape), complex)
-    for j in range(coefficients.shape[1] - 1, -1, -1):
-        total = total * sigma + coefficients[:, j:j + 1]
-    return total
-
-
 # --- 4. measuring many builds -----------------------------------------------------
 
 @dataclass(frozen=True)
@@ -268,7 +211,7 @@ def search_band_hz(notch_hz: float, tolerances: Tolerances) -> tuple[float, floa
 
 def measure_builds(network: TwinT, band_hz, f_ref_hz: float) -> BatchMetrics:
     """Notch and depth of each build of a batch, searched within ``band_hz`` (Hz)."""
-    rational = RationalBatch(network, f_ref_hz)
+    rational = network.rational(f_ref_hz)
     metrics = measure_batch(rational.response, search_hz=band_hz, points=_SEARCH_POINTS)
     notch = np.array([m.notch_hz for m in metrics])
     depth = np.array([m.depth_below_passband_db for m in metrics])
@@ -385,7 +328,7 @@ class ToleranceResult:
     def envelope(self, f_hz, at=PERCENTILES, max_builds: int = 2000) -> dict[str, np.ndarray]:
         """Percentiles of |H| in dB over the builds (the first ``max_builds``) at ``f_hz``."""
         batch = builds(self.nominal, self.deviation[:max_builds])
-        magnitude = np.abs(RationalBatch(batch, self.nominal_notch_hz).response(f_hz))
+        magnitude = np.abs(batch.rational(self.nominal_notch_hz).response(f_hz))
         level = 20 * np.log10(np.maximum(magnitude, 10 ** (-DEPTH_CAP_DB / 20)))
         return {f"p{p:g}": np.percentile(level, p, axis=0) for p in at}
 

@@ -96,7 +96,7 @@ class TestDeviations:
         assert d.std() == pytest.approx(0.01, rel=0.01)
 
 
-class TestRationalBatch:
+class TestRational:
     @pytest.mark.parametrize("options", [
         {}, {"source_ohms": 600.0, "load_ohms": 47e3}, {"bootstrap": 0.8},
         {"mix": 0.7}, {"depth_pot_ohms": 100e3, "mix": 0.9},
@@ -106,7 +106,7 @@ class TestRationalBatch:
         net = tol.builds(NOMINAL.replace(**options), tol.deviations(ONE_PERCENT, 1, range(5)))
         f = np.geomspace(20, 20000, 50)
         exact = net.response(f)
-        assert np.allclose(tol.RationalBatch(net, 1591.5).response(f), exact, rtol=1e-9, atol=1e-12)
+        assert np.allclose(net.rational(1591.5).response(f), exact, rtol=1e-9, atol=1e-12)
 
 
 class TestMeasureBuilds:
