@@ -26,6 +26,7 @@ This rule is our own judgement, not a published method.
 
 from __future__ import annotations
 
+import json
 import math
 import os
 from concurrent.futures import Future, ProcessPoolExecutor
@@ -325,6 +326,16 @@ def rows_as_csv(rows: list[dict]) -> str:
 
 def _csv_cell(value) -> str:
     return f"{value:.6g}" if isinstance(value, float) else str(value)
+
+
+def read_pick(out_dir) -> tuple[SweepPlan, dict]:
+    """The plan and the pick a sweep left in ``out_dir/summary.json``; one clear error if none."""
+    path = Path(out_dir) / "summary.json"
+    try:
+        result = json.loads(path.read_text())
+        return SweepPlan.from_dict(result["plan"]), result["pick"]
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
 
 
 def write_summary(result: SweepResult, out_dir) -> tuple[Path, Path]:

@@ -2,15 +2,12 @@
 
 from __future__ import annotations
 
-import json
-from pathlib import Path
 
 import click
 
 from emulate import audio, presets, spec, summary, sweep
 from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options,
                                  presets_option, progress, run_quietly, store_from)
-from emulate.errors import BadValueError
 from emulate.parts import parse_value
 from emulate.response import measure
 from emulate.speech import combine_reports, find_sibilance
@@ -156,21 +153,14 @@ def _build_note(design) -> str:
 
 
 def _from_sweep(folder, mix) -> dict:
-    path = Path(folder) / "summary.json"
-    try:
-        result = json.loads(path.read_text())
-        pick, plan = result["pick"], result["plan"]
-    except (OSError, ValueError, KeyError) as exc:
-        raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
-    plan_obj = sweep.SweepPlan.from_dict(plan)
-    design = plan_obj.design(pick["notch_target_hz"])
-    network = design.built
-    target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan["series"]}
-    if plan.get("q") is not None:
-        target["q"] = plan["q"]
-    return {"circuit": spec.table_from_network(network), "target": target, "build": _build_note(design),
-            "mix": plan["mix"] if mix is None else mix,
-            "made_by": f"sweep pick: {pick['setting']} of {len(plan['notches_hz'])}: {pick['reason']}"}
+    plan, pick = sweep.read_pick(folder)
+    design = plan.design(pick["notch_target_hz"])
+    target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan.series}
+    if plan.q is not None:
+        target["q"] = plan.q
+    return {"circuit": spec.table_from_network(design.built), "target": target, "build": _build_note(design),
+            "mix": plan.mix if mix is None else mix,
+            "made_by": f"sweep pick: {pick['setting']} of {len(plan.notches_hz)}: {pick['reason']}"}
 
 
 @preset.command("list")
