@@ -340,8 +340,6 @@ def read_pick(out_dir) -> tuple[SweepPlan, dict]:
 
 def write_summary(result: SweepResult, out_dir) -> tuple[Path, Path]:
     """``summary.csv`` and ``summary.json`` in ``out_dir``, atomically."""
-    import json
-
     out_dir = Path(out_dir)
     csv_path, json_path = out_dir / "summary.csv", out_dir / "summary.json"
     files.write_text(csv_path, rows_as_csv(result.rows))
