@@ -19,7 +19,6 @@ The digital notch is prewarped at the analog network's measured notch.
 
 from __future__ import annotations
 
-from emulate import audio
 from emulate.networks import TwinT
 from emulate.processor import NotchProcessor
 from emulate.response import measure
@@ -49,8 +48,3 @@ def digital_for(network: TwinT, fs: float, *, tolerance_db: float = DESIGN_TOLER
     processor = processor_for(network, tolerance_db=tolerance_db)
     processor.prepare(fs, 1)
     return processor.design
-
-
-def render_take(in_path, out_path, network: TwinT, **options) -> audio.RenderReport:
-    """Render one take through ``network``; ``options`` go to :func:`emulate.audio.render_file`."""
-    return audio.render_file(in_path, out_path, processor_for(network), **options)
