@@ -133,6 +133,7 @@ def _edge(response, notch, far, passband):
 # --- rule checks ------------------------------------------------------------
 
 UNBALANCE_LIMIT = 1e-3
+SHALLOW_DB = 60.0  # about the best depth 1 % parts hold anyway (Analog Devices MT-225)
 LOAD_FACTOR = 10.0
 SOURCE_FACTOR = 0.05
 
@@ -141,7 +142,9 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
     """Rule checks with the fix; returns warnings (does not issue them).
 
     * unbalanced ratios (the null condition R1 R2 C3 = R3 (R1+R2)(C1+C2) missed
-      by more than 0.1 %): shallow notch; states the nearest balanced set;
+      by more than 0.1 %) that leave the notch under 60 dB below the passband
+      (a deeper nominal notch is more than 1 % parts hold anyway, MT-225):
+      states the nearest balanced set;
     * a passive network driving a load under 10 x (R1 + R2);
     * a source resistance over 5 % of R3: it does not move the null (the null is
       between the network's input node and its output) but reshapes Q and the
@@ -151,7 +154,7 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
     """
     found = []
     mismatch = network.null_mismatch()
-    if abs(mismatch) > UNBALANCE_LIMIT:
+    if abs(mismatch) > UNBALANCE_LIMIT and metrics.depth_below_passband_db < SHALLOW_DB:
         found.append(EmulateWarning(_unbalanced_message(network, mismatch, metrics)))
     series = network.r1 + network.r2
     if not network.is_active and network.load_ohms < LOAD_FACTOR * series:

@@ -148,9 +148,10 @@ class TestCheckTwinT:
         assert "R1 = R2 = 11k, R3 = 5k5, C1 = C2 = 11n, C3 = 22n" in found
         assert TwinT(11e3, 11e3, 5.5e3, 11e-9, 11e-9, 22e-9).null_mismatch() == pytest.approx(0, abs=1e-15)
 
-    @pytest.mark.parametrize("scale, warned", [(1 + 0.5e-3, False), (1 + 2e-3, True)])
+    @pytest.mark.parametrize("scale, warned", [(1 + 0.5e-3, False), (1 + 2e-3, False), (1 + 2e-2, True)])
     def test_unbalance_threshold(self, scale, warned):
-        # the documented threshold: mismatch above 0.1 % warns
+        # the documented rule: mismatch above 0.1 % warns once the notch is under 60 dB deep
+        # (MT-225: about the best 1 % parts hold); R3 +0.2 % still leaves it 72 dB deep, +2 % 52 dB
         net = TwinT.balanced(1000.0, r_ohms=10e3)
         found = warnings_of(net.replace(r3=net.r3 * scale))
         assert any("unbalanced" in w for w in found) == warned
