@@ -72,12 +72,8 @@ def response_text(network, metrics, found) -> str:
     return "\n".join(lines)
 
 
-def _finite(value: float):
-    return float(value) if math.isfinite(value) else None
-
-
 def metrics_payload(network, metrics, found) -> dict:
-    payload = {key: _finite(value) for key, value in metrics.as_dict().items()}
+    payload = metrics.as_dict()  # non-finite numbers become null where JSON is written
     payload["warnings"] = [str(item) for item in found]
     payload["active"] = network.is_active
     payload["bootstrap"] = network.bootstrap
@@ -93,7 +89,7 @@ def design_payload(design, found) -> dict:
         r3_build=design.r3_build, c3_build=design.c3_build,
         notch_error_percent=100 * design.notch_error,
         ideal={"parts": {k.upper(): v for k, v in design.ideal.parts().items()},
-               "notch_hz": design.ideal_metrics.notch_hz, "q": _finite(design.ideal_metrics.q)})
+               "notch_hz": design.ideal_metrics.notch_hz, "q": design.ideal_metrics.q})
     return payload
 
 
@@ -152,11 +148,11 @@ def digital_text(digital) -> str:
 # --- speakers ------------------------------------------------------------------
 
 def _sibilance_fields(report) -> dict:
-    return {"usable": report.usable, "reason": report.reason, "peak_hz": _finite(report.peak_hz),
-            "band_hz": [_finite(v) for v in report.band_hz], "sibilant_fraction": report.sibilant_fraction,
-            "confidence": report.confidence, "suggested_notch_hz": _finite(report.suggested_notch_hz),
-            "suggested_q": _finite(report.suggested_q), "suggested_mix": _finite(report.suggested_mix),
-            "suggested_depth_db": _finite(report.suggested_depth_db)}
+    return {"usable": report.usable, "reason": report.reason, "peak_hz": report.peak_hz,
+            "band_hz": list(report.band_hz), "sibilant_fraction": report.sibilant_fraction,
+            "confidence": report.confidence, "suggested_notch_hz": report.suggested_notch_hz,
+            "suggested_q": report.suggested_q, "suggested_mix": report.suggested_mix,
+            "suggested_depth_db": report.suggested_depth_db}
 
 
 def sibilance_payload(takes, reports, combined) -> dict:
