@@ -20,8 +20,8 @@ IDEAL_NULL_DB = -200.0  # deeper than this is an exact null in floating point
 
 def network_line(network) -> str:
     kind = "passive" if not network.is_active else f"active, bootstrap K = {network.bootstrap:.4g}"
-    source = f"{format_value(network.source_ohms, 'resistance')} ohm" if network.source_ohms else "ideal"
-    load = f"{format_value(network.load_ohms, 'resistance')} ohm" if math.isfinite(network.load_ohms) else "none"
+    source = format_value(network.source_ohms, "resistance") if network.source_ohms else "ideal"
+    load = format_value(network.load_ohms, "resistance") if math.isfinite(network.load_ohms) else "none"
     mix = "" if network.mix == 1.0 else (
         f", depth pot {format_value(network.depth_pot_ohms, 'resistance')} at {network.mix:.2f}"
         if network.depth_pot_ohms else f", wet/dry mix {network.mix:.2f}")
