@@ -86,6 +86,19 @@ class SweepPlan:
         return self.design(notch_hz).built.replace(mix=self.mix)
 
 
+def held_by(network) -> dict:
+    """What a sweep holds, read off an existing network (a preset's): the SweepPlan fields.
+
+    Q from the bootstrap (Q = 1/(4(1-K)), Analog Devices MT-225), the impedance level
+    from R1 and R2, and the network's mix, source and load.
+    """
+    held = {"impedance_ohms": (network.r1 + network.r2) / 2, "mix": network.mix,
+            "source_ohms": network.source_ohms, "load_ohms": network.load_ohms}
+    if network.bootstrap is not None:
+        held["q"] = 1.0 / (4.0 * (1.0 - network.bootstrap))
+    return held
+
+
 def notch_steps(from_hz: float, to_hz: float, steps: int) -> tuple[float, ...]:
     """``steps`` notch frequencies in equal ratios from ``from_hz`` to ``to_hz`` (both included).
 

@@ -8,10 +8,12 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 
+import emulate
 from emulate import audio, presets, synth
 from emulate.cli import main
 
@@ -283,3 +285,18 @@ class TestRenderWithPreset:
         result = run("render", takes[0], tmp_path / "out.wav", "--preset", name, "--presets", tmp_path)
         assert_one_line_error(result, match)
         assert not (tmp_path / "out.wav").exists()
+
+
+class TestSweepFromPreset:
+    def test_holds_what_the_preset_holds(self, tmp_path):
+        # the shipped active preset: K = 0.75 gives Q = 1/(4(1-K)) = 1 (Analog Devices MT-225)
+        shipped = Path(emulate.__file__).resolve().parent.parent / "presets"
+        take = tmp_path / "take.wav"
+        audio.write_array(take, synth.voice_like_take(48000, 2.0, pitch_hz=210, sibilance_hz=7000, seed=3), 48000)
+        result = CliRunner().invoke(main, ["sweep", str(take), "--at", "6k,7k", "--preset", "tamsin-active",
+                                           "--presets", str(shipped), "--mix", "0.5",
+                                           "--out", str(tmp_path / "out"), "--json"])
+        assert result.exit_code == 0, result.output
+        plan = json.loads(result.output)["plan"]
+        assert plan["q"] == pytest.approx(1.0) and plan["mix"] == 0.5  # the option overrides the preset
+        assert plan["source_ohms"] == 100.0 and plan["load_ohms"] == 10e3

@@ -61,25 +61,29 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
               help="folder for the renders, reels and summary (created)")
 @click.option("--q", type=float, help="Q held for every setting (active network); default passive")
-@click.option("--series", default="E24", show_default=True, help="resistor series, IEC 60063")
-@click.option("--cap-series", default="E12", show_default=True, help="capacitor series, IEC 60063")
+@click.option("--series", help="resistor series, IEC 60063; default E24")
+@click.option("--cap-series", help="capacitor series, IEC 60063; default E12")
 @click.option("--impedance", help="level of R1 = R2, ohms; default 10k")
-@click.option("--mix", type=float, default=1.0, show_default=True, help="wet/dry mix held, 0..1")
+@click.option("--mix", type=float, help="wet/dry mix held, 0..1; default 1")
 @click.option("--source", help="source resistance, ohms; default 0")
 @click.option("--load", help="load resistance, ohms; default none")
+@click.option("--preset", help="hold what this preset holds (Q, impedance, mix, source, load); options override")
+@presets_option
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
+              help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
 @json_option
 @run_quietly
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
-                  source, load, workers, plot_path, as_json):
+                  source, load, preset, presets_dir, workers, plot_path, as_json):
     """Render every take at every notch setting; reels, a summary table and a pick."""
-    surroundings = spec.network_surroundings({"source": source, "load": load})
-    plan = sweep.SweepPlan(
-        notches_hz=_sweep_notches(from_hz, to_hz, steps, at), q=q, series=series,
-        cap_series=cap_series, mix=mix,
-        impedance_ohms=None if impedance is None else parse_value(impedance, "resistance"),
-        **surroundings)
+    held = {} if preset is None else sweep.held_by(presets.PresetStore(presets_dir).load(preset).network())
+    given = {"q": q, "series": series, "cap_series": cap_series, "mix": mix,
+             "impedance_ohms": None if impedance is None else parse_value(impedance, "resistance")}
+    given |= {k: v for k, v in spec.network_surroundings({"source": source, "load": load}).items()
+              if (source if k == "source_ohms" else load) is not None}
+    plan = sweep.SweepPlan(notches_hz=_sweep_notches(from_hz, to_hz, steps, at),
+                           **(held | {k: v for k, v in given.items() if v is not None}))
     plan.network(plan.notches_hz[0])  # a bad plan fails here, before any work
     total = sum(audio.read_info(t).frames for t in takes) * len(plan.notches_hz)
     with progress(total, "sweeping") as bar:
