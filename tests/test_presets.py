@@ -324,7 +324,8 @@ class TestShippedPresets:
     def test_all_load_without_problems(self):
         presets, problems = PresetStore(SHIPPED).list_all()
         assert problems == []
-        assert {p.name for p in presets} == {"orrin-passive", "tamsin-active", "tamsin-target"}
+        # a user following the README saves presets beside the shipped ones: those may be there too
+        assert {p.name for p in presets} >= {"orrin-passive", "tamsin-active", "tamsin-target"}
 
     @pytest.mark.parametrize("name,band_hz", [("orrin-passive", (4.5e3, 5e3)),
                                               ("tamsin-active", (7e3, 7.5e3))])
