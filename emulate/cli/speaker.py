@@ -174,7 +174,7 @@ def preset_list(as_json, presets_dir):
     """List the presets in the presets folder."""
     store = presets.PresetStore(presets_dir)
     found, problems = store.list_all()
-    for path, message in problems:
+    for _path, message in problems:
         click.echo(f"warning: {message}", err=True)
     emit(as_json, {"folder": str(store.root), "presets": [summary.preset_payload(p) for p in found],
                    "problems": [m for _, m in problems]}, summary.preset_list_text(store.root, found))
