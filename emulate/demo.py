@@ -3,7 +3,7 @@
 Scenario (invented): *Low Tide Notes*, a weekly talk podcast recorded in the
 one-room studio of Saltmarsh Community Radio. Two co-hosts, both made up:
 Orrin, whose /s/ sits low (near 4.8 kHz), and Tamsin, whose /s/ is bright (near
-7.2 kHz). Their takes are synthesised here (:mod:`emulate.synth`); nothing is
+7.2 kHz). Their takes are synthesised here (:mod:`emulate.voice.synth`); nothing is
 recorded from anyone. Each host has a preset in the repository's ``presets/``.
 
 The pipeline, top to bottom: synthesise each take -> find its sibilance ->
@@ -18,10 +18,14 @@ from pathlib import Path
 
 import numpy as np
 
-from emulate import audio, emulation, plots, speech, spec, synth
+from emulate.audio import stream as audio
+from emulate.dsp import emulation
+from emulate.report import plots
+from emulate.voice import speech, synth
+from emulate.analog import spec
 from emulate.errors import PresetError
-from emulate.presets import PresetStore, default_presets_dir
-from emulate.response import measure
+from emulate.work.presets import PresetStore, default_presets_dir
+from emulate.analog.response import measure
 
 DEMO_RATE_HZ = 48000
 DEMO_SECONDS = 12.0

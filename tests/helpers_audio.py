@@ -6,7 +6,7 @@ libsndfile expects (it keeps the top bits exactly), so a test knows every sample
 libsndfile reads an N-bit code ``c`` as ``c / 2**(N-1)`` (libsndfile's normalisation
 for float reads, from memory; checked by ``TestHelpers`` in test_audio.py).
 
-The processors follow the plugin API of ``emulate.processor``:
+The processors follow the plugin API of ``emulate.dsp.processor``:
 ``prepare(sample_rate, channels)``, ``process(block) -> block``, ``reset()``,
 ``latency_samples``.
 """

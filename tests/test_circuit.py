@@ -1,4 +1,4 @@
-"""Tests of emulate.circuit: the nodal-analysis engine on circuits with known answers.
+"""Tests of emulate.analog.circuit: the nodal-analysis engine on circuits with known answers.
 
 References: first-order RC and voltage-divider formulas (any circuit-theory handbook,
 e.g. Horowitz & Hill, The Art of Electronics, 3rd ed., ch. 1), ideal controlled sources
@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from emulate.circuit import GROUND, Circuit
+from emulate.analog.circuit import GROUND, Circuit
 from emulate.errors import BadValueError, CircuitError
 
 # (R ohms, C farads) across the decades a twin-T uses

@@ -13,11 +13,13 @@ import pytest
 from click.testing import CliRunner
 
 import emulate
-from emulate import audio, spec, summary
+from emulate.audio import stream as audio
+from emulate.analog import spec
+from emulate.report import summary
 from emulate.cli import main
-from emulate.parts import parse_value
-from emulate.presets import PresetStore
-from emulate.response import measure
+from emulate.analog.parts import parse_value
+from emulate.work.presets import PresetStore
+from emulate.analog.response import measure
 
 SHIPPED = Path(emulate.__file__).parent.parent / "presets"
 SECONDS = 3.0

@@ -1,4 +1,4 @@
-"""Tests for emulate.depth: the ideal wet/dry mix, the mix around a real null, the depth pot."""
+"""Tests for emulate.dsp.depth: the ideal wet/dry mix, the mix around a real null, the depth pot."""
 
 import math
 
@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from emulate.depth import (
+from emulate.dsp.depth import (
     check_depth_db,
     check_mix,
     depth_db_to_mix,
@@ -15,13 +15,13 @@ from emulate.depth import (
     pot_depth_db,
     pot_position_for_depth,
 )
-from emulate.digital import design_sections
+from emulate.dsp.digital import design_sections
 from emulate.errors import BadValueError
-from emulate.networks import TwinT
-from emulate.response import measure
+from emulate.analog.networks import TwinT
+from emulate.analog.response import measure
 
 POT_OHMS = 100e3
-# Each end of a potentiometer track keeps 1 ppm of it (emulate.circuit.Circuit.potentiometer).
+# Each end of a potentiometer track keeps 1 ppm of it (emulate.analog.circuit.Circuit.potentiometer).
 END = 1e-6
 
 

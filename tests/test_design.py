@@ -1,4 +1,4 @@
-"""Tests of emulate.design: a twin-T from a target notch, snapped to preferred values.
+"""Tests of emulate.analog.design: a twin-T from a target notch, snapped to preferred values.
 
 References:
 * Analog Devices MT-225 (H. Zumbahlen, 2012): the balanced network and f0 = 1/(2 pi R C);
@@ -17,10 +17,10 @@ import math
 
 import pytest
 
-from emulate import parts
-from emulate.design import Design, design_twin_t
+from emulate.analog import parts
+from emulate.analog.design import Design, design_twin_t
 from emulate.errors import BadValueError
-from emulate.networks import TwinT
+from emulate.analog.networks import TwinT
 
 TARGETS_HZ = [100.0, 1000.0, 4500.0, 6300.0, 10e3]
 SERIES = ["E12", "E24", "E96"]

@@ -1,4 +1,4 @@
-"""Tests for emulate.digital: the bilinear stage and the fidelity target (mix and depth: test_depth.py)."""
+"""Tests for emulate.dsp.digital: the bilinear stage and the fidelity target (mix and depth: test_depth.py)."""
 
 import math
 
@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from emulate import digital
-from emulate.digital import (
+from emulate.dsp import digital
+from emulate.dsp.digital import (
     DigitalNotch,
     analog_null_hz,
     bilinear_prewarped_zpk,
@@ -197,8 +197,8 @@ class TestDesignSections:
             design.fs = 1.0
 
     def test_real_network_from_circuit_engine(self):
-        # Integration with emulate.networks (balanced twin-T, 600 ohm source, 10 kohm load).
-        networks = pytest.importorskip("emulate.networks")
+        # Integration with emulate.analog.networks (balanced twin-T, 600 ohm source, 10 kohm load).
+        networks = pytest.importorskip("emulate.analog.networks")
         twin = networks.TwinT.balanced(8000.0, r_ohms=10e3, source_ohms=600.0, load_ohms=10e3)
         z, p, k = twin.zpk()
         design = design_sections(z, p, k, 44100, notch_hz=8000.0)

@@ -24,9 +24,9 @@ from click.testing import CliRunner
 from scipy import signal
 
 from emulate.cli import main
-from emulate.networks import TwinT
-from emulate.parts import format_value
-from emulate.response import measure
+from emulate.analog.networks import TwinT
+from emulate.analog.parts import format_value
+from emulate.analog.response import measure
 
 RATES_HZ = (44100, 48000, 96000)
 NOTCHES_HZ = (50.0, 200.0, 1000.0, 3000.0, 6000.0, 9000.0, 12000.0)

@@ -1,10 +1,10 @@
-"""Tests for emulate.kernels against scipy.signal (reference library) and closed forms."""
+"""Tests for emulate.dsp.kernels against scipy.signal (reference library) and closed forms."""
 
 import numpy as np
 import pytest
 from scipy import signal
 
-from emulate.kernels import delay_line, ramp_blend, sos_filter
+from emulate.dsp.kernels import delay_line, ramp_blend, sos_filter
 
 
 def noise(frames, channels, seed=1):

@@ -1,4 +1,4 @@
-"""Tests of emulate.networks: the twin-T family against published and derived references.
+"""Tests of emulate.analog.networks: the twin-T family against published and derived references.
 
 References:
 * Analog Devices MT-225, "Twin T Notch Filter" (H. Zumbahlen, 2012): the balanced network
@@ -22,10 +22,10 @@ import sympy as sp
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from emulate.circuit import GROUND, Circuit
+from emulate.analog.circuit import GROUND, Circuit
 from emulate.errors import BadValueError, CircuitError
-from emulate.networks import PART_NAMES, TwinT, part_kind
-from emulate.response import db, measure
+from emulate.analog.networks import PART_NAMES, TwinT, part_kind
+from emulate.analog.response import db, measure
 
 SYMBOLS = sp.symbols("s R1 R2 R3 C1 C2 C3 R_s G_L K", positive=True)
 

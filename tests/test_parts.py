@@ -1,4 +1,4 @@
-"""Tests for emulate.parts: notation, IEC 60062 letter code, IEC 60063 series, tolerances."""
+"""Tests for emulate.analog.parts: notation, IEC 60062 letter code, IEC 60063 series, tolerances."""
 
 import itertools
 import math
@@ -8,12 +8,12 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from emulate import parts
+from emulate.analog import parts
 from emulate.errors import BadValueError, EmulateWarning
 
 # ---------------------------------------------------------------------------
 # IEC 60063:2015 tables, written out again here from the standard (from memory
-# of its tables, independently of emulate/parts.py) and compared element by
+# of its tables, independently of emulate/analog/parts.py) and compared element by
 # element. TestESeries also cross-checks them against the rounded formula
 # 10**(i/n) with the deviations the standard itself lists, so a slip in either
 # copy would show.

@@ -1,13 +1,14 @@
-"""Tests for emulate.plots: real PNG files of the right size, refusals, the digital overlay."""
+"""Tests for emulate.report.plots: real PNG files of the right size, refusals, the digital overlay."""
 
 import struct
 
 import numpy as np
 import pytest
 
-from emulate import plots, tolerance
+from emulate.report import plots
+from emulate.analog import tolerance
 from emulate.errors import BadValueError
-from emulate.networks import TwinT
+from emulate.analog.networks import TwinT
 
 NET = TwinT.balanced(6000.0, r_ohms=10e3)
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948 (PNG) file signature and IHDR layout

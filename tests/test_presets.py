@@ -1,4 +1,4 @@
-"""Tests for emulate.presets: the Preset record, its TOML form and the folder store."""
+"""Tests for emulate.work.presets: the Preset record, its TOML form and the folder store."""
 
 import dataclasses
 import math
@@ -9,9 +9,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from emulate import parts
+from emulate.analog import parts
 from emulate.errors import EmulateWarning, PresetError
-from emulate.presets import (
+from emulate.work.presets import (
     Preset,
     PresetStore,
     check_name,

@@ -1,12 +1,12 @@
-"""Tests for emulate.processor.NotchProcessor (plugin-style block processing)."""
+"""Tests for emulate.dsp.processor.NotchProcessor (plugin-style block processing)."""
 
 import numpy as np
 import pytest
 from scipy import signal
 
-from emulate.depth import mix_to_depth_db
+from emulate.dsp.depth import mix_to_depth_db
 from emulate.errors import BadValueError, CircuitError, EmulateError
-from emulate.processor import NotchProcessor
+from emulate.dsp.processor import NotchProcessor
 
 FS = 48000
 
@@ -51,7 +51,7 @@ class TestNotchProcessor:
         assert proc.latency_samples == 0 and np.isnan(proc.fidelity_db)
         proc.prepare(44100, 2)
         assert proc.latency_samples == 0
-        assert proc.fidelity_db <= 0.1  # the fidelity target of emulate.digital
+        assert proc.fidelity_db <= 0.1  # the fidelity target of emulate.dsp.digital
 
     @pytest.mark.parametrize("tolerance_db", [0.1, 0.05])
     @pytest.mark.parametrize("f0", [300.0, 6000.0, 12000.0])

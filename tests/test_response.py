@@ -1,4 +1,4 @@
-"""Tests of emulate.response: notch metrics and the twin-T rule checks.
+"""Tests of emulate.analog.response: notch metrics and the twin-T rule checks.
 
 References:
 * the analog second-order notch H(s) = (s^2 + w0^2)/(s^2 + (w0/Q) s + w0^2), the analog
@@ -19,8 +19,8 @@ import pytest
 import scipy.signal
 
 from emulate.errors import EmulateWarning
-from emulate.networks import TwinT
-from emulate.response import (AUDIO_BAND_HZ, NotchMetrics, check_twin_t, db, find_notch, measure,
+from emulate.analog.networks import TwinT
+from emulate.analog.response import (AUDIO_BAND_HZ, NotchMetrics, check_twin_t, db, find_notch, measure,
                               measure_batch, warn_all)
 
 

@@ -1,13 +1,14 @@
-"""Tests for emulate.sheet: contents, self-contained HTML, atomic publishing, refusals."""
+"""Tests for emulate.report.sheet: contents, self-contained HTML, atomic publishing, refusals."""
 
 import re
 
 import pytest
 
-from emulate import sheet, tolerance
-from emulate.design import design_twin_t
+from emulate.report import sheet
+from emulate.analog import tolerance
+from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
-from emulate.networks import TwinT
+from emulate.analog.networks import TwinT
 
 TOL = tolerance.Tolerances(0.01, 0.05)
 NET = TwinT.balanced(6000.0, r_ohms=10e3)

@@ -1,6 +1,6 @@
 """The speaker commands through click's CliRunner: sibilance, sweep, preset save|list|show|delete.
 
-Takes are invented (:func:`emulate.synth.voice_like_take`) and written into ``tmp_path``; the
+Takes are invented (:func:`emulate.voice.synth.voice_like_take`) and written into ``tmp_path``; the
 sibilance is planted at a known frequency so the commands' answers can be checked.
 """
 
@@ -14,7 +14,9 @@ import pytest
 from click.testing import CliRunner
 
 import emulate
-from emulate import audio, presets, synth
+from emulate.audio import stream as audio
+from emulate.work import presets
+from emulate.voice import synth
 from emulate.cli import main
 
 FS = 48000

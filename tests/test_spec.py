@@ -1,4 +1,4 @@
-"""Tests of emulate.spec: circuit and target tables <-> networks and designs.
+"""Tests of emulate.analog.spec: circuit and target tables <-> networks and designs.
 
 References: the values as the trade writes them, IEC 60062 letter code (4k7, 2n2); the
 balanced twin-T of Analog Devices MT-225 (R3 = R/2, C3 = 2C) for the round trips; the
@@ -11,10 +11,10 @@ import math
 
 import pytest
 
-from emulate.design import design_twin_t
+from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
-from emulate.networks import TwinT
-from emulate.spec import (CIRCUIT_KEYS, design_from_table, network_from_document, network_from_table,
+from emulate.analog.networks import TwinT
+from emulate.analog.spec import (CIRCUIT_KEYS, design_from_table, network_from_document, network_from_table,
                           read_circuit_file, table_from_network)
 
 BALANCED_TABLE = {"r1": "10k", "r2": "10k", "r3": "5k", "c1": "10n", "c2": "10n", "c3": "20n"}

@@ -1,4 +1,4 @@
-"""Tests of the speech analysis (emulate.speech).
+"""Tests of the speech analysis (emulate.voice.speech).
 
 Outside references, named beside each check: ANSI S3.5-1997 Table 3 (band importance),
 ITU-R BS.1770-4 Annex 1 (K-weighting coefficients, the -3.01 LKFS sine), AES17 (dBFS: a
@@ -15,7 +15,7 @@ import soundfile as sf
 from scipy import signal
 
 from emulate.errors import BadValueError
-from emulate.speech import (
+from emulate.voice.speech import (
     ANSI_S35_BANDS_HZ,
     ANSI_S35_IMPORTANCE,
     band_gains_db,
@@ -29,8 +29,8 @@ from emulate.speech import (
     most_sibilant_excerpt,
     sibilance_reduction_db,
 )
-from emulate import speech
-from emulate.synth import bursts_over_tone, take_schedule, voice_like_take
+from emulate.voice import speech
+from emulate.voice.synth import bursts_over_tone, take_schedule, voice_like_take
 
 RATES_HZ = [16000, 44100, 48000, 96000]
 CENTRES_HZ = [3000, 4500, 6000, 8000]

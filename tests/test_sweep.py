@@ -1,7 +1,7 @@
-"""Tests of the sweep: notch steps, renders, reels, summary and pick (emulate.sweep).
+"""Tests of the sweep: notch steps, renders, reels, summary and pick (emulate.work.sweep).
 
-Takes are invented by :func:`emulate.synth.voice_like_take` and written into ``tmp_path``
-by :func:`emulate.audio.write_array`; 2-3 s each, so a sweep of 2 takes x 3 settings
+Takes are invented by :func:`emulate.voice.synth.voice_like_take` and written into ``tmp_path``
+by :func:`emulate.audio.stream.write_array`; 2-3 s each, so a sweep of 2 takes x 3 settings
 takes about a second.
 """
 
@@ -15,7 +15,9 @@ import math
 import numpy as np
 import pytest
 
-from emulate import audio, speech, sweep, synth
+from emulate.audio import stream as audio
+from emulate.voice import speech, synth
+from emulate.work import sweep
 from emulate.errors import BadValueError
 
 FS = 48000

@@ -1,4 +1,4 @@
-"""Tests of the invented voice-like signals (emulate.synth).
+"""Tests of the invented voice-like signals (emulate.voice.synth).
 
 Reference tools: scipy.signal.welch (a general-purpose spectral estimator) for where the
 energy of the bursts lies; the AES17 dBFS convention (a full-scale sine reads 0 dBFS) for
@@ -12,7 +12,7 @@ import pytest
 from scipy import signal
 
 from emulate.errors import BadValueError
-from emulate.synth import bursts_over_tone, take_schedule, voice_like_take
+from emulate.voice.synth import bursts_over_tone, take_schedule, voice_like_take
 
 
 def _dbfs_rms(x):

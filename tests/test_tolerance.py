@@ -1,4 +1,4 @@
-"""Tests for emulate.tolerance: draws, the rational form, Monte Carlo, corners, builds, trim."""
+"""Tests for emulate.analog.tolerance: draws, the rational form, Monte Carlo, corners, builds, trim."""
 
 import math
 
@@ -7,10 +7,10 @@ import pytest
 import sympy as sp
 from scipy import stats
 
-from emulate import tolerance as tol
+from emulate.analog import tolerance as tol
 from emulate.errors import BadValueError
-from emulate.networks import PART_NAMES, TwinT
-from emulate.response import measure_batch
+from emulate.analog.networks import PART_NAMES, TwinT
+from emulate.analog.response import measure_batch
 
 NOMINAL = TwinT.balanced(1591.549430919, r_ohms=10e3)  # 10k / 10n, f0 = 1/(2 pi R C) (MT-225)
 ONE_PERCENT = tol.Tolerances(0.01, 0.01)
@@ -111,7 +111,7 @@ class TestRational:
 
 class TestMeasureBuilds:
     def test_matches_generic_measurement(self):
-        # reference: emulate.response.measure_batch on the nodal solve, full grid
+        # reference: emulate.analog.response.measure_batch on the nodal solve, full grid
         net = tol.builds(NOMINAL, tol.deviations(ONE_PERCENT, 9, range(20)))
         generic = measure_batch(net.response, search_hz=(1000, 2500))
         fast = tol.measure_builds(net, (1000, 2500), 1591.5)

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import click
 
-from emulate import plots, sheet, spec, tolerance
+from emulate.report import plots, sheet
+from emulate.analog import spec, tolerance
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
 
 

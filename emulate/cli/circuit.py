@@ -4,9 +4,11 @@ from __future__ import annotations
 
 import click
 
-from emulate import emulation, spec, summary
+from emulate.dsp import emulation
+from emulate.analog import spec
+from emulate.report import summary
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
-from emulate.response import check_twin_t, measure
+from emulate.analog.response import check_twin_t, measure
 
 
 @main.command()
@@ -26,7 +28,7 @@ def response(rate, plot_path, as_json, **options):
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)
     if plot_path:
-        from emulate import plots
+        from emulate.report import plots
 
         text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0)}"
     emit(as_json, payload, text)

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import click
 
-from emulate import demo, summary
+from emulate import demo
+from emulate.report import summary
 from emulate.cli.options import emit, json_option, main, presets_option, run_quietly
 
 

@@ -15,7 +15,9 @@ import warnings
 
 import click
 
-from emulate import __version__, presets, spec
+from emulate import __version__
+from emulate.work import presets
+from emulate.analog import spec
 from emulate.errors import EmulateError, EmulateWarning
 
 PART_HELP = {
@@ -132,7 +134,7 @@ def network_from_options(options: dict):
 
 def _at_depth(network, options):
     """The depth control set so that the notch lies at ``--depth`` dB (ideal mix or pot)."""
-    from emulate import depth
+    from emulate.dsp import depth
 
     if options.get("mix") is not None:
         raise click.UsageError("give either --mix or --depth, not both")

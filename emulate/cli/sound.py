@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import click
 
-from emulate import audio, emulation, spec, summary
+from emulate.audio import stream as audio
+from emulate.dsp import emulation
+from emulate.analog import spec
+from emulate.report import summary
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
 
 
@@ -29,7 +32,7 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
     network = network_from_options(options)
     if build is not None:
-        from emulate import tolerance
+        from emulate.analog import tolerance
 
         tolerances = tolerance.Tolerances.parse(r_tol, c_tol, distribution)
         network = tolerance.build_at(network, tolerances, build, seed)
@@ -45,8 +48,8 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
     if plot_path:
-        from emulate import plots
-        from emulate.response import measure
+        from emulate.report import plots
+        from emulate.analog.response import measure
 
         (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
         text += f"\n  wrote {plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz)}"

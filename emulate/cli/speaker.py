@@ -5,12 +5,15 @@ from __future__ import annotations
 
 import click
 
-from emulate import audio, presets, spec, summary, sweep
+from emulate.audio import stream as audio
+from emulate.work import presets, sweep
+from emulate.analog import spec
+from emulate.report import summary
 from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options,
                                  presets_option, progress, run_quietly, store_from)
-from emulate.parts import parse_value
-from emulate.response import measure
-from emulate.speech import combine_reports, find_sibilance
+from emulate.analog.parts import parse_value
+from emulate.analog.response import measure
+from emulate.voice.speech import combine_reports, find_sibilance
 
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
@@ -33,7 +36,7 @@ def sibilance(takes, band, plot_path, as_json):
     payload = summary.sibilance_payload(takes, reports, combined)
     text = summary.sibilance_text(takes, reports, combined)
     if plot_path:
-        from emulate import plots
+        from emulate.report import plots
 
         x, fs = audio.read_all(takes[0])
         notch = combined.suggested_notch_hz if combined.usable else None
@@ -91,7 +94,7 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
     csv_path, json_path = sweep.write_summary(result, out_dir)
     text = summary.sweep_text(result, csv_path, json_path)
     if plot_path:
-        from emulate import plots
+        from emulate.report import plots
 
         rows = [row | {"pick": row["setting"] == result.pick["setting"]} for row in result.rows]
         text += f"\nwrote {plots.plot_sweep(rows, plot_path)}"

@@ -23,10 +23,10 @@ import numpy as np
 import soundfile as sf
 from scipy import signal
 
-from emulate import kernels
-from emulate.digital import bilinear_prewarped_zpk, design_sections, fidelity_band_hz, fidelity_error_db
-from emulate.emulation import DESIGN_TOLERANCE_DB  # what rendering asks for
-from emulate.processor import NotchProcessor
+from emulate.dsp import kernels
+from emulate.dsp.digital import bilinear_prewarped_zpk, design_sections, fidelity_band_hz, fidelity_error_db
+from emulate.dsp.emulation import DESIGN_TOLERANCE_DB  # what rendering asks for
+from emulate.dsp.processor import NotchProcessor
 
 RATES = (16000, 22050, 32000, 44100, 48000, 96000)
 NOTCHES_HZ = (50.0, 300.0, 1000.0, 3000.0, 5000.0, 8000.0, 10000.0, 12000.0)

@@ -3,8 +3,8 @@
 Makes a 10-minute 48 kHz stereo 24-bit WAV of generated noise and tones (in a temporary
 folder, or --work DIR), then measures in one run, as medians of --repeats runs:
 
-* the bare streaming copy (:func:`emulate.audio.copy_file`), the reference time;
-* a render through :class:`emulate.processor.NotchProcessor` at default fidelity, a
+* the bare streaming copy (:func:`emulate.audio.stream.copy_file`), the reference time;
+* a render through :class:`emulate.dsp.processor.NotchProcessor` at default fidelity, a
   balanced twin-T notch at 6 kHz, H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2)
   (Analog Devices MT-225) as z, p, k;
 * a render through the plain prewarped bilinear filter of the same H(s)
@@ -48,7 +48,7 @@ import soundfile as sf
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from emulate.audio import copy_file, render_file  # noqa: E402
+from emulate.audio.stream import copy_file, render_file  # noqa: E402
 
 RATE = 48000
 NOTCH_HZ = 6000.0
@@ -85,7 +85,7 @@ class BilinearSos:
 def notch_processor():
     """The project's NotchProcessor at default fidelity, or None if it is missing."""
     try:
-        from emulate.processor import NotchProcessor
+        from emulate.dsp.processor import NotchProcessor
     except ImportError:
         return None
     z, p, k = twin_t_zpk()
@@ -168,16 +168,16 @@ for name in {modules!r}:
     importlib.import_module(name)
     steps[name] = rss_mb()
 import numpy as np
-from emulate import kernels
+from emulate.dsp import kernels
 kernels.sos_filter(np.zeros((1, 6)), np.zeros((4, 2)), np.zeros((1, 2, 2)), np.empty((4, 2)))
 steps["kernels run once"] = rss_mb()
 steps["scipy modules loaded"] = sorted({{m.split(".")[1] for m in sys.modules
                                         if m.startswith("scipy.") and not m.split(".")[1].startswith("_")}})
 print(json.dumps(steps))
 """
-RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "scipy.linalg", "numba", "emulate.kernels",
-                       "emulate.circuit", "emulate.cli.options", "emulate.digital",
-                       "emulate.processor", "emulate.cli.sound"]
+RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "scipy.linalg", "numba", "emulate.dsp.kernels",
+                       "emulate.analog.circuit", "emulate.cli.options", "emulate.dsp.digital",
+                       "emulate.dsp.processor", "emulate.cli.sound"]
 
 
 def _fresh_child(argv: list[str]) -> str:
@@ -265,7 +265,7 @@ def run(args) -> dict:
             method=getattr(proc.design, "method", None),
             sections=int(len(proc.design.sos)))
     else:
-        results["notch_processor"] = "emulate.processor.NotchProcessor not available"
+        results["notch_processor"] = "emulate.dsp.processor.NotchProcessor not available"
 
     # a 1-second take shows the fixed cost (interpreter, imports, kernels, design);
     # longer takes must not add to it if memory is bounded

@@ -1,8 +1,8 @@
 """Sweep benchmark: one core against two on a takes x settings sweep.
 
-Generates 2 invented voice-like takes (:func:`emulate.synth.voice_like_take`, sibilance
+Generates 2 invented voice-like takes (:func:`emulate.voice.synth.voice_like_take`, sibilance
 at 4.8 and 7.2 kHz), --seconds long (default 60), 48 kHz stereo 24-bit WAV, in a
-temporary folder (or --work DIR), then runs :func:`emulate.sweep.run_sweep` over
+temporary folder (or --work DIR), then runs :func:`emulate.work.sweep.run_sweep` over
 --settings notch settings (default 8, 3 to 12 kHz in equal ratios) with workers=1 and
 workers=2, alternating, --repeats times each (default 3, at least 3), and reports the
 median wall times and the speed-up (target: at least 1.6 on 2 cores). It also checks
@@ -31,7 +31,9 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from emulate import audio, sweep, synth  # noqa: E402  (emulate first: it sets OPENBLAS_NUM_THREADS)
+from emulate.audio import stream as audio  # noqa: E402
+from emulate.voice import synth  # noqa: E402
+from emulate.work import sweep  # noqa: E402
 
 import numpy as np  # noqa: E402
 

@@ -1,6 +1,6 @@
 """Tolerance benchmark: 10,000 Monte Carlo builds (and the 64 corners) on one core.
 
-Times :func:`emulate.tolerance.monte_carlo` on the balanced 10k / 10n twin-T
+Times :func:`emulate.analog.tolerance.monte_carlo` on the balanced 10k / 10n twin-T
 (f0 = 1/(2 pi R C) = 1591.5 Hz, Analog Devices MT-225) with 1 % resistors and
 5 % capacitors, uniform; and, separately, the trim sizing.  One core: the thread
 counts of numba, OpenMP and OpenBLAS are set to 1 before numpy is imported.
@@ -26,8 +26,8 @@ import statistics  # noqa: E402
 import time  # noqa: E402
 from pathlib import Path  # noqa: E402
 
-from emulate import tolerance  # noqa: E402
-from emulate.networks import TwinT  # noqa: E402
+from emulate.analog import tolerance  # noqa: E402
+from emulate.analog.networks import TwinT  # noqa: E402
 
 TARGET_S = 2.0
 

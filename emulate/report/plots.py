@@ -5,8 +5,8 @@ canvas (headless, no global pyplot state), in one house style: white ground,
 light grid, log frequency axes in Hz, levels in dB, ``FIG_SIZE_PX`` pixels.
 Each function writes one PNG atomically (a temporary file beside ``path``,
 then a rename) and returns the path.  Nothing here measures anything new: the
-numbers come from :mod:`emulate.response`, :mod:`emulate.tolerance`,
-:mod:`emulate.emulation` and the caller's rows.
+numbers come from :mod:`emulate.analog.response`, :mod:`emulate.analog.tolerance`,
+:mod:`emulate.dsp.emulation` and the caller's rows.
 """
 
 from __future__ import annotations
@@ -21,8 +21,8 @@ from scipy import signal
 
 from emulate.errors import BadValueError
 from emulate.files import atomic_path
-from emulate.parts import format_value
-from emulate.response import db, measure
+from emulate.analog.parts import format_value
+from emulate.analog.response import db, measure
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -87,10 +87,10 @@ def _level_db(h) -> np.ndarray:
 def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
     """The emulation's complex response at ``f_hz`` (Hz) and its fidelity figure (dB).
 
-    Read from the impulse response of :func:`emulate.emulation.processor_for`
+    Read from the impulse response of :func:`emulate.dsp.emulation.processor_for`
     (mix and depth control included), ``IMPULSE_SECONDS`` long.
     """
-    from emulate.emulation import processor_for
+    from emulate.dsp.emulation import processor_for
 
     processor = processor_for(network)
     processor.prepare(fs, 1)
@@ -126,7 +126,7 @@ def plot_response(network, path, fs: float | None = None) -> Path:
 
     Example
     -------
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog.networks import TwinT
     >>> import tempfile, pathlib
     >>> out = pathlib.Path(tempfile.mkdtemp()) / "r.png"
     >>> plot_response(TwinT.balanced(1000.0, r_ohms=10e3), out).stat().st_size > 10000
@@ -172,7 +172,7 @@ def plot_tolerance(result, path) -> Path:
 
     Parameters
     ----------
-    result : emulate.tolerance.ToleranceResult
+    result : emulate.analog.tolerance.ToleranceResult
     path : str or Path
         PNG to write.
 
@@ -182,8 +182,8 @@ def plot_tolerance(result, path) -> Path:
 
     Example
     -------
-    >>> from emulate import tolerance
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog import tolerance
+    >>> from emulate.analog.networks import TwinT
     >>> import tempfile, pathlib
     >>> r = tolerance.monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), tolerance.Tolerances(0.01, 0.05), draws=200)
     >>> plot_tolerance(r, pathlib.Path(tempfile.mkdtemp()) / "t.png").suffix

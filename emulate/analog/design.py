@@ -23,9 +23,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from emulate import parts
-from emulate.networks import TwinT, part_kind
-from emulate.response import NotchMetrics, measure, measure_batch
+from emulate.analog import parts
+from emulate.analog.networks import TwinT, part_kind
+from emulate.analog.response import NotchMetrics, measure, measure_batch
 from emulate.validate import check_range
 
 DEFAULT_IMPEDANCE_OHMS = 10e3
@@ -84,7 +84,7 @@ def design_twin_t(notch_hz: float, *, q: float | None = None, impedance_ohms: fl
     series, cap_series : IEC 60063 series for resistors and capacitors.
     source_ohms, load_ohms : what drives and loads the built network.
 
-    Does not pick tolerances; see :mod:`emulate.tolerance`.
+    Does not pick tolerances; see :mod:`emulate.analog.tolerance`.
 
     Raises
     ------

@@ -3,7 +3,7 @@
 Per block, top to bottom:
 
 1. validate   shape (frames, channels) with the prepared channel count, finite samples.
-2. wet        cascaded sections of the current design (:func:`emulate.kernels.sos_filter`).
+2. wet        cascaded sections of the current design (:func:`emulate.dsp.kernels.sos_filter`).
 3. crossfade  after :meth:`NotchProcessor.set_circuit`, the old design keeps running and
               its output fades linearly into the new one's over the smoothing time.
 4. dry        the input, delayed by the design latency (0 for every current design).
@@ -20,9 +20,9 @@ import math
 
 import numpy as np
 
-from emulate import kernels
-from emulate.depth import check_mix
-from emulate.digital import check_sample_rate_hz, design_sections
+from emulate.dsp import kernels
+from emulate.dsp.depth import check_mix
+from emulate.dsp.digital import check_sample_rate_hz, design_sections
 from emulate.errors import BadValueError, EmulateError
 from emulate.validate import check_count, check_range
 
@@ -64,8 +64,8 @@ class NotchProcessor:
     smoothing_ms : float, optional
         Time in ms for mix changes and circuit crossfades, >= 0 (0: jump).
     tolerance_db : float, optional
-        Fidelity tolerance passed to :func:`emulate.digital.design_sections`, > 0 dB
-        (default 0.1 dB, the fidelity target; :func:`emulate.emulation.processor_for`
+        Fidelity tolerance passed to :func:`emulate.dsp.digital.design_sections`, > 0 dB
+        (default 0.1 dB, the fidelity target; :func:`emulate.dsp.emulation.processor_for`
         asks for 0.05 dB for margin: on the bench_fidelity grid that costs one more
         section in 20 of 246 designs, never more than 3 sections in all).
 

@@ -2,11 +2,11 @@
 
 The pipeline, top to bottom:
 
-1. measure   the network as built (:func:`emulate.response.measure`).
+1. measure   the network as built (:func:`emulate.analog.response.measure`).
 2. compose   the sheet as a list of blocks (headings, paragraphs, tables, lists,
              pictures), written once and rendered twice, so the Markdown and the
              HTML always say the same thing.
-3. draw      the pictures (:mod:`emulate.plots`) into a temporary folder beside
+3. draw      the pictures (:mod:`emulate.report.plots`) into a temporary folder beside
              ``out_dir``.
 4. render    sheet.md (pictures as relative links) and sheet.html (inline CSS,
              pictures as base64 ``data:`` URIs: the single file opens anywhere).
@@ -27,11 +27,12 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 
-from emulate import parts, plots
+from emulate.analog import parts
+from emulate.report import plots
 from emulate.errors import BadValueError
 from emulate.files import atomic_path
-from emulate.networks import PART_NAMES, TwinT, part_kind
-from emulate.response import measure
+from emulate.analog.networks import PART_NAMES, TwinT, part_kind
+from emulate.analog.response import measure
 
 DEFAULT_TITLE = "Twin-T notch: build sheet"
 C0G_LIMIT_FARADS = 1e-9  # C0G/NP0 ceramics up to about 1 nF (common practice, no source)
@@ -277,13 +278,13 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
         not empty unless ``force``.
     network : TwinT
         The network as built (one value per part).
-    tolerances : emulate.tolerance.Tolerances
+    tolerances : emulate.analog.tolerance.Tolerances
         The tolerances of the parts to buy.
-    design : emulate.design.Design, optional
+    design : emulate.analog.design.Design, optional
         Adds the target and how R3/C3 are made up.
-    tolerance_result : emulate.tolerance.ToleranceResult, optional
+    tolerance_result : emulate.analog.tolerance.ToleranceResult, optional
         Adds percentiles, yield, corners and the envelope picture.
-    trim : emulate.tolerance.TrimSuggestion, optional
+    trim : emulate.analog.tolerance.TrimSuggestion, optional
         Splits R3 into the fixed part and the trimmer.
     title : str
         The sheet's heading.
@@ -303,7 +304,7 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     Example
     -------
     >>> import tempfile, pathlib
-    >>> from emulate.tolerance import Tolerances
+    >>> from emulate.analog.tolerance import Tolerances
     >>> out = pathlib.Path(tempfile.mkdtemp()) / "sheet"
     >>> sorted(p.name for p in write_sheet(out, TwinT.balanced(6000.0, r_ohms=10e3),
     ...                                    tolerances=Tolerances(0.01, 0.05)).iterdir())

@@ -1,10 +1,10 @@
 """Hear a network: the analog model handed to the plugin-style processor.
 
-The one place where :mod:`emulate.networks` meets :mod:`emulate.processor`:
+The one place where :mod:`emulate.analog.networks` meets :mod:`emulate.dsp.processor`:
 
 the whole network, its depth control included, is emulated as one transfer
 function and the processor runs at mix 1. An ideal wet/dry mix is part of the
-analog model (``(1-mix) + mix*H``, built in :mod:`emulate.networks`), and so is a
+analog model (``(1-mix) + mix*H``, built in :mod:`emulate.analog.networks`), and so is a
 real depth potentiometer.
 
 Why not mix in the processor: the fitted digital sections match the analog
@@ -19,9 +19,9 @@ The digital notch is prewarped at the analog network's measured notch.
 
 from __future__ import annotations
 
-from emulate.networks import TwinT
-from emulate.processor import NotchProcessor
-from emulate.response import measure
+from emulate.analog.networks import TwinT
+from emulate.dsp.processor import NotchProcessor
+from emulate.analog.response import measure
 
 
 DESIGN_TOLERANCE_DB = 0.05  # half the 0.1 dB fidelity target: margin for the worst grid cases

@@ -13,10 +13,10 @@ The pipeline, top to bottom:
                key mixed from s.  So ``build_at(..., which=37)`` rebuilds build 37
                alone, and 10,000 draws are one vectorised expression.
 3. rational    every build's exact H(s) = N(s) / D(s) as polynomials
-               (:class:`emulate.circuit.Rational`, ``TwinT.rational``): evaluating a
+               (:class:`emulate.analog.circuit.Rational`, ``TwinT.rational``): evaluating a
                cubic is ~100x cheaper than solving the nodal equations at each
                frequency.
-4. measure     :func:`emulate.response.measure_batch` on that rational form, in a
+4. measure     :func:`emulate.analog.response.measure_batch` on that rational form, in a
                narrow band around the nominal notch (the notch of a build moves by
                no more than a few times the tolerances) with a coarse grid and the
                usual golden-section refinement.  Depths below the passband are
@@ -45,10 +45,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import special, stats
 
-from emulate import parts
+from emulate.analog import parts
 from emulate.errors import BadValueError
-from emulate.networks import PART_NAMES, TwinT
-from emulate.response import measure_batch
+from emulate.analog.networks import PART_NAMES, TwinT
+from emulate.analog.response import measure_batch
 from emulate.validate import check_range
 
 DISTRIBUTIONS = ("uniform", "normal")
@@ -107,7 +107,7 @@ class Tolerances:
 
     @classmethod
     def parse(cls, resistors="1%", capacitors="5%", distribution: str = "uniform") -> "Tolerances":
-        """Read tolerances as written ("1%", "F", 0.01) by :func:`emulate.parts.parse_tolerance`."""
+        """Read tolerances as written ("1%", "F", 0.01) by :func:`emulate.analog.parts.parse_tolerance`."""
         return cls(parts.parse_tolerance(resistors), parts.parse_tolerance(capacitors),
                    str(distribution).strip().lower())
 

@@ -9,9 +9,9 @@ import math
 
 import numpy as np
 
-from emulate.networks import part_kind
-from emulate.parts import format_value
-from emulate.response import db
+from emulate.analog.networks import part_kind
+from emulate.analog.parts import format_value
+from emulate.analog.response import db
 
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)

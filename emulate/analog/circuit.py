@@ -20,7 +20,7 @@ pairs that cancel (uncontrollable or unobservable modes) are removed.
 
 Element values may be arrays of one common length (a batch of builds, as a
 Monte Carlo draw); :meth:`Circuit.response` then returns one row per build.
-Nothing here knows about twin-T networks; see :mod:`emulate.networks`.
+Nothing here knows about twin-T networks; see :mod:`emulate.analog.networks`.
 """
 
 from __future__ import annotations

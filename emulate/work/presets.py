@@ -46,7 +46,8 @@ from pathlib import Path
 
 import tomli_w
 
-from emulate import files, parts, spec
+from emulate import files
+from emulate.analog import parts, spec
 from emulate.errors import BadValueError, EmulateWarning, PresetError
 from emulate.validate import check_range
 
@@ -179,7 +180,7 @@ def _table(where: str, value: object, allowed: tuple[str, ...]) -> dict:
 
 
 def _checked_by_spec(name: str, value: object, check) -> dict | None:
-    """A [circuit] or [target] table checked by the one reader of that layout (emulate.spec)."""
+    """A [circuit] or [target] table checked by the one reader of that layout (emulate.analog.spec)."""
     if value is None:
         return None
     table = _table(name, value, CIRCUIT_KEYS if name == "circuit" else TARGET_KEYS)
@@ -254,7 +255,7 @@ class Preset:
         e.g. ``{"r1": "3k3", ..., "c3": "22n", "source": "600"}``; ``bootstrap``
         (K, a float in [0, 1)) makes it the active network. Values are kept as
         written (numbers become their text); :meth:`network` builds it. Both
-        tables are checked by :mod:`emulate.spec`, the one reader of that layout.
+        tables are checked by :mod:`emulate.analog.spec`, the one reader of that layout.
     target : dict or None
         A design target: ``notch`` (Hz, e.g. ``"6.3k"``; 1 Hz..100 kHz)
         required; ``q`` (0.25..20), ``series`` and ``cap_series`` (E3..E192),
@@ -312,7 +313,7 @@ class Preset:
             object.__setattr__(self, key, value)
 
     def network(self):
-        """The :class:`emulate.networks.TwinT` this preset describes, at its mix.
+        """The :class:`emulate.analog.networks.TwinT` this preset describes, at its mix.
 
         Example
         -------

@@ -1,4 +1,4 @@
-"""The twin-T notch family, built as netlists on :mod:`emulate.circuit`.
+"""The twin-T notch family, built as netlists on :mod:`emulate.analog.circuit`.
 
 Topology (designators as on a schematic)::
 
@@ -20,7 +20,7 @@ Topology (designators as on a schematic)::
   straight across the bare network would bridge the null.
 
 Every response runs from the source's open-circuit voltage to the voltage across
-the load (or the mixer output). Nothing here measures; see :mod:`emulate.response`.
+the load (or the mixer output). Nothing here measures; see :mod:`emulate.analog.response`.
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from emulate.circuit import GROUND, SOURCE, Circuit
+from emulate.analog.circuit import GROUND, SOURCE, Circuit
 from emulate.errors import BadValueError
 from emulate.validate import check_range
 
@@ -68,7 +68,7 @@ class TwinT:
         potentiometer, ohms, with its wiper at position ``mix``.
 
     Does not check that the values are preferred values or that the network
-    is balanced; :mod:`emulate.response` reports that.
+    is balanced; :mod:`emulate.analog.response` reports that.
 
     Example
     -------
@@ -177,7 +177,7 @@ class TwinT:
         return self._compiled.response(f_hz)
 
     def rational(self, f_ref_hz: float):
-        """Each build's exact H(s) as polynomials (:class:`emulate.circuit.Rational`)."""
+        """Each build's exact H(s) as polynomials (:class:`emulate.analog.circuit.Rational`)."""
         return self._compiled.rational(f_ref_hz)
 
     @functools.cached_property

@@ -6,7 +6,7 @@ frequency), the band edges are where ``|H|`` falls 3 dB below the passband on
 each side (bisection), and Q = notch / (upper - lower), the usual definition for a
 band-stop (Analog Devices MT-225 uses it for the twin-T).
 
-Every search is vectorised over builds so that :mod:`emulate.tolerance` measures
+Every search is vectorised over builds so that :mod:`emulate.analog.tolerance` measures
 thousands of Monte Carlo draws at once with the same code.
 """
 
@@ -67,7 +67,7 @@ def measure(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) ->
 
     Example
     -------
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog.networks import TwinT
     >>> m = measure(TwinT.balanced(1000.0, r_ohms=10e3).response)
     >>> round(m.notch_hz, 3), round(m.q, 4)
     (1000.0, 0.25)
@@ -175,7 +175,7 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
 
 
 def _ohms(value: float) -> str:
-    from emulate.parts import format_value
+    from emulate.analog.parts import format_value
 
     return format_value(value, "resistance")
 
@@ -187,7 +187,7 @@ def warn_all(found: list[EmulateWarning]) -> None:
 
 
 def _unbalanced_message(network, mismatch, metrics) -> str:
-    from emulate.parts import format_value
+    from emulate.analog.parts import format_value
 
     r = (network.r1 + network.r2) / 2
     c = (network.c1 + network.c2) / 2

@@ -35,10 +35,10 @@ import math
 import tomllib
 from pathlib import Path
 
-from emulate import parts
-from emulate.design import IMPEDANCE_RANGE_OHMS, NOTCH_RANGE_HZ, Q_RANGE, Design, design_twin_t
+from emulate.analog import parts
+from emulate.analog.design import IMPEDANCE_RANGE_OHMS, NOTCH_RANGE_HZ, Q_RANGE, Design, design_twin_t
 from emulate.errors import BadValueError
-from emulate.networks import PART_NAMES, TwinT, part_kind
+from emulate.analog.networks import PART_NAMES, TwinT, part_kind
 from emulate.validate import check_range
 
 CIRCUIT_KEYS = PART_NAMES + ("source", "load", "bootstrap", "depth_pot")
@@ -82,7 +82,7 @@ def network_surroundings(table: dict, where: str = "") -> dict:
 
 def design_from_table(table: dict, *, source_ohms: float = 0.0, load_ohms: float = math.inf,
                       where: str = "target") -> Design:
-    """Design from a ``[target]`` table; see :func:`emulate.design.design_twin_t`."""
+    """Design from a ``[target]`` table; see :func:`emulate.analog.design.design_twin_t`."""
     notch, options = target_arguments(table, where=where)
     return design_twin_t(notch, source_ohms=source_ohms, load_ohms=load_ohms, **options)
 
@@ -173,7 +173,7 @@ def network_from_document(document: dict, *, where: str, mix: float | None = Non
 
 
 def preset_document(preset) -> dict:
-    """A preset (:class:`emulate.presets.Preset`) as a circuit document (mix, tables)."""
+    """A preset (:class:`emulate.work.presets.Preset`) as a circuit document (mix, tables)."""
     document = {"mix": preset.mix}
     for table in ("circuit", "target"):
         if getattr(preset, table):

@@ -1,6 +1,6 @@
 """Depth control: how far the notch goes down for a setting of the variable attenuation.
 
-Two controls, as :class:`emulate.networks.TwinT` models them:
+Two controls, as :class:`emulate.analog.networks.TwinT` models them:
 
 * the ideal wet/dry mix ``(1 - m) + m H``, the processor's own mix (dry = the
   source voltage). At an exact null (H = 0) the level there is 1 - m, so
@@ -11,7 +11,7 @@ Two controls, as :class:`emulate.networks.TwinT` models them:
 * a real linear potentiometer wired from the network input to its (buffered)
   output with its wiper buffered, position 0 = dry, 1 = full notch:
   :func:`pot_depth_db`, :func:`pot_position_for_depth`. Each end of the track
-  keeps 1 ppm of end resistance (:meth:`emulate.circuit.Circuit.potentiometer`),
+  keeps 1 ppm of end resistance (:meth:`emulate.analog.circuit.Circuit.potentiometer`),
   so position 1 reaches about -120 dB, not the network's own null.
 
 Every ``depth_db`` here is a level at the notch in dB, 0 or below (-20 means the
@@ -25,7 +25,7 @@ import math
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.response import measure
+from emulate.analog.response import measure
 from emulate.validate import check_range
 
 __all__ = [
@@ -183,7 +183,7 @@ def mix_for_depth(network, depth_db) -> float:
 
     Parameters
     ----------
-    network : emulate.networks.TwinT
+    network : emulate.analog.networks.TwinT
         The network; its own ``mix`` and depth pot are ignored.
     depth_db : float
         Level at the notch relative to the dry signal, dB, -inf to 0.
@@ -201,7 +201,7 @@ def mix_for_depth(network, depth_db) -> float:
 
     Example
     -------
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog.networks import TwinT
     >>> round(mix_for_depth(TwinT.balanced(1000.0, r_ohms=10e3), -20.0), 6)
     0.9
     """
@@ -248,14 +248,14 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     """Level at the notch, dB relative to the passband, with the depth pot at ``position``.
 
     Measures ``network.replace(depth_pot_ohms=pot_ohms, mix=position)`` with
-    :func:`emulate.response.measure` and returns ``-depth_below_passband_db``
+    :func:`emulate.analog.response.measure` and returns ``-depth_below_passband_db``
     (the notch against the lower of the two passband gains). Position 1 is the
     full notch through the track's 1 ppm end resistance: about
     20 log10(1e-6) = -120 dB for an exact null. Does not cache.
 
     Parameters
     ----------
-    network : emulate.networks.TwinT
+    network : emulate.analog.networks.TwinT
         The network; its ``mix`` is replaced by ``position``.
     position : float
         Wiper position, 0 (at the network input: dry) to 1 (at its output: full notch).
@@ -274,7 +274,7 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
 
     Example
     -------
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog.networks import TwinT
     >>> round(pot_depth_db(TwinT.balanced(1000.0, r_ohms=10e3), 0.9, pot_ohms=100e3), 3)
     -20.0
     """
@@ -300,7 +300,7 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
 
     Parameters
     ----------
-    network : emulate.networks.TwinT
+    network : emulate.analog.networks.TwinT
         The network; its ``mix`` is ignored.
     depth_db : float
         Target level at the notch relative to the passband, dB, between the
@@ -321,7 +321,7 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
 
     Example
     -------
-    >>> from emulate.networks import TwinT
+    >>> from emulate.analog.networks import TwinT
     >>> round(pot_position_for_depth(TwinT.balanced(1000.0, r_ohms=10e3), -20.0, pot_ohms=100e3), 4)
     0.9
     """

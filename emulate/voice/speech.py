@@ -439,7 +439,7 @@ def find_sibilance(x, fs: float, *, search_band_hz=DEFAULT_SEARCH_BAND_HZ) -> Si
 
     Example
     -------
-    >>> from emulate.synth import voice_like_take
+    >>> from emulate.voice.synth import voice_like_take
     >>> r = find_sibilance(voice_like_take(48000, 3.0, pitch_hz=120, sibilance_hz=6000), 48000)
     >>> r.usable and 5000 < r.peak_hz < 7000
     True
@@ -504,7 +504,7 @@ def combine_reports(reports) -> SibilanceReport:
 
     Example
     -------
-    >>> from emulate.synth import voice_like_take
+    >>> from emulate.voice.synth import voice_like_take
     >>> takes = [voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=6000, seed=s) for s in (1, 2)]
     >>> r = combine_reports([find_sibilance(t, 48000) for t in takes])
     >>> round(r.seconds, 1)
@@ -571,7 +571,7 @@ def most_sibilant_excerpt(x, fs: float, seconds: float = 3.0, *, search_band_hz=
 
     Example
     -------
-    >>> from emulate.synth import voice_like_take
+    >>> from emulate.voice.synth import voice_like_take
     >>> x = voice_like_take(48000, 6.0, pitch_hz=120, sibilance_hz=6000)
     >>> a, b = most_sibilant_excerpt(x, 48000, 2.0)
     >>> b - a

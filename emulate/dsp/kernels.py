@@ -2,7 +2,7 @@
 
 Kernels only: nopython, ``cache=True``, float64 ``(frames, channels)`` arrays
 preallocated by the caller, state updated in place, no checks inside.  The
-Python wrapper (:mod:`emulate.processor`) validates shapes and values.
+Python wrapper (:mod:`emulate.dsp.processor`) validates shapes and values.
 Every kernel is a per-sample recurrence, so splitting a signal into blocks and
 carrying the state gives the same output as one call on the whole signal.
 """

@@ -5,14 +5,14 @@ The pipeline, top to bottom:
 1. settings: one notch frequency per step (geometric steps from ``from_hz`` to
    ``to_hz``, or an explicit list), the rest held (series, impedance, Q, mix,
    source, load); each is designed and snapped to preferred values
-   (:func:`emulate.design.design_twin_t`), so the as-built notch is what these
+   (:func:`emulate.analog.design.design_twin_t`), so the as-built notch is what these
    parts give, not the target;
 2. jobs: take x setting, rendered in parallel over the machine's cores
    (processes: each job designs its processor, streams the take through it into
    the output folder, and measures dry against wet);
 3. measures per job: sibilance-band reduction (the band the finder found in
    that take), loudness change (ITU-R BS.1770 via pyloudnorm) and intelligibility
-   cost (ANSI S3.5-1997 band importance; :func:`emulate.speech.intelligibility_cost`);
+   cost (ANSI S3.5-1997 band importance; :func:`emulate.voice.speech.intelligibility_cost`);
 4. reels: per take, the most sibilant few seconds dry, then at each setting in
    order, separated by short silences;
 5. summary: per setting the means over takes, and a pick with its reason.
@@ -35,10 +35,13 @@ from pathlib import Path
 
 import numpy as np
 
-from emulate import audio, emulation, files, speech
-from emulate.design import design_twin_t
+from emulate import files
+from emulate.audio import stream as audio
+from emulate.dsp import emulation
+from emulate.voice import speech
+from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
-from emulate.response import measure
+from emulate.analog.response import measure
 from emulate.validate import check_count, check_range
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
@@ -311,7 +314,7 @@ def write_reel(reel_path, dry, wets, fs: int, subtype: str) -> Path:
     Raises
     ------
     BadValueError, AudioFileError
-        As :func:`emulate.audio.write_array`.
+        As :func:`emulate.audio.stream.write_array`.
 
     Example
     -------

@@ -1,0 +1,1 @@
+"""What a person reads: plots, schematic, netlist, build sheet, text/JSON summaries."""

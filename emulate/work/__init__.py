@@ -1,0 +1,1 @@
+"""Work over many takes: sweeps, batch plans and runners, presets per speaker."""
