@@ -4,7 +4,8 @@ Scenario (invented): *Low Tide Notes*, a weekly talk podcast recorded in the
 one-room studio of Saltmarsh Community Radio. Two co-hosts, both made up:
 Orrin, whose /s/ sits low (near 4.8 kHz), and Tamsin, whose /s/ is bright (near
 7.2 kHz). Their takes are synthesised here (:mod:`emulate.voice.synth`); nothing is
-recorded from anyone. Each host has a preset in the repository's ``presets/``.
+recorded from anyone. Each host has a preset shipped with emulate (the repository's
+``presets/``, installed as package data).
 
 The pipeline, top to bottom: synthesise each take -> find its sibilance ->
 load the host's preset -> render the take through the preset's circuit, at full
@@ -13,23 +14,27 @@ notch and at the preset's mix -> measure what changed -> say what to listen for.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from emulate import files
 from emulate.audio import stream as audio
 from emulate.dsp import emulation
 from emulate.report import plots
 from emulate.voice import speech, synth
 from emulate.analog import spec
 from emulate.errors import PresetError
-from emulate.work.presets import PresetStore, default_presets_dir
+from emulate.validate import check_range
+from emulate.work.presets import PresetStore, default_presets_dir, shipped_presets_dir
 from emulate.analog.response import measure
 
 DEMO_RATE_HZ = 48000
 DEMO_SECONDS = 12.0
 MORE_TAKES = 2  # extra takes per host, for trying the sibilance, sweep and preset commands
+SECONDS_RANGE = (1.0, 600.0)  # a take needs some syllables; longer only waits
 
 
 @dataclass(frozen=True)
@@ -72,26 +77,50 @@ class DemoTake:
 
 def presets_folder(presets_dir=None) -> Path:
     """Where the demo presets are: ``presets_dir``, the default folder, or the repository's."""
-    candidates = [Path(presets_dir)] if presets_dir else [default_presets_dir(), _repository_presets()]
+    candidates = [Path(presets_dir)] if presets_dir else [default_presets_dir(), shipped_presets_dir()]
     for folder in candidates:
         if all((folder / f"{s.preset}.toml").is_file() for s in SPEAKERS):
             return folder
     wanted = ", ".join(f"{s.preset}.toml" for s in SPEAKERS)
     raise PresetError(f"the demo presets ({wanted}) are in none of {', '.join(map(str, candidates))}; "
-                      "run from the repository folder or set EMULATE_PRESETS_DIR")
+                      "leave out --presets to use the ones shipped with emulate")
 
 
-def _repository_presets() -> Path:
-    return Path(__file__).resolve().parent.parent / "presets"
+def run_demo(out_dir, *, presets_dir=None, seconds: float = DEMO_SECONDS, progress=None,
+             force: bool = False) -> list[DemoTake]:
+    """Write the takes, renders and pictures into the folder ``out_dir``, all of it or nothing.
 
+    Everything is checked first (seconds, presets, the folder: a non-empty one needs
+    ``force`` and is then replaced as a whole once the new demo is complete); the
+    folder is written beside ``out_dir`` and renamed onto it at the end, so an error
+    or an interruption leaves nothing new behind.
 
-def run_demo(out_dir, *, presets_dir=None, seconds: float = DEMO_SECONDS, progress=None) -> list[DemoTake]:
-    """Write the takes and renders into ``out_dir`` (created) and return what was done."""
+    Raises
+    ------
+    BadValueError, PresetError, emulate.errors.OutputRefusedError
+        Before anything is written.
+    """
     out_dir = Path(out_dir)
+    check_range("demo seconds", seconds, *SECONDS_RANGE)
     store = PresetStore(presets_folder(presets_dir))
-    for folder in ("takes", "renders", "pictures"):
-        (out_dir / folder).mkdir(parents=True, exist_ok=True)
-    return [_demo_take(out_dir, speaker, store, seconds, progress) for speaker in SPEAKERS]
+    files.check_new_folder(out_dir, force=force)
+    with files.parents_made(out_dir), files.atomic_path(out_dir) as staging:
+        for folder in ("takes", "renders", "pictures"):
+            (staging / folder).mkdir(parents=True)
+        takes = [_demo_take(staging, speaker, store, seconds, progress) for speaker in SPEAKERS]
+    return [_moved(take, staging, out_dir) for take in takes]
+
+
+def _moved(value, staging: Path, out_dir: Path):
+    """``value`` with every path inside ``staging`` renamed to the same path under ``out_dir``."""
+    if isinstance(value, Path):
+        return out_dir / value.relative_to(staging) if staging in value.parents else value
+    if isinstance(value, tuple):
+        return tuple(_moved(item, staging, out_dir) for item in value)
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return dataclasses.replace(value, **{f.name: _moved(getattr(value, f.name), staging, out_dir)
+                                             for f in dataclasses.fields(value) if f.init})
+    return value
 
 
 def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:

@@ -25,5 +25,9 @@ class PresetError(EmulateError):
     """A preset is missing, malformed or would be overwritten; the store is untouched."""
 
 
+class OutputRefusedError(BadValueError):
+    """An output may not be written where asked (it exists, or could never be a file); nothing was written."""
+
+
 class EmulateWarning(UserWarning):
     """This works but is probably not what you want (unbalanced network, heavy load...)."""

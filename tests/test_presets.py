@@ -49,13 +49,27 @@ class TestDefaultPresetsDir:
         assert default_presets_dir() == tmp_path / "mine"
 
     @pytest.mark.parametrize("value", [None, "", "  "])
-    def test_else_presets_in_the_working_directory(self, monkeypatch, tmp_path, value):
+    def test_else_the_per_user_data_folder(self, monkeypatch, tmp_path, value):
+        # XDG Base Directory convention (common practice): $XDG_DATA_HOME/<app>/...
         if value is None:
             monkeypatch.delenv("EMULATE_PRESETS_DIR", raising=False)
         else:
             monkeypatch.setenv("EMULATE_PRESETS_DIR", value)
+        monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "data"))
         monkeypatch.chdir(tmp_path)
-        assert default_presets_dir() == tmp_path / "presets"
+        assert default_presets_dir() == tmp_path / "data" / "emulate" / "presets"
+
+    def test_without_xdg_data_home_under_the_home_folder(self, monkeypatch, tmp_path):
+        monkeypatch.delenv("EMULATE_PRESETS_DIR", raising=False)
+        monkeypatch.delenv("XDG_DATA_HOME", raising=False)
+        monkeypatch.setenv("HOME", str(tmp_path))
+        assert default_presets_dir() == tmp_path / ".local" / "share" / "emulate" / "presets"
+
+    def test_never_the_repository_presets_folder(self, monkeypatch):
+        # regression: the README walk-through saved into the repository's shipped presets/
+        monkeypatch.delenv("EMULATE_PRESETS_DIR", raising=False)
+        monkeypatch.chdir(SHIPPED.parent)
+        assert default_presets_dir().resolve() != SHIPPED.resolve()
 
 
 class TestCheckName:

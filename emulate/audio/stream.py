@@ -36,7 +36,10 @@ from __future__ import annotations
 
 import math
 import os
+import shutil
+import struct
 import time
+import warnings
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import asdict, dataclass
@@ -45,7 +48,7 @@ from pathlib import Path
 import numpy as np
 import soundfile as sf
 
-from emulate.errors import AudioFileError, BadValueError, EmulateError
+from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning
 from emulate.files import atomic_path
 from emulate.validate import check_count
 
@@ -57,6 +60,7 @@ __all__ = [
     "render_file",
     "copy_file",
     "output_format",
+    "check_out_path",
     "read_all",
     "write_array",
 ]
@@ -209,6 +213,11 @@ def _check_subtype(out_path, fmt: str, subtype: str, kept: bool) -> str:
     return subtype
 
 
+def check_out_path(in_path, out_path) -> None:
+    """Raise AudioFileError if OUT is IN, is a folder, or lies in a missing or read-only folder."""
+    _check_out_path(in_path, out_path)
+
+
 def _check_out_path(in_path, out_path) -> None:
     src, dst = Path(in_path), Path(out_path)
     if src.resolve() == dst.resolve() or (dst.exists() and src.exists()
@@ -250,7 +259,53 @@ def _open_read(path) -> sf.SoundFile:
     if snd.frames <= 0:
         snd.close()
         raise AudioFileError(f"{path}: holds no audio frames")
+    _warn_if_cut(path, snd)
     return snd
+
+
+_SAMPLE_BYTES = {"PCM_U8": 1, "PCM_S8": 1, "ULAW": 1, "ALAW": 1, "PCM_16": 2, "PCM_24": 3,
+                 "PCM_32": 4, "FLOAT": 4, "DOUBLE": 8}
+
+
+def promised_frames(path, snd: sf.SoundFile) -> int | None:
+    """Frames a WAV file's header promises (its data chunk size), or None if it does not say.
+
+    libsndfile reports the frames actually present; a WAV cut mid-data (a copy or a
+    recording stopped short) promises more in its ``data`` chunk header.
+    """
+    width = _SAMPLE_BYTES.get(snd.subtype)
+    if snd.format != "WAV" or width is None:
+        return None
+    with open(path, "rb") as handle:
+        riff = handle.read(12)
+        if riff[:4] not in (b"RIFF", b"RIFX") or riff[8:12] != b"WAVE":
+            return None
+        order = "<" if riff[:4] == b"RIFF" else ">"
+        while len(header := handle.read(8)) == 8:
+            size = struct.unpack(order + "I", header[4:])[0]
+            if header[:4] == b"data":
+                return None if size in (0, 0xFFFFFFFF) else size // (width * snd.channels)
+            handle.seek(size + (size & 1), os.SEEK_CUR)
+    return None
+
+
+def _warn_if_cut(path, snd: sf.SoundFile) -> None:
+    promised = promised_frames(path, snd)
+    if promised is not None and promised > snd.frames:
+        warnings.warn(f"{path}: cut short: its header promises {promised} frames, the file holds "
+                      f"{snd.frames} ({(promised - snd.frames) / snd.samplerate:.3f} s missing); "
+                      "only the frames present are used", EmulateWarning, stacklevel=3)
+
+
+def _read(snd: sf.SoundFile, path, done: int, *args, **kwargs) -> np.ndarray:
+    """``snd.read(...)``; a decoding failure (a damaged or cut FLAC) becomes one AudioFileError."""
+    try:
+        return snd.read(*args, **kwargs)
+    except (sf.SoundFileError, OSError) as exc:
+        reason = str(exc).splitlines()[0].strip().removeprefix("Error : ") if str(exc) else type(exc).__name__
+        raise AudioFileError(f"{path}: cannot be decoded from frame {done} on, of the {snd.frames} its "
+                             f"header promises ({reason}); the file is damaged or cut short "
+                             "(nothing was written)") from None
 
 
 def read_info(path) -> AudioInfo:
@@ -301,7 +356,7 @@ def _read_blocks(snd: sf.SoundFile, path, block_frames: int,
     check = snd.subtype not in _PCM_BITS  # integer PCM cannot hold NaN/Inf
     done = 0
     while True:
-        block = snd.read(block_frames, dtype="float64", always_2d=True, out=buf)
+        block = _read(snd, path, done, block_frames, dtype="float64", always_2d=True, out=buf)
         if not len(block):
             return
         if check:
@@ -485,8 +540,27 @@ def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
         except (sf.SoundFileError, OSError) as exc:
             raise AudioFileError(f"{out_path}: cannot write {fmt} {subtype} at {samplerate} Hz, "
                                  f"{channels} channel(s) ({exc})") from None
-        with snd:
-            yield snd
+        try:
+            with snd:
+                yield snd
+        except (sf.SoundFileError, OSError) as exc:  # disk full, quota, I/O error while writing
+            raise AudioFileError(f"{out_path}: writing failed ({_write_reason(exc, out_path)}); "
+                                 "nothing was written") from None
+
+
+_LOW_SPACE_BYTES = 1 << 20
+
+
+def _write_reason(exc: Exception, out_path) -> str:
+    """Why writing failed, in words: the OS's reason, or libsndfile's plus the free space left."""
+    if isinstance(exc, OSError) and exc.strerror:
+        return exc.strerror
+    reason = str(exc).splitlines()[0].strip().removeprefix("Error : ").rstrip(".") if str(exc) else type(exc).__name__
+    try:
+        free = shutil.disk_usage(Path(out_path).parent).free
+    except OSError:
+        return reason
+    return f"{reason}: no space left on the device" if free < _LOW_SPACE_BYTES else reason
 
 
 def _stream(in_path, out_path, processor, subtype, block_frames, progress, dither,
@@ -688,7 +762,7 @@ def read_all(path) -> tuple[np.ndarray, int]:
     ((10, 1), 48000)
     """
     with _open_read(path) as src:
-        x = src.read(dtype="float64", always_2d=True)
+        x = _read(src, path, 0, dtype="float64", always_2d=True)
         fs = int(src.samplerate)
     _check_finite(x, path, 0)
     return x, fs

@@ -6,7 +6,8 @@ import click
 
 from emulate.report import plots, sheet
 from emulate.analog import spec, tolerance
-from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
+from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
+                                 network_from_options)
 
 
 def tolerance_options(command):
@@ -56,10 +57,12 @@ def _text(result, trim) -> str:
 @circuit_options
 @tolerance_options
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (PNG)")
+@force_option("an existing --plot file")
 @json_option
-def tolerance_command(plot_path, as_json, **options):
+def tolerance_command(plot_path, force, as_json, **options):
     """Monte Carlo builds and worst-case corners of a circuit, with an R3 trim."""
     network = network_from_options(options)
+    check_plot(plot_path, force)
     _, result, trim = _analyse(network, options)
     if plot_path:
         plots.plot_tolerance(result, plot_path)
@@ -74,10 +77,14 @@ def tolerance_command(plot_path, as_json, **options):
 @click.option("--series", help="resistor series for the design, IEC 60063; default E24")
 @tolerance_options
 @click.option("--title", default=sheet.DEFAULT_TITLE, show_default=True, help="heading of the sheet")
-@click.option("--force", is_flag=True, help="replace a non-empty --out folder")
+@force_option("a non-empty --out folder (as a whole, once the new sheet is complete)")
 @json_option
 def sheet_command(out_dir, notch, q, series, title, force, as_json, **options):
-    """Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions."""
+    """Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions.
+
+    The folder appears complete or not at all.
+    """
+    sheet.check_out_dir(out_dir, force)
     design = None
     if notch is not None:
         surroundings = spec.network_surroundings({"source": options.get("source"), "load": options.get("load")})

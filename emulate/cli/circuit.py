@@ -7,7 +7,8 @@ import click
 from emulate.dsp import emulation
 from emulate.analog import spec
 from emulate.report import summary
-from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
+from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
+                                 network_from_options)
 from emulate.analog.response import check_twin_t, measure
 
 
@@ -15,10 +16,12 @@ from emulate.analog.response import check_twin_t, measure
 @circuit_options
 @click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (PNG)")
+@force_option("an existing --plot file")
 @json_option
-def response(rate, plot_path, as_json, **options):
+def response(rate, plot_path, force, as_json, **options):
     """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
     network = network_from_options(options)
+    check_plot(plot_path, force)
     metrics = measure(network.response)
     found = check_twin_t(network, metrics)
     payload = summary.metrics_payload(network, metrics, found)

@@ -11,11 +11,13 @@ import functools
 import importlib
 import json
 import math
+import os
+import re
 import warnings
 
 import click
 
-from emulate import __version__
+from emulate import __version__, files, lifetime
 from emulate.work import presets
 from emulate.analog import spec
 from emulate.errors import EmulateError, EmulateWarning
@@ -52,19 +54,54 @@ class _Group(click.Group):
         return super().get_command(ctx, name)
 
     def invoke(self, ctx):
-        with warnings.catch_warnings(record=True) as caught:
+        mark = len(files.kept_files())
+        with warnings.catch_warnings(record=True) as caught, lifetime.stop_on_signals():
             warnings.simplefilter("always", EmulateWarning)
             try:
                 return super().invoke(ctx)
+            except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
+                raise
             except EmulateError as exc:
-                raise click.ClickException(str(exc)) from None
+                raise click.ClickException(printable(str(exc))) from None
             except OSError as exc:  # a file system refusal the checks did not foresee
                 where = f"{exc.filename}: " if exc.filename else ""
-                raise click.ClickException(f"{where}{exc.strerror or exc}") from None
+                raise click.ClickException(printable(f"{where}{exc.strerror or exc}; nothing was written")) from None
+            except KeyboardInterrupt as exc:  # Ctrl-C, SIGTERM, SIGHUP (lifetime.Stopped)
+                raise click.ClickException(interrupted_line(exc, mark)) from None
+            except Exception as exc:  # a fault no check foresaw: still one line (EMULATE_DEBUG=1 shows it all)
+                if os.environ.get("EMULATE_DEBUG"):
+                    raise
+                raise click.ClickException(printable(f"unexpected error ({type(exc).__name__}: {exc}); "
+                                                     "please report it")) from None
             finally:
-                for item in caught:
-                    if issubclass(item.category, EmulateWarning):
-                        click.echo(f"warning: {item.message}", err=True)
+                shown = {str(item.message) for item in caught if issubclass(item.category, EmulateWarning)}
+                for message in sorted(shown, key=[str(item.message) for item in caught].index):
+                    click.echo(printable(f"warning: {message}"), err=True)
+
+
+def interrupted_line(exc: KeyboardInterrupt, mark: int = 0) -> str:
+    """What an interrupted command says: by what, and truthfully what was kept."""
+    kept = files.kept_files(mark)
+    why = f"stopped by {exc.args[0]}" if isinstance(exc, lifetime.Stopped) and exc.args else "interrupted"
+    if not kept:
+        return f"{why}; nothing was written (work in progress removed)"
+    return printable(f"{why}; kept (complete): {', '.join(map(str, kept))}; work in progress removed")
+
+
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def printable(text: str) -> str:
+    """``text`` safe for a terminal: control characters (escape sequences) shown as ``?``,
+    bytes that are not UTF-8 (from file names) shown as ``\\xNN``; newlines and tabs kept.
+
+    Example
+    -------
+    >>> printable("note\x1b[2J")
+    'note?[2J'
+    """
+    text = _CONTROL.sub("?", text)
+    return text.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
 
 
 @click.group(cls=_Group)
@@ -144,13 +181,28 @@ def _at_depth(network, options):
     return full.replace(mix=depth.mix_for_depth(full, options["depth_db"]))
 
 
+def force_option(what: str):
+    """``--force``: the only way to replace ``what``; its help says what is never overwritten."""
+    return click.option("--force", is_flag=True,
+                        help=f"replace {what}; without it nothing existing is overwritten")
+
+
+def check_plot(plot_path, force: bool) -> None:
+    """Refuse a --plot path before any work (exists without --force, folder missing, not a file)."""
+    if plot_path:
+        files.check_new_output(plot_path, force=force, what="--plot")
+
+
 def json_option(command):
     return click.option("--json", "as_json", is_flag=True, help="print one JSON object instead of text")(command)
 
 
 def emit(as_json: bool, payload: dict, text: str) -> None:
     """Print ``text``, or ``payload`` as strict JSON (non-finite numbers become null)."""
-    click.echo(json.dumps(_finite_json(payload), indent=2, allow_nan=False, default=str) if as_json else text)
+    if as_json:
+        click.echo(json.dumps(_finite_json(payload), indent=2, allow_nan=False, default=str))
+    else:
+        click.echo(printable(text))
 
 
 def _finite_json(value):
@@ -164,13 +216,14 @@ def _finite_json(value):
 
 
 def run_quietly(function):
-    """Decorator for commands that must not print a traceback on Ctrl-C."""
+    """Decorator for commands that must not print a traceback on Ctrl-C (says what was kept)."""
     @functools.wraps(function)
     def wrapper(*args, **kwargs):
+        mark = len(files.kept_files())
         try:
             return function(*args, **kwargs)
-        except KeyboardInterrupt:
-            raise click.ClickException("interrupted; nothing was written") from None
+        except KeyboardInterrupt as exc:
+            raise click.ClickException(interrupted_line(exc, mark)) from None
     return wrapper
 
 

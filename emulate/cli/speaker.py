@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 
 import click
 
@@ -9,8 +10,8 @@ from emulate.audio import stream as audio
 from emulate.work import presets, sweep
 from emulate.analog import spec
 from emulate.report import summary
-from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options,
-                                 presets_option, progress, run_quietly, store_from)
+from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
+                                 network_from_options, presets_option, progress, run_quietly, store_from)
 from emulate.analog.parts import parse_value
 from emulate.analog.response import measure
 from emulate.voice.speech import combine_reports, find_sibilance
@@ -24,10 +25,12 @@ takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=T
 @click.option("--band", nargs=2, type=float, metavar="LO HI",
               help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (PNG)")
+@force_option("an existing --plot file")
 @json_option
-def sibilance(takes, band, plot_path, as_json):
+def sibilance(takes, band, plot_path, force, as_json):
     """Find where one speaker's sibilance sits, over one or more takes."""
     options = {} if not band else {"search_band_hz": tuple(band)}
+    check_plot(plot_path, force)
     reports = []
     for take in takes:
         x, fs = audio.read_all(take)
@@ -75,11 +78,16 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
               help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
+@force_option("a non-empty --out folder (as a whole, once the new sweep is complete) and an existing "
+              "--plot file")
 @json_option
 @run_quietly
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
-                  source, load, preset, presets_dir, workers, plot_path, as_json):
-    """Render every take at every notch setting; reels, a summary table and a pick."""
+                  source, load, preset, presets_dir, workers, plot_path, force, as_json):
+    """Render every take at every notch setting; reels, a summary table and a pick.
+
+    The --out folder appears complete or not at all; a take inside it is refused.
+    """
     held = {} if preset is None else sweep.held_by(presets.PresetStore(presets_dir).load(preset).network())
     given = {"q": q, "series": series, "cap_series": cap_series, "mix": mix,
              "impedance_ohms": None if impedance is None else parse_value(impedance, "resistance")}
@@ -88,17 +96,34 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
     plan = sweep.SweepPlan(notches_hz=_sweep_notches(from_hz, to_hz, steps, at),
                            **(held | {k: v for k, v in given.items() if v is not None}))
     plan.network(plan.notches_hz[0])  # a bad plan fails here, before any work
+    sweep.check_workers(workers)
+    sweep.check_out(takes, out_dir, force=force)
+    check_plot(plot_path, force)
     total = sum(audio.read_info(t).frames for t in takes) * len(plan.notches_hz)
-    with progress(total, "sweeping") as bar:
-        result = sweep.run_sweep(takes, plan, out_dir, workers=workers, progress=bar.update)
-    csv_path, json_path = sweep.write_summary(result, out_dir)
-    text = summary.sweep_text(result, csv_path, json_path)
-    if plot_path:
+    written = []
+
+    def draw(result, staging):
         from emulate.report import plots
 
         rows = [row | {"pick": row["setting"] == result.pick["setting"]} for row in result.rows]
-        text += f"\nwrote {plots.plot_sweep(rows, plot_path)}"
+        written.append(plots.plot_sweep(rows, _under(plot_path, out_dir, staging)))
+
+    with progress(total, "sweeping") as bar:
+        result = sweep.sweep_into(takes, plan, out_dir, force=force, workers=workers, progress=bar.update,
+                                  finish=draw if plot_path else None)
+    text = summary.sweep_text(result, Path(out_dir) / "summary.csv", Path(out_dir) / "summary.json")
+    if plot_path:
+        text += f"\nwrote {plot_path}"
     emit(as_json, result.as_dict(), text)
+
+
+def _under(path, out_dir, staging) -> Path:
+    """``path``, or its place in the staging folder when it lies inside ``out_dir``."""
+    path, out_dir = Path(path), Path(out_dir)
+    try:
+        return Path(staging) / path.resolve().relative_to(out_dir.resolve())
+    except ValueError:
+        return path
 
 
 @main.group()
@@ -117,7 +142,7 @@ def preset():
 @click.option("--impedance", help="with --notch: level of R1 = R2, ohms")
 @click.option("--from-sweep", type=click.Path(file_okay=False),
               help="save the pick of the sweep in this folder (its summary.json)")
-@click.option("--force", is_flag=True, help="replace an existing preset of that name")
+@force_option("an existing preset of that name")
 def preset_save(name, speaker, notes, notch, q, series, impedance, from_sweep, force, **options):
     """Save preset NAME from circuit options, a design target, or a sweep's pick."""
     store = store_from(options)

@@ -30,6 +30,7 @@ from pathlib import Path
 from emulate.analog import parts
 from emulate.report import plots
 from emulate.errors import BadValueError
+from emulate import files
 from emulate.files import atomic_path
 from emulate.analog.networks import PART_NAMES, TwinT, part_kind
 from emulate.analog.response import measure
@@ -258,13 +259,12 @@ def render_html(blocks: list[Block], folder: Path) -> str:
 
 # --- 5. publish ------------------------------------------------------------------
 
-def _check_out_dir(out_dir: Path, force: bool) -> None:
+def check_out_dir(out_dir, force: bool) -> None:
+    """Raise BadValueError unless ``out_dir`` may be written: its parent exists; new, empty, or ``force``."""
+    out_dir = Path(out_dir)
     if not out_dir.parent.is_dir():
         raise BadValueError(f"{out_dir}: folder {out_dir.parent} does not exist")
-    if out_dir.exists() and not out_dir.is_dir():
-        raise BadValueError(f"{out_dir}: exists and is not a folder")
-    if out_dir.is_dir() and any(out_dir.iterdir()) and not force:
-        raise BadValueError(f"{out_dir}: folder exists and is not empty; choose another folder or force the overwrite (--force)")
+    files.check_new_folder(out_dir, force=force)
 
 
 def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
@@ -311,7 +311,7 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     ['response.png', 'sheet.html', 'sheet.md']
     """
     out_dir = Path(out_dir)
-    _check_out_dir(out_dir, force)
+    check_out_dir(out_dir, force)
     blocks = compose(network, tolerances=tolerances, design=design, tolerance_result=tolerance_result,
                      trim=trim, title=title)
     # the whole folder is written beside out_dir, then swapped in (an old one removed after)

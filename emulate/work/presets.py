@@ -2,8 +2,12 @@
 
 Where presets live: :func:`default_presets_dir` gives the folder named by the
 environment variable ``EMULATE_PRESETS_DIR`` when it is set and not empty,
-otherwise ``presets`` in the current working directory (looked up at each call,
-not at import). A preset named ``NAME`` is the file ``NAME.toml`` there.
+otherwise the per-user data folder ``$XDG_DATA_HOME/emulate/presets`` (by default
+``~/.local/share/emulate/presets``), looked up at each call, not at import. A
+preset named ``NAME`` is the file ``NAME.toml`` there. The presets shipped with
+emulate (package data, copied from the repository's ``presets/``;
+:func:`shipped_presets_dir`) are read-only and seen beside the user's own when no
+folder is named explicitly; a user preset of the same name takes precedence.
 
 A preset file reads, top to bottom (every written file starts with a short
 comment header saying the same)::
@@ -52,7 +56,7 @@ from emulate.errors import BadValueError, EmulateWarning, PresetError
 from emulate.validate import check_range
 
 __all__ = ["CIRCUIT_KEYS", "SCHEMA_VERSION", "TARGET_KEYS", "Preset", "PresetStore",
-           "check_name", "default_presets_dir", "preset_from_toml", "preset_to_toml"]
+           "check_name", "default_presets_dir", "shipped_presets_dir", "preset_from_toml", "preset_to_toml"]
 
 SCHEMA_VERSION = 1
 ENV_VAR = "EMULATE_PRESETS_DIR"
@@ -81,7 +85,10 @@ _HEADER = """\
 
 
 def default_presets_dir() -> Path:
-    """The preset folder: ``$EMULATE_PRESETS_DIR`` if set and not empty, else ./presets.
+    """The user's preset folder: ``$EMULATE_PRESETS_DIR`` if set, else the per-user data folder.
+
+    The per-user folder is ``$XDG_DATA_HOME/emulate/presets`` (XDG Base Directory
+    convention), ``~/.local/share/emulate/presets`` when that variable is unset.
 
     Returns
     -------
@@ -91,11 +98,25 @@ def default_presets_dir() -> Path:
 
     Example
     -------
-    >>> default_presets_dir().name  # doctest: +SKIP
+    >>> default_presets_dir().name
     'presets'
     """
     chosen = os.environ.get(ENV_VAR, "").strip()
-    return Path(chosen).expanduser() if chosen else Path.cwd() / "presets"
+    if chosen:
+        return Path(chosen).expanduser()
+    data = os.environ.get("XDG_DATA_HOME", "").strip()
+    return (Path(data) if data else Path.home() / ".local" / "share") / "emulate" / "presets"
+
+
+def shipped_presets_dir() -> Path:
+    """The read-only presets shipped with emulate (package data; the repository's presets/ is the source).
+
+    Example
+    -------
+    >>> (shipped_presets_dir() / "orrin-passive.toml").is_file()
+    True
+    """
+    return Path(__file__).resolve().parent.parent / "data" / "presets"
 
 
 def check_name(name: object) -> str:
@@ -425,10 +446,11 @@ class PresetStore:
     ----------
     root : str or os.PathLike, optional
         The folder; default :func:`default_presets_dir`. It need not exist
-        until the first :meth:`save`.
+        until the first :meth:`save`. Without ``root`` the shipped presets
+        (:func:`shipped_presets_dir`) are seen too, read-only, under the user's own.
 
-    Does not lock the folder: two programs saving the same name at once each
-    write a whole file and the last one wins.
+    Saving a new name is atomic create-if-absent: of two programs saving the same
+    new name at once (without force), one saves and the other is refused.
 
     Example
     -------
@@ -440,17 +462,44 @@ class PresetStore:
     """
 
     def __init__(self, root: str | os.PathLike | None = None):
+        self.explicit = root is not None
         self.root = Path(root) if root is not None else default_presets_dir()
+        self.shipped = None if self.explicit else shipped_presets_dir()
 
     def path(self, name: str) -> Path:
-        """The file of preset ``name`` (it may not exist); raises PresetError for a bad name."""
+        """The file of preset ``name``: the user's, else a shipped one; raises PresetError for a bad name."""
+        own = self._own(name)
+        if not own.is_file() and self.shipped is not None and (self.shipped / own.name).is_file():
+            return self.shipped / own.name
+        return own
+
+    def _own(self, name: str) -> Path:
         return self.root / f"{check_name(name)}.toml"
 
+    def check_folder(self) -> str | None:
+        """Raise PresetError if the folder is a file (or not a folder); a note if it is missing.
+
+        Returns
+        -------
+        str or None
+            ``"... does not exist yet ..."`` when the folder is missing, else None.
+        """
+        if self.root.exists() and not self.root.is_dir():
+            raise PresetError(f"presets folder {_shown(self.root)} is not a folder; allowed: a folder "
+                              f"(--presets DIR or ${ENV_VAR})")
+        if not self.root.exists():
+            if self.explicit:
+                raise PresetError(f"presets folder {_shown(self.root)} does not exist; allowed: an existing "
+                                  "folder ('preset save' creates it)")
+            return f"your presets folder {_shown(self.root)} does not exist yet ('preset save' creates it)"
+        return None
+
     def _files(self) -> list[Path]:
-        if not self.root.is_dir():
-            return []
-        return sorted(p for p in self.root.glob("*.toml")
-                      if p.is_file() and not p.name.startswith("."))
+        found = {}
+        for folder in (self.shipped, self.root):  # the user's own last: they take precedence
+            if folder is not None and folder.is_dir():
+                found |= {p.name: p for p in folder.glob("*.toml") if p.is_file() and not p.name.startswith(".")}
+        return [found[name] for name in sorted(found)]
 
     def names(self) -> list[str]:
         """Names of the preset files present (well-named ``*.toml``), sorted; [] if no folder."""
@@ -459,6 +508,10 @@ class PresetStore:
     def exists(self, name: str) -> bool:
         """Whether preset ``name`` has a file; raises PresetError for a bad name."""
         return self.path(name).is_file()
+
+    def is_shipped(self, name: str) -> bool:
+        """Whether ``name`` is read from the shipped presets (no user preset of that name)."""
+        return self.shipped is not None and self.path(name).parent == self.shipped
 
     def load(self, name: str) -> Preset:
         """Read and check preset ``name``.
@@ -530,24 +583,36 @@ class PresetStore:
             If the preset exists and ``force`` is false, or the folder or file
             cannot be written (nothing is left behind then).
         """
-        path = self.path(preset.name)
-        if path.exists() and not force:
-            raise PresetError(f"preset {preset.name!r} already exists ({_shown(path)}); "
-                              "save with force (--force) to replace it")
+        path = self._own(preset.name)
+        if self.root.exists() and not self.root.is_dir():
+            self.check_folder()
+        if os.path.lexists(path) and not force:
+            raise self._exists(preset.name, path)
+        if os.path.lexists(path) and not path.is_file():
+            raise PresetError(f"{_shown(path)}: is not a regular file; it is never replaced")
+        text = preset_to_toml(preset)
         try:
-            self.root.mkdir(parents=True, exist_ok=True)
-            # a replaced preset keeps its permissions; a new one is readable by all
-            mode = path.stat().st_mode & 0o777 if path.exists() else 0o644
-            files.write_text(path, preset_to_toml(preset), mode=mode)
+            with files.parents_made(path):
+                # a replaced preset keeps its permissions; a new one is readable by all
+                mode = path.stat().st_mode & 0o777 if path.exists() else 0o644
+                files.write_text(path, text, mode=mode, replace=force)
+        except FileExistsError:  # saved by another program between the check and now
+            raise self._exists(preset.name, path) from None
         except OSError as exc:
-            raise PresetError(f"{_shown(path)}: cannot be written: {exc}") from exc
+            raise PresetError(f"{_shown(path)}: cannot be written: {exc.strerror or exc}") from None
         return path
+
+    @staticmethod
+    def _exists(name: str, path: Path) -> PresetError:
+        return PresetError(f"preset {name!r} already exists ({_shown(path)}); "
+                           "save with force (--force) to replace it")
 
     def delete(self, name: str) -> None:
         """Remove preset ``name``; raises PresetError if the name is bad or it does not exist."""
-        path = self.path(name)
+        path = self._own(name)
         if not path.is_file():
-            raise PresetError(f"no preset {name!r} in {_shown(self.root)} to delete")
+            shipped = " (it ships with emulate and is read-only)" if self.is_shipped(name) else ""
+            raise PresetError(f"no preset {name!r} in {_shown(self.root)} to delete{shipped}")
         try:
             path.unlink()
         except OSError as exc:

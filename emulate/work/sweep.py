@@ -26,6 +26,8 @@ This rule is our own judgement, not a published method.
 
 from __future__ import annotations
 
+import contextlib
+import dataclasses
 import json
 import math
 import os
@@ -35,7 +37,7 @@ from pathlib import Path
 
 import numpy as np
 
-from emulate import files
+from emulate import files, lifetime
 from emulate.audio import stream as audio
 from emulate.dsp import emulation
 from emulate.voice import speech
@@ -212,11 +214,27 @@ class _Inline:
         return future
 
 
-def _executor(workers: int | None, jobs: int):
+def check_workers(workers: int | None) -> None:
+    """Raise BadValueError unless ``workers`` is None or a whole number 1..MAX_WORKERS."""
     if workers is not None:
         check_count("workers", workers, 1, MAX_WORKERS)
+
+
+@contextlib.contextmanager
+def _executor(workers: int | None, jobs: int):
+    """The pool for a sweep; its workers die with this process and are killed on any error."""
+    check_workers(workers)
     workers = max(1, min(workers or os.cpu_count() or 1, jobs))
-    return _Inline() if workers == 1 else ProcessPoolExecutor(max_workers=workers)
+    if workers == 1:
+        yield _Inline()
+        return
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=lifetime.watch_parent)
+    try:
+        yield pool
+    except BaseException:  # Ctrl-C, a signal, a failed job: stop now, not after the jobs in flight
+        lifetime.end_workers(pool)
+        raise
+    pool.shutdown()
 
 
 def _check_takes(takes) -> dict:
@@ -245,8 +263,18 @@ def _dry_take(take: Path) -> _DryTake:
     report = speech.find_sibilance(x, fs)
     start, stop = speech.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
     band_hz = report.band_hz if report.usable else report.search_band_hz
-    return _DryTake(speech.take_levels(x, fs, band_hz), (start, stop), x[start:stop], fs,
-                    audio.read_info(take).subtype)
+    levels = speech.take_levels(x, fs, band_hz)
+    _check_measurable(take, levels)
+    return _DryTake(levels, (start, stop), x[start:stop], fs, audio.read_info(take).subtype)
+
+
+def _check_measurable(take: Path, levels) -> None:
+    """A take the measures cannot compare (silent, or below the loudness gate) fails before any render."""
+    try:
+        speech.compare_levels(levels, levels)
+    except BadValueError as exc:
+        raise BadValueError(f"{take}: cannot be swept ({exc}); every take must hold speech "
+                            "(nothing was rendered)") from None
 
 
 def _render_job(take: Path, target_hz: float, network, dry_levels, excerpt, out_path: Path):
@@ -344,14 +372,79 @@ def _csv_cell(value) -> str:
     return f"{value:.6g}" if isinstance(value, float) else str(value)
 
 
+_PICK_KEYS = ("setting", "notch_target_hz", "reason")
+
+
 def read_pick(out_dir) -> tuple[SweepPlan, dict]:
     """The plan and the pick a sweep left in ``out_dir/summary.json``; one clear error if none."""
     path = Path(out_dir) / "summary.json"
     try:
-        result = json.loads(path.read_text())
-        return SweepPlan.from_dict(result["plan"]), result["pick"]
-    except (OSError, ValueError, KeyError, TypeError) as exc:
-        raise BadValueError(f"{path}: not a sweep summary ({exc})") from None
+        result = json.loads(path.read_bytes().decode("utf-8"))
+        plan, pick = SweepPlan.from_dict(result["plan"]), result["pick"]
+        missing = [key for key in _PICK_KEYS if key not in pick]
+        if missing:
+            raise KeyError(", ".join(missing))
+        check_range("pick notch_target_hz", pick["notch_target_hz"], 20.0, 30e3)
+    except (OSError, ValueError, KeyError, TypeError, AttributeError) as exc:
+        raise BadValueError(f"{path}: not a sweep summary with a pick (missing or bad {exc}); "
+                            "give the --out folder of a finished sweep") from None
+    return plan, pick
+
+
+def check_out(takes, out_dir, *, force: bool) -> Path:
+    """Refuse an ``--out`` folder that would mix old and new renders, or that holds a take.
+
+    A non-empty folder needs ``force`` (it is then replaced as a whole, atomically);
+    a take inside the folder is refused even with ``force`` (it would be replaced or
+    deleted), as ``render`` refuses OUT == IN.
+
+    Raises
+    ------
+    BadValueError, emulate.errors.OutputRefusedError
+    """
+    out_dir = Path(out_dir)
+    inside = [str(t) for t in takes if Path(out_dir).resolve() in Path(t).resolve().parents]
+    if inside:
+        raise BadValueError(f"{out_dir}: holds the take(s) {', '.join(inside)}; the sweep would "
+                            "overwrite or remove them; allowed: an --out folder apart from the takes")
+    return files.check_new_folder(out_dir, force=force)
+
+
+def sweep_into(takes, plan: SweepPlan, out_dir, *, force: bool = False, workers: int | None = None,
+               progress=None, finish=None) -> SweepResult:
+    """Run a sweep and write its folder atomically: all of it appears, or nothing does.
+
+    Everything is written into a hidden folder beside ``out_dir`` and renamed onto it at
+    the end (an existing folder, allowed only with ``force``, is replaced then). The
+    result's paths name ``out_dir``. ``finish(result, folder)``, if given, runs last,
+    before the rename (e.g. a picture written elsewhere). On any error or interruption
+    the hidden folder is removed and the workers are ended.
+
+    Raises
+    ------
+    BadValueError, emulate.errors.OutputRefusedError, AudioFileError
+        As :func:`check_out` and :func:`run_sweep` (nothing is written then).
+    """
+    out_dir = Path(out_dir)
+    _check_takes([Path(t) for t in takes])
+    check_out(takes, out_dir, force=force)
+    check_workers(workers)
+    with files.parents_made(out_dir), files.atomic_path(out_dir) as staging:
+        staging.mkdir()
+        result = _moved(run_sweep(takes, plan, staging, workers=workers, progress=progress), staging, out_dir)
+        write_summary(result, staging)
+        if finish is not None:
+            finish(result, staging)
+    return result
+
+
+def _moved(result: SweepResult, staging: Path, out_dir: Path) -> SweepResult:
+    """The result with paths in the staging folder renamed to the final folder."""
+    def final(path) -> str:
+        return str(out_dir / Path(path).relative_to(staging))
+    result.jobs = [dataclasses.replace(job, path=final(job.path)) for job in result.jobs]
+    result.reels = {take: final(reel) for take, reel in result.reels.items()}
+    return result
 
 
 def write_summary(result: SweepResult, out_dir) -> tuple[Path, Path]:
