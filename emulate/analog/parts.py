@@ -142,6 +142,11 @@ def _unit_kind(unit: str | None) -> str | None:
 
 def _from_text(text: str, kind: str | None) -> float:
     """Read a written value to a float; no range check."""
+    # NFKC reads full-width digits and the micro sign as typed, but would also read
+    # superscripts and vulgar fractions as digits ('10²' as 102): those are refused
+    if any(unicodedata.category(ch) == "No" for ch in text):
+        raise _fail(kind, text, f"not a value (superscripts and fractions are not digits); write e.g. "
+                                f"{_EXAMPLES[kind]}")
     cleaned = unicodedata.normalize("NFKC", text).strip()
     if match := _DECIMAL_RE.fullmatch(cleaned):
         number, exp, unit = match["num"], _PREFIX_EXP[match["prefix"]], match["unit"]

@@ -189,9 +189,21 @@ def warn_all(found: list[EmulateWarning]) -> None:
 def _unbalanced_message(network, mismatch, metrics) -> str:
     from emulate.analog.parts import format_value
 
+    from emulate.errors import BadValueError
+
     r = (network.r1 + network.r2) / 2
     c = (network.c1 + network.c2) / 2
-    balanced = (f"R1 = R2 = {format_value(r, 'resistance')}, R3 = {format_value(r / 2, 'resistance')}, "
-                f"C1 = C2 = {format_value(c, 'capacitance')}, C3 = {format_value(2 * c, 'capacitance')}")
-    return (f"unbalanced network: R1*R2*C3 misses R3*(R1+R2)*(C1+C2) by {mismatch:+.1%}, so the "
-            f"notch is only {metrics.depth_below_passband_db:.1f} dB deep; the nearest balanced set is {balanced}")
+    found = (f"unbalanced network: R1*R2*C3 misses R3*(R1+R2)*(C1+C2) by {mismatch:+.1%}, so the "
+             f"notch is only {metrics.depth_below_passband_db:.1f} dB deep")
+    # the same R*C (so the same notch), moved into the part ranges when C3 = 2C or R3 = R/2 falls outside;
+    # a suggestion that still cannot be written is left out: it must never fail the analysis
+    for scale in (1.0, max(2 * c, 1.0), min(r / 2 / 0.1, 1.0)):
+        try:
+            balanced = (f"R1 = R2 = {format_value(r * scale, 'resistance')}, "
+                        f"R3 = {format_value(r * scale / 2, 'resistance')}, "
+                        f"C1 = C2 = {format_value(c / scale, 'capacitance')}, "
+                        f"C3 = {format_value(2 * c / scale, 'capacitance')}")
+        except BadValueError:
+            continue
+        return f"{found}; the nearest balanced set is {balanced}"
+    return f"{found}; balance it as R1 = R2 = R, R3 = R/2, C1 = C2 = C, C3 = 2C"

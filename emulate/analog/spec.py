@@ -158,8 +158,15 @@ def read_circuit_file(path) -> dict:
         raise BadValueError(f"{path}: no such circuit file") from None
     except (OSError, tomllib.TOMLDecodeError) as exc:
         raise BadValueError(f"{path}: not a readable TOML circuit file ({exc})") from None
+    except UnicodeDecodeError as exc:
+        raise BadValueError(f"{path}: not UTF-8 text (byte {exc.object[exc.start]:#04x} at offset "
+                            f"{exc.start}); a circuit file is UTF-8 TOML") from None
     if "circuit" not in document and "target" not in document:
         raise BadValueError(f"{path}: needs a [circuit] table of parts or a [target] table")
+    for name in ("circuit", "target"):
+        if name in document and not isinstance(document[name], dict):
+            raise BadValueError(f"{path}: {name} = {document[name]!r} is not a table; write one "
+                                f"[{name}] table of key = value lines")
     return document
 
 

@@ -251,7 +251,7 @@ def _open_read(path) -> sf.SoundFile:
     if p.stat().st_size == 0:
         raise AudioFileError(f"{path}: empty file (0 bytes)")
     try:
-        snd = sf.SoundFile(p)
+        snd = sf.SoundFile(os.fsencode(p))  # bytes: any name the file system holds
     except (sf.SoundFileError, OSError) as exc:
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise AudioFileError(
@@ -536,7 +536,7 @@ def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
     """
     with atomic_path(out_path) as tmp:
         try:
-            snd = sf.SoundFile(tmp, "w", samplerate, channels, subtype, format=fmt)
+            snd = sf.SoundFile(os.fsencode(tmp), "w", samplerate, channels, subtype, format=fmt)
         except (sf.SoundFileError, OSError) as exc:
             raise AudioFileError(f"{out_path}: cannot write {fmt} {subtype} at {samplerate} Hz, "
                                  f"{channels} channel(s) ({exc})") from None

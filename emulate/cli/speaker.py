@@ -201,11 +201,18 @@ def _from_sweep(folder, mix) -> dict:
 def preset_list(as_json, presets_dir):
     """List the presets in the presets folder."""
     store = presets.PresetStore(presets_dir)
+    note = store.check_folder()
+    if note:
+        click.echo(f"note: {note}", err=True)
     found, problems = store.list_all()
     for _path, message in problems:
         click.echo(f"warning: {message}", err=True)
+    shipped = [p.name for p in found if store.is_shipped(p.name)]
+    text = summary.preset_list_text(store.root, found)
+    if shipped:
+        text += f"\n  (shipped with emulate, read-only: {', '.join(shipped)})"
     emit(as_json, {"folder": str(store.root), "presets": [summary.preset_payload(p) for p in found],
-                   "problems": [m for _, m in problems]}, summary.preset_list_text(store.root, found))
+                   "shipped": shipped, "problems": [m for _, m in problems]}, text)
 
 
 @preset.command("show")

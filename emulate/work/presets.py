@@ -524,6 +524,8 @@ class PresetStore:
         """
         path = self.path(name)
         if not path.is_file():
+            if self.root.exists() and not self.root.is_dir():
+                self.check_folder()
             have = ", ".join(self.names()) or "none"
             raise PresetError(f"no preset {name!r} in {_shown(self.root)} (have: {have})")
         try:
