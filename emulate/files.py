@@ -27,7 +27,7 @@ from pathlib import Path
 from emulate.errors import EmulateError, OutputRefusedError
 
 __all__ = ["atomic_path", "write_text", "check_new_output", "check_new_folder", "parents_made",
-           "remove_stale", "kept_files", "discard"]
+           "remove_stale", "kept_files", "discard", "OutputRefusedError"]
 
 _kept: list[Path] = []  # targets this process completed (see kept_files)
 _staging: list[Path] = []  # temporary folders being written now (their content is not kept yet)
@@ -169,7 +169,7 @@ def check_new_output(path, *, force: bool, what: str = "output") -> Path:
     path = Path(path)
     try:
         info = os.stat(path)
-    except FileNotFoundError:
+    except (FileNotFoundError, NotADirectoryError):  # the folder check below says which
         info = None
     except OSError as exc:
         raise OutputRefusedError(f"{path}: {what} cannot be checked ({exc.strerror})") from None

@@ -124,3 +124,147 @@ class TestWriteText:
         with pytest.raises(FileNotFoundError):
             write_text(tmp_path / "missing" / "n.toml", "x")
         assert names(tmp_path) == []
+
+
+class TestAtomicPathCreateOnly:
+    def test_creates_a_new_file(self, tmp_path):
+        with atomic_path(tmp_path / "a.txt", replace=False) as temp:
+            temp.write_text("new")
+        assert names(tmp_path) == ["a.txt"]
+
+    def test_regression_parallel_creates_cannot_both_succeed(self, tmp_path):
+        # a file appearing between a caller's check and the commit is never replaced
+        target = tmp_path / "a.txt"
+        with pytest.raises(FileExistsError):
+            with atomic_path(target, replace=False) as temp:
+                temp.write_text("second")
+                target.write_text("first")
+        assert target.read_text() == "first" and names(tmp_path) == ["a.txt"]
+
+    def test_a_folder_is_not_put_over_a_non_empty_one(self, old_folder):
+        with pytest.raises(FileExistsError):
+            with atomic_path(old_folder, replace=False) as temp:
+                temp.mkdir()
+        assert names(old_folder) == ["old.md"] and names(old_folder.parent) == ["sheet"]
+
+
+class TestErrorsNameTheTarget:
+    def test_regression_sheet_errors_never_name_its_temporary_folder(self, tmp_path):
+        target = tmp_path / "sheet"
+        with pytest.raises(OSError) as caught:
+            with atomic_path(target) as temp:
+                temp.mkdir()
+                open(temp / "missing" / "x.png", "rb")
+        assert caught.value.filename == str(target / "missing" / "x.png")
+        assert names(tmp_path) == []
+
+
+def dead_pid() -> int:
+    """The id of a process that has ended (a child that exited and was reaped)."""
+    pid = os.fork()
+    if pid == 0:
+        os._exit(0)
+    os.waitpid(pid, 0)
+    return pid
+
+
+class TestRemoveStale:
+    def test_removes_what_a_dead_process_left(self, tmp_path):
+        stale = tmp_path / f".out.wav.{dead_pid()}-0123456789ab.part"
+        stale.write_text("half")
+        assert files.remove_stale(tmp_path / "out.wav") == [stale]
+        assert names(tmp_path) == []
+
+    def test_keeps_what_a_live_process_writes(self, tmp_path):
+        live = tmp_path / f".out.wav.{os.getppid()}-0123456789ab.part"
+        live.write_text("in flight")
+        assert files.remove_stale(tmp_path / "out.wav") == []
+        assert live.exists()
+
+    def test_keeps_other_targets_and_user_files(self, tmp_path):
+        other = tmp_path / f".other.wav.{dead_pid()}-0123456789ab.part"
+        mine = tmp_path / ".out.wav.part"
+        other.write_text("x")
+        mine.write_text("x")
+        assert files.remove_stale(tmp_path / "out.wav") == []
+        assert other.exists() and mine.exists()
+
+    def test_a_stale_old_folder_is_put_back_when_the_target_is_gone(self, tmp_path):
+        # killed between moving the old folder aside and renaming the new one in
+        old = tmp_path / f".sheet.{dead_pid()}-0123456789ab.old"
+        old.mkdir()
+        (old / "keep.md").write_text("the user's")
+        files.remove_stale(tmp_path / "sheet")
+        assert (tmp_path / "sheet" / "keep.md").read_text() == "the user's"
+
+    def test_the_next_writer_cleans_up(self, tmp_path):
+        (tmp_path / f".a.txt.{dead_pid()}-0123456789ab.part").write_text("half")
+        write_text(tmp_path / "a.txt", "whole")
+        assert names(tmp_path) == ["a.txt"]
+
+
+class TestCheckNewOutput:
+    def test_a_new_file_is_fine(self, tmp_path):
+        assert files.check_new_output(tmp_path / "o.wav", force=False) == tmp_path / "o.wav"
+
+    @pytest.mark.parametrize("force", [False, True])
+    def test_regression_never_writes_into_a_fifo(self, tmp_path, force):
+        os.mkfifo(tmp_path / "p.wav")
+        with pytest.raises(files.OutputRefusedError, match="FIFO"):
+            files.check_new_output(tmp_path / "p.wav", force=force)
+
+    def test_an_existing_file_needs_force(self, tmp_path):
+        (tmp_path / "o.wav").write_text("x")
+        with pytest.raises(files.OutputRefusedError, match="already exists.*--force"):
+            files.check_new_output(tmp_path / "o.wav", force=False)
+        files.check_new_output(tmp_path / "o.wav", force=True)
+
+    def test_a_folder_is_refused(self, tmp_path):
+        with pytest.raises(files.OutputRefusedError, match="a folder"):
+            files.check_new_output(tmp_path, force=True)
+
+    def test_a_path_under_a_file_is_refused(self, tmp_path):
+        (tmp_path / "f").write_text("")
+        with pytest.raises(files.OutputRefusedError, match="not a folder"):
+            files.check_new_output(tmp_path / "f" / "o.wav", force=False)
+
+
+class TestCheckNewFolder:
+    def test_new_or_empty_is_fine(self, tmp_path):
+        files.check_new_folder(tmp_path / "new", force=False)
+        files.check_new_folder(tmp_path, force=False)
+
+    def test_non_empty_needs_force(self, old_folder):
+        with pytest.raises(files.OutputRefusedError, match="not empty.*--force"):
+            files.check_new_folder(old_folder, force=False)
+        files.check_new_folder(old_folder, force=True)
+
+    def test_a_file_is_refused_even_with_force(self, tmp_path):
+        (tmp_path / "f").write_text("x")
+        with pytest.raises(files.OutputRefusedError, match="not a folder"):
+            files.check_new_folder(tmp_path / "f", force=True)
+
+
+class TestParentsMade:
+    def test_removed_again_on_failure(self, tmp_path):
+        with pytest.raises(Boom):
+            with files.parents_made(tmp_path / "a" / "b" / "out"):
+                raise Boom
+        assert names(tmp_path) == []
+
+
+class TestKeptFiles:
+    def test_counts_completed_targets_and_discard_takes_one_back(self, tmp_path):
+        mark = len(files.kept_files())
+        write_text(tmp_path / "a.txt", "a")
+        assert files.kept_files(mark) == [tmp_path / "a.txt"]
+        files.discard(tmp_path / "a.txt")
+        assert files.kept_files(mark) == [] and names(tmp_path) == []
+
+    def test_files_inside_a_folder_being_written_are_not_counted(self, tmp_path):
+        mark = len(files.kept_files())
+        with atomic_path(tmp_path / "out") as temp:
+            temp.mkdir()
+            write_text(temp / "inner.txt", "x")
+            assert files.kept_files(mark) == []
+        assert files.kept_files(mark) == [tmp_path / "out"]

@@ -3,6 +3,7 @@
 import dataclasses
 import math
 import os
+import threading
 from pathlib import Path
 
 import pytest
@@ -11,7 +12,9 @@ from hypothesis import strategies as st
 
 from emulate.analog import parts
 from emulate.errors import EmulateWarning, PresetError
+from emulate.work import presets as presets_module
 from emulate.work.presets import (
+    shipped_presets_dir,
     Preset,
     PresetStore,
     check_name,
@@ -372,3 +375,77 @@ class TestShippedPresets:
         p = PresetStore(SHIPPED).load("tamsin-target")
         PresetStore(tmp_path).save(dataclasses.replace(p, mix=0.5))
         assert PresetStore(tmp_path).load("tamsin-target") == dataclasses.replace(p, mix=0.5)
+
+
+class TestShippedAsPackageData:
+    """The presets a normal install ships (emulate/data/presets) are the repository's presets/."""
+
+    def test_package_data_matches_the_repository_source(self):
+        source = {p.name: p.read_bytes() for p in SHIPPED.glob("*.toml")}
+        shipped = {p.name: p.read_bytes() for p in shipped_presets_dir().glob("*.toml")}
+        assert shipped == source, "copy presets/*.toml to emulate/data/presets/"
+
+    def test_seen_under_the_users_own_by_default(self, tmp_path, monkeypatch):
+        monkeypatch.setenv("EMULATE_PRESETS_DIR", str(tmp_path / "mine"))
+        store = PresetStore()
+        assert store.load("orrin-passive").name == "orrin-passive" and store.is_shipped("orrin-passive")
+        own = dataclasses.replace(store.load("orrin-passive"), speaker="my own copy")
+        store.save(own)  # a user preset of the same name takes precedence
+        assert store.load("orrin-passive").speaker == "my own copy" and not store.is_shipped("orrin-passive")
+
+    def test_not_seen_in_an_explicit_folder(self, tmp_path):
+        assert PresetStore(tmp_path).names() == []
+
+    def test_cannot_be_deleted(self, tmp_path, monkeypatch):
+        monkeypatch.setenv("EMULATE_PRESETS_DIR", str(tmp_path / "mine"))
+        with pytest.raises(PresetError, match="ships with emulate"):
+            PresetStore().delete("orrin-passive")
+        assert (shipped_presets_dir() / "orrin-passive.toml").is_file()
+
+
+class TestRegressionParallelSaves:
+    """Two `preset save NAME` at once without --force: one saves, the other is refused."""
+
+    def test_regression_parallel_saves_cannot_both_succeed(self, tmp_path):
+        store = PresetStore(tmp_path)
+        barrier = threading.Barrier(8)
+        outcomes = []
+
+        def save(number):
+            barrier.wait()
+            try:
+                store.save(make("race", speaker=f"writer {number}"))
+                outcomes.append(("saved", number))
+            except PresetError as exc:
+                outcomes.append(("refused", str(exc)))
+
+        threads = [threading.Thread(target=save, args=(n,)) for n in range(8)]
+        for thread in threads:
+            thread.start()
+        for thread in threads:
+            thread.join()
+        saved = [number for what, number in outcomes if what == "saved"]
+        assert len(saved) == 1 and len(outcomes) == 8
+        assert store.load("race").speaker == f"writer {saved[0]}"
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["race.toml"]
+
+    def test_a_file_appearing_after_the_check_is_not_replaced(self, tmp_path, monkeypatch):
+        store = PresetStore(tmp_path)
+        (tmp_path / "race.toml").write_text("the other writer's")
+        monkeypatch.setattr(presets_module.os.path, "lexists", lambda _path: False)  # the check saw nothing
+        with pytest.raises(PresetError, match="already exists"):
+            store.save(make("race"))
+        assert (tmp_path / "race.toml").read_text() == "the other writer's"
+
+
+class TestCheckFolder:
+    def test_regression_presets_folder_that_is_a_file_says_so(self, tmp_path):
+        (tmp_path / "f").write_text("")
+        with pytest.raises(PresetError, match="not a folder"):
+            PresetStore(tmp_path / "f").check_folder()
+
+    def test_regression_missing_presets_folder_says_so(self, tmp_path, monkeypatch):
+        with pytest.raises(PresetError, match="does not exist"):
+            PresetStore(tmp_path / "none").check_folder()
+        monkeypatch.setenv("EMULATE_PRESETS_DIR", str(tmp_path / "none"))
+        assert "does not exist yet" in PresetStore().check_folder()
