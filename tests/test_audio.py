@@ -21,7 +21,7 @@ import soundfile as sf
 from emulate.audio import stream as audio
 from emulate.audio.stream import (copy_file, iter_blocks, output_format, read_info, render_file,
                            write_array)
-from emulate.errors import AudioFileError, BadValueError, EmulateError
+from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning
 from helpers_audio import (PCM_BITS, Delay, Gain, Identity, Interrupting, SosFilter,
                            random_codes, read_codes, snapshot, write_codes, write_float)
 
@@ -482,3 +482,52 @@ class TestWriteArray:
         with pytest.raises(error, match=match):
             write_array(out, x, rate, **kw)
         assert snapshot(tmp_path) == {}
+
+
+class TestPromisedFrames:
+    """Regression: a WAV cut mid-data rendered half its frames without a word."""
+
+    def write_cut(self, tmp_path, keep: float):
+        path = tmp_path / "full.wav"
+        sf.write(path, np.zeros((1000, 2)), 8000, subtype="PCM_16")
+        data = path.read_bytes()
+        cut = tmp_path / "cut.wav"
+        cut.write_bytes(data[: 44 + int((len(data) - 44) * keep)])  # 44: the canonical WAV header
+        return path, cut
+
+    def test_whole_file_promises_what_it_holds(self, tmp_path):
+        path, _ = self.write_cut(tmp_path, 0.5)
+        with sf.SoundFile(path) as snd:
+            assert audio.promised_frames(path, snd) == snd.frames == 1000
+
+    def test_regression_cut_wav_reports_the_shortfall(self, tmp_path):
+        _, cut = self.write_cut(tmp_path, 0.5)
+        with pytest.warns(EmulateWarning, match="promises 1000 frames, the file holds 500"):
+            assert read_info(cut).frames == 500
+
+    def test_flac_promises_nothing_here(self, tmp_path):
+        path = tmp_path / "a.flac"
+        sf.write(path, np.zeros(100), 8000)
+        with sf.SoundFile(path) as snd:
+            assert audio.promised_frames(path, snd) is None
+
+
+class TestDamagedFiles:
+    def test_regression_truncated_flac_is_one_error(self, tmp_path):
+        path = tmp_path / "a.flac"
+        sf.write(path, np.random.default_rng(0).uniform(-0.5, 0.5, 20000), 8000, subtype="PCM_16")
+        data = path.read_bytes()
+        path.write_bytes(data[: len(data) // 2])
+        with pytest.raises(AudioFileError, match="damaged or cut short"):
+            audio.read_all(path)
+        with pytest.raises(AudioFileError, match="damaged or cut short"):
+            render_file(path, tmp_path / "o.wav", Identity())
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["a.flac"]
+
+    def test_regression_full_disk_is_one_error(self, tmp_path, monkeypatch):
+        def no_space(*_args, **_kwargs):
+            raise sf.LibsndfileError(2, "Error : ")  # SF_ERR_SYSTEM, what a full disk gives
+        monkeypatch.setattr(sf.SoundFile, "write", no_space)
+        with pytest.raises(AudioFileError, match="writing failed"):
+            write_array(tmp_path / "o.wav", np.zeros(10), 8000)
+        assert list(tmp_path.iterdir()) == []

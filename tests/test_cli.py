@@ -175,3 +175,47 @@ class TestFileSystemRefusals:
         take = TestRender().write_take(tmp_path / "take.wav")
         result = run("render", take, tmp_path / "o.wav", *BALANCED, "--build", "9" * 20)
         assert_one_line_error(result, "draw number")
+
+
+class TestPrintable:
+    """Regression: `preset show` printed terminal escape sequences from notes raw."""
+
+    @pytest.mark.parametrize("text,shown", [("a\x1b[2Jb", "a?[2Jb"), ("bell\x07", "bell?"),
+                                            ("two\nlines\tok", "two\nlines\tok"), ("c\x9bd", "c?d")])
+    def test_control_characters_are_shown_as_question_marks(self, text, shown):
+        from emulate.cli.options import printable
+
+        assert printable(text) == shown
+
+    def test_file_names_that_are_not_utf8_are_shown_escaped(self):
+        from emulate.cli.options import printable
+
+        assert printable("o" + b"\xff".decode("utf-8", "surrogateescape") + ".wav") == "o\\xff.wav"
+
+
+class TestInterruptedLine:
+    def test_nothing_kept(self):
+        from emulate import files
+        from emulate.cli.options import interrupted_line
+
+        line = interrupted_line(KeyboardInterrupt(), len(files.kept_files()))
+        assert line.startswith("interrupted; nothing was written")
+
+    def test_names_the_signal_and_what_was_kept(self, tmp_path):
+        from emulate import files, lifetime
+        from emulate.cli.options import interrupted_line
+
+        mark = len(files.kept_files())
+        files.write_text(tmp_path / "done.txt", "x")
+        line = interrupted_line(lifetime.Stopped("SIGTERM"), mark)
+        assert line.startswith("stopped by SIGTERM; kept (complete): ") and "done.txt" in line
+
+
+class TestRegressionRenderRefusesExistingOut:
+    def test_existing_out_is_kept_without_force(self, tmp_path):
+        take = TestRender().write_take(tmp_path / "take.wav")
+        (tmp_path / "o.wav").write_bytes(b"earlier render")
+        result = run("render", take, tmp_path / "o.wav", *BALANCED)
+        assert_one_line_error(result, "already exists")
+        assert (tmp_path / "o.wav").read_bytes() == b"earlier render"
+        assert run("render", take, tmp_path / "o.wav", *BALANCED, "--force").exit_code == 0

@@ -144,6 +144,21 @@ class TestParseValue:
             parts.parse_value("1m", "inductance")
 
 
+class TestParseValueRefusesLookalikes:
+    """Regression: NFKC read '10²' as 102."""
+
+    @pytest.mark.parametrize("text", ["10²", "4k⁷", "½k", "1₀k"])
+    def test_superscripts_subscripts_and_fractions_are_refused(self, text):
+        with pytest.raises(BadValueError, match="superscripts and fractions"):
+            parts.parse_value(text, "resistance")
+
+    @pytest.mark.parametrize("text,value", [("１０k", 10e3), ("4µ7", 4.7e-6)])
+    def test_full_width_digits_and_the_micro_sign_still_read(self, text, value):
+        # NFKC compatibility forms a keyboard may type (common practice, no source)
+        kind = "capacitance" if "µ" in text else "resistance"
+        assert parts.parse_value(text, kind) == pytest.approx(value, rel=1e-12)
+
+
 class TestFormatValue:
     @pytest.mark.parametrize("value,kind,expected", [
         # How the trade writes values on a schematic (IEC 60062 letter code;

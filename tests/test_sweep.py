@@ -235,3 +235,28 @@ class TestRowsAsCsv:
     def test_header_and_numbers(self):
         text = sweep.rows_as_csv([{"setting": "a", "notch_hz": 1234.56789, "q": 0.25}])
         assert text == "setting,notch_hz,q\na,1234.57,0.25\n"
+
+
+class TestCheckOut:
+    def test_regression_a_take_inside_out_is_refused_even_with_force(self, tmp_path):
+        take = tmp_path / "out" / "take.wav"
+        take.parent.mkdir()
+        take.write_bytes(b"a take")
+        for force in (False, True):
+            with pytest.raises(BadValueError, match="holds the take"):
+                sweep.check_out([take], tmp_path / "out", force=force)
+
+    def test_regression_a_non_empty_folder_needs_force(self, tmp_path):
+        (tmp_path / "out").mkdir()
+        (tmp_path / "out" / "old.wav").write_bytes(b"x")
+        with pytest.raises(BadValueError, match="not empty"):
+            sweep.check_out([tmp_path / "take.wav"], tmp_path / "out", force=False)
+        sweep.check_out([tmp_path / "take.wav"], tmp_path / "out", force=True)
+
+
+class TestReadPick:
+    @pytest.mark.parametrize("pick", ["{}", '{"setting": "x"}', "[]", "null"])
+    def test_regression_empty_or_partial_pick_is_one_error(self, tmp_path, pick):
+        (tmp_path / "summary.json").write_text('{"plan": {"notches_hz": [5000.0]}, "pick": %s}' % pick)
+        with pytest.raises(BadValueError, match="not a sweep summary"):
+            sweep.read_pick(tmp_path)
