@@ -1,9 +1,9 @@
-"""emulate: hear a proposed analog twin-T notch filter before you build it."""
+"""emulate: hear a proposed analog twin-T notch filter before you build it.
+
+Importing the package is cheap and changes no environment variable; the command
+line holds BLAS to one thread when it starts (:mod:`emulate.cli.options`).
+"""
 
 __version__ = "0.1.0"
 
-import os as _os
-
-# The circuit engine solves thousands of tiny (about 10 x 10) systems; BLAS threads
-# only add start-up and contention there, and they stall forked sweep workers.
-_os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+__all__ = ["__version__"]

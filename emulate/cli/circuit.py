@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import click
 
-from emulate.dsp import emulation
 from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
@@ -24,6 +23,8 @@ def response(rate, plot_path, as_json, **options):
     payload = summary.metrics_payload(network, metrics, found)
     text = summary.response_text(network, metrics, found)
     if rate is not None:
+        from emulate.dsp import emulation  # numba kernels: loaded only for --rate
+
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)

@@ -6,7 +6,7 @@ from __future__ import annotations
 import click
 
 from emulate.audio import stream as audio
-from emulate.work import presets, sweep
+from emulate.work import presets
 from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import (circuit_options, emit, json_option, main, network_from_options,
@@ -46,6 +46,8 @@ def sibilance(takes, band, plot_path, as_json):
 
 
 def _sweep_notches(from_hz, to_hz, steps, at):
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     if at:
         if from_hz or to_hz:
             raise click.UsageError("give either --at or --from/--to/--steps, not both")
@@ -80,6 +82,8 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
                   source, load, preset, presets_dir, workers, plot_path, as_json):
     """Render every take at every notch setting; reels, a summary table and a pick."""
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     held = {} if preset is None else sweep.held_by(presets.PresetStore(presets_dir).load(preset).network())
     given = {"q": q, "series": series, "cap_series": cap_series, "mix": mix,
              "impedance_ohms": None if impedance is None else parse_value(impedance, "resistance")}
@@ -160,6 +164,8 @@ def _build_note(design) -> str:
 
 
 def _from_sweep(folder, mix) -> dict:
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     plan, pick = sweep.read_pick(folder)
     design = plan.design(pick["notch_target_hz"])
     target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan.series}
