@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from emulate.dsp import kernels
+from emulate.dsp import digital, kernels
 from emulate.dsp.depth import check_mix
 from emulate.dsp.digital import check_sample_rate_hz, design_sections
 from emulate.errors import BadValueError, EmulateError
@@ -237,6 +237,42 @@ class NotchProcessor:
             self._pending = circuit
             return
         self._start_fade(design)
+
+    def frequency_response(self, f_hz):
+        """Complex response at ``f_hz`` of what :meth:`process` does once settled.
+
+        The current design's sections and the dry path delayed by the latency, mixed at
+        the mix target: ``(1 - m) exp(-j w L) + m H(exp(j w))``, evaluated from the
+        second-order sections in one vectorised call (no impulse response, no
+        truncation). A crossfade or mix ramp in progress is not included.
+
+        Parameters
+        ----------
+        f_hz : array_like
+            Frequencies in Hz (any shape, 0 to Nyquist meaningful).
+
+        Returns
+        -------
+        ndarray of complex
+            The response, the shape of ``f_hz``.
+
+        Raises
+        ------
+        EmulateError
+            If :meth:`prepare` has not been called.
+
+        Example
+        -------
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
+        >>> proc.prepare(48000, 1); float(abs(proc.frequency_response(1000.0))) < 1e-6
+        True
+        """
+        self._require_prepared()
+        f = np.asarray(f_hz, dtype=float)
+        wet = digital._sos_response_z(self._stage.design.sos, f.ravel(), self._fs).reshape(f.shape)
+        dry = np.exp(-2j * np.pi * f * self.latency_samples / self._fs)
+        return (1.0 - self._mix) * dry + self._mix * wet
 
     # --- processing ----------------------------------------------------------
 
