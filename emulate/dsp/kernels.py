@@ -238,11 +238,11 @@ def codes_to_float(codes, scale, out):
 
     Parameters
     ----------
-    codes : ndarray of int16 or int32, shape (frames, channels)
+    codes : ndarray of int16 or int32, shape (frames, channels), C-contiguous
         Codes as libsndfile hands them (left-aligned in the container).
     scale : float
         ``2**-(container bits - 1)``, so a full-scale code reads 1.0.
-    out : ndarray, shape (frames, channels)
+    out : ndarray, shape (frames, channels), C-contiguous
         float64 output.
 
     Raises
@@ -255,9 +255,9 @@ def codes_to_float(codes, scale, out):
     >>> out[:, 0].tolist()
     [0.5, -1.0]
     """
-    for t in range(codes.shape[0]):
-        for c in range(codes.shape[1]):
-            out[t, c] = codes[t, c] * scale
+    flat_codes, flat_out = codes.ravel(), out.ravel()  # C order: one vectorised loop
+    for i in range(flat_codes.size):
+        flat_out[i] = flat_codes[i] * scale
 
 
 @njit(cache=True, nogil=True, inline="always")
@@ -284,7 +284,7 @@ def encode_codes(y, scale, lo, hi, align, dither, rng, tally, codes):
 
     Parameters
     ----------
-    y : ndarray, shape (frames, channels)
+    y : ndarray, shape (frames, channels), C-contiguous
         float64 samples, full scale 1.0.
     scale : float
         ``2**(bits - 1)``.
@@ -298,7 +298,7 @@ def encode_codes(y, scale, lo, hi, align, dither, rng, tally, codes):
         splitmix64 counter of the dither generator, updated in place.
     tally : ndarray, shape (4,)
         See ``TALLY_*``; updated in place.
-    codes : ndarray of int16 or int32, shape (frames, channels)
+    codes : ndarray of int16 or int32, shape (frames, channels), C-contiguous
         Output codes.
 
     Raises
@@ -316,21 +316,21 @@ def encode_codes(y, scale, lo, hi, align, dither, rng, tally, codes):
     top, bottom = tally[0], tally[1]
     clipped, non_finite = 0, 0
     clip_lo, clip_hi = lo - 0.5, hi + 0.5
-    for t in range(y.shape[0]):
-        for c in range(y.shape[1]):
-            s = y[t, c] * scale
-            if not (-np.inf < s < np.inf):
-                non_finite += 1
-                s = 0.0
-            top = max(top, s)
-            bottom = min(bottom, s)
-            if s >= clip_hi or s < clip_lo:
-                clipped += 1
-            if dither:
-                u1, u2 = _uniform_pair(rng)
-                s += u1
-                s -= u2
-            codes[t, c] = min(max(np.rint(s), lo), hi) * align
+    flat_y, flat_codes = y.ravel(), codes.ravel()  # C order: frame by frame, channel by channel
+    for i in range(flat_y.size):
+        s = flat_y[i] * scale
+        if not (-np.inf < s < np.inf):
+            non_finite += 1
+            s = 0.0
+        top = max(top, s)
+        bottom = min(bottom, s)
+        if s >= clip_hi or s < clip_lo:
+            clipped += 1
+        if dither:
+            u1, u2 = _uniform_pair(rng)
+            s += u1
+            s -= u2
+        flat_codes[i] = min(max(np.rint(s), lo), hi) * align
     tally[0], tally[1] = top, bottom
     tally[2] += clipped
     tally[3] += non_finite

@@ -309,6 +309,8 @@ class NotchProcessor:
             kernels.ramp_blend(self._old.run(x), wet, self._fade, wet)
             if self._fade[kernels.RAMP_VALUE] >= 1.0:
                 self._end_fade()
+        if self._old is None and self._mix_settled_at(1.0):
+            return wet  # what ramp_blend gives at g = 1 (0 * dry + 1 * wet), without the pass
         dry = self._dry(x)
         out = np.empty_like(x)
         kernels.ramp_blend(dry, wet, self._mix_ramp, out)
@@ -318,6 +320,10 @@ class NotchProcessor:
 
     def _design(self, z, p, k, notch_hz):
         return design_sections(z, p, k, self._fs, notch_hz=notch_hz, tolerance_db=self._tolerance_db)
+
+    def _mix_settled_at(self, value):
+        ramp = self._mix_ramp
+        return ramp[kernels.RAMP_VALUE] == ramp[kernels.RAMP_TARGET] == value
 
     def _ramp_samples(self):
         return max(1.0, round(self._smoothing_ms * 1e-3 * self._fs))
@@ -354,7 +360,9 @@ class NotchProcessor:
         if not (np.issubdtype(x.dtype, np.floating) or np.issubdtype(x.dtype, np.integer)):
             raise BadValueError(f"block dtype {x.dtype} is not allowed; allowed: real float samples")
         x = np.ascontiguousarray(x, dtype=np.float64)
-        if not np.all(np.isfinite(x)):
+        # a sum of finite samples is finite unless values near 1e308 overflow; only then
+        # (or on a real NaN/Inf) is the per-sample check run
+        if not math.isfinite(x.sum()) and not np.all(np.isfinite(x)):
             bad = np.argwhere(~np.isfinite(x))[0]
             raise BadValueError(
                 f"block holds NaN/Inf samples (first at frame {bad[0]}, channel {bad[1]}); allowed: finite samples"
