@@ -17,7 +17,6 @@ from pathlib import Path
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
-from scipy import signal
 
 from emulate.errors import BadValueError
 from emulate.files import atomic_path
@@ -207,6 +206,8 @@ def plot_tolerance(result, path) -> Path:
 # --- takes ----------------------------------------------------------------------------
 
 def _average_spectrum_db(x, fs: float):
+    from scipy import signal  # about 0.3 s to import: only the take pictures need it
+
     x = np.asarray(x, float)
     if x.ndim == 1:
         x = x[:, None]
