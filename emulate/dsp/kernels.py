@@ -310,7 +310,7 @@ def encode_codes(y, scale, lo, hi, align, dither, rng, tally, codes):
     >>> tally = np.array([-np.inf, np.inf, 0.0, 0.0]); codes = np.empty((3, 1), np.int16)
     >>> encode_codes(np.array([[0.5], [1.5], [-1.0]]), 32768.0, -32768.0, 32767.0, 1.0, False,
     ...              np.zeros(1, np.uint64), tally, codes)
-    >>> codes[:, 0].tolist(), tally[2]
+    >>> codes[:, 0].tolist(), float(tally[2])
     ([16384, 32767, -32768], 1.0)
     """
     top, bottom = tally[0], tally[1]
