@@ -2,7 +2,9 @@
 
 The handful of objects a script needs are importable from here; each loads its
 stage only when first used, so ``import emulate`` stays cheap and the render path
-lean (PEP 562 module ``__getattr__``).
+lean (PEP 562 module ``__getattr__``). Importing it changes no environment
+variable; the command line holds BLAS to one thread when it starts
+(:mod:`emulate.cli.options`).
 
 Example
 -------
@@ -13,12 +15,6 @@ Example
 """
 
 __version__ = "0.1.0"
-
-import os as _os
-
-# The circuit engine solves thousands of tiny (about 10 x 10) systems; BLAS threads
-# only add start-up and contention there, and they stall forked sweep workers.
-_os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 #: public name -> the module that owns it, in pipeline order
 _PUBLIC = {

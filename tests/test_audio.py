@@ -187,8 +187,10 @@ class TestRenderFile:
         for i, block_frames in enumerate([1, 7, 1000, 4000, 65536]):
             out = tmp_path / f"o{i}.wav"
             render_file(path, out, SosFilter(sos), subtype=subtype, block_frames=block_frames)
-            outputs.append(out.read_bytes())
-        assert all(o == outputs[0] for o in outputs)  # byte-identical files
+            outputs.append(sf.read(out, dtype="float64")[0])
+        # identical samples (not bytes: a FLOAT WAV's PEAK chunk holds the time of writing,
+        # to the second, so renders either side of a second boundary differ there)
+        assert all(np.array_equal(o, outputs[0]) for o in outputs)
 
     def test_filter_matches_whole_file_scipy(self, tmp_path):
         path, x = make_input(tmp_path, "wav", "PCM_24", frames=5000)
@@ -531,3 +533,80 @@ class TestDamagedFiles:
         with pytest.raises(AudioFileError, match="writing failed"):
             write_array(tmp_path / "o.wav", np.zeros(10), 8000)
         assert list(tmp_path.iterdir()) == []
+
+
+def notch_processor(notch_hz=6000.0):
+    from emulate.dsp.processor import NotchProcessor
+
+    # balanced twin-T, H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2) (Analog Devices MT-225)
+    w0 = 2 * np.pi * notch_hz
+    return NotchProcessor([1j * w0, -1j * w0], np.roots([1.0, 4 * w0, w0 ** 2]), 1.0,
+                          notch_hz=notch_hz)
+
+
+class TestRenderEqualsThePlainPath:
+    """The overlapped render (threads, codes read as integers, one-pass encoder) gives what
+    the plain path gives: libsndfile's float reading, scipy.signal.sosfilt (reference
+    library) over the processor's sections, then ``rint`` and clip to the code range."""
+
+    @staticmethod
+    def reference(path, subtype_bits=None):
+        x, _ = sf.read(path, dtype="float64", always_2d=True)
+        proc = notch_processor()
+        proc.prepare(RATE, x.shape[1])
+        return scipy.signal.sosfilt(proc.design.sos, x, axis=0)
+
+    @pytest.mark.parametrize("ext", ["wav", "flac", "aiff"])
+    def test_integer_output_within_one_lsb(self, tmp_path, ext):
+        # 24-bit output is not dithered; the filters differ only in the order of additions
+        # (~1e-16), which can move a sample across a rounding boundary: one LSB at most
+        path = tmp_path / f"in.{ext}"
+        write_codes(path, random_codes(np.random.default_rng(3), 20000, 2, 24) // 4, RATE, "PCM_24")
+        render_file(path, tmp_path / "o.wav", notch_processor(), block_frames=4096)
+        expected = np.clip(np.rint(self.reference(path) * 2.0 ** 23), -2 ** 23, 2 ** 23 - 1)
+        difference = np.abs(read_codes(tmp_path / "o.wav", 24) - expected)
+        assert difference.max() <= 1 and np.mean(difference == 0) > 0.999
+
+    def test_float_output_within_1e_9(self, tmp_path):
+        path = tmp_path / "in.wav"
+        write_codes(path, random_codes(np.random.default_rng(4), 20000, 2, 16) // 4, RATE, "PCM_16")
+        render_file(path, tmp_path / "o.wav", notch_processor(), subtype="DOUBLE", block_frames=3000)
+        np.testing.assert_allclose(read_all(tmp_path / "o.wav"), self.reference(path), rtol=0, atol=1e-9)
+
+    def test_dithered_output_within_one_lsb_of_the_undithered(self, tmp_path):
+        # TPDF dither on (-1, 1) LSB moves rint(s + d) at most one code from rint(s)
+        path = tmp_path / "in.flac"
+        write_codes(path, random_codes(np.random.default_rng(5), 20000, 2, 16) // 4, RATE, "PCM_16")
+        render_file(path, tmp_path / "o.flac", notch_processor(), block_frames=5000)
+        expected = np.clip(np.rint(self.reference(path) * 2.0 ** 15), -2 ** 15, 2 ** 15 - 1)
+        assert np.abs(read_codes(tmp_path / "o.flac", 16) - expected).max() <= 1
+
+
+class TestInterruptedRender:
+    @staticmethod
+    def pipeline_threads():
+        import threading
+
+        return [t for t in threading.enumerate() if t.name.startswith("emulate-")]
+
+    @pytest.mark.parametrize("subtype", ["PCM_24", "FLOAT"])
+    def test_ctrl_c_leaves_no_file_and_no_thread(self, tmp_path, subtype):
+        path, _ = make_input(tmp_path, "wav", subtype, frames=20000)
+        before = snapshot(tmp_path)
+        with pytest.raises(KeyboardInterrupt):
+            render_file(path, tmp_path / "o.wav", Interrupting(after=4), block_frames=1000)
+        assert snapshot(tmp_path) == before and not self.pipeline_threads()
+
+    def test_write_failure_leaves_no_file_and_no_thread(self, tmp_path, monkeypatch):
+        path, _ = make_input(tmp_path, "wav", "PCM_16", frames=20000)
+        before = snapshot(tmp_path)
+        calls = []
+
+        def full_disk(self, data):
+            calls.append(1)
+            if len(calls) > 2:
+                raise OSError(28, "No space left on device")
+        monkeypatch.setattr(sf.SoundFile, "write", full_disk)
+        with pytest.raises(AudioFileError, match="writing failed .No space left"):
+            render_file(path, tmp_path / "o.wav", Identity(), block_frames=1000)
+        assert snapshot(tmp_path) == before and not self.pipeline_threads()

@@ -49,6 +49,25 @@ class TestDigitalResponse:
         h_d, fidelity = plots.digital_response(NET, 48000, f)
         assert plots.worst_error_db(f, NET.response(f), h_d) == pytest.approx(fidelity, abs=0.01)
 
+    @pytest.mark.parametrize("network", [NET, NET.replace(mix=0.6)])
+    def test_slow_plot_bug_same_values_as_the_impulse_response(self, network):
+        # the plot used to read the response off 2 s of the rendered impulse response, point
+        # by point (about 20 s a plot); the vectorised sections must give the same values.
+        # Reference: scipy.signal.freqz of that impulse response (the old method). 1e-12:
+        # the impulse response decays below 1e-16 well within 2 s at this Q (0.25), so
+        # only rounding of ~1e5 summed terms separates the two.
+        from scipy import signal
+        from emulate.dsp.emulation import processor_for
+
+        f = np.geomspace(20, 20000, 40)
+        processor = processor_for(network)
+        processor.prepare(48000, 1)
+        impulse = np.zeros((96000, 1))
+        impulse[0, 0] = 1.0
+        _, h_ref = signal.freqz(processor.process(impulse)[:, 0], worN=f, fs=48000)
+        h_d, _ = plots.digital_response(network, 48000, f)
+        assert np.max(np.abs(h_d - h_ref)) < 1e-12
+
 
 class TestPlotTolerance:
     def test_writes_png(self, tmp_path):

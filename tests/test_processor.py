@@ -224,6 +224,22 @@ class TestReset:
             NotchProcessor(*balanced_zpk(1000.0), notch_hz=1000.0).reset()
 
 
+class TestFrequencyResponse:
+    @pytest.mark.parametrize("mix", [1.0, 0.5, 0.0])
+    def test_matches_sosfreqz_of_the_design(self, mix):
+        # reference: scipy.signal.sosfreqz of the processor's own sections, mixed as the
+        # class docstring states, H_mix = (1 - m) + m H (latency 0); 1e-12: both evaluate the
+        # same products of quadratics, only rounding differs
+        proc = prepared(mix=mix)
+        f = np.geomspace(20, 20000, 50)
+        _, h = signal.sosfreqz(proc.design.sos, worN=f, fs=FS)
+        assert np.max(np.abs(proc.frequency_response(f) - ((1 - mix) + mix * h))) < 1e-12
+
+    def test_refuses_before_prepare(self):
+        with pytest.raises(EmulateError, match="not prepared"):
+            NotchProcessor(*balanced_zpk(1000.0), notch_hz=1000.0).frequency_response([100.0])
+
+
 def run_with_change(block, change_at, change):
     """Process noise in blocks of ``block`` frames, calling ``change(proc)`` before frame ``change_at``."""
     proc = prepared(5000.0, smoothing_ms=10.0)

@@ -4,7 +4,7 @@ import re
 
 import pytest
 
-from emulate.report import sheet
+from emulate.report import plots, sheet
 from emulate.analog import tolerance
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
@@ -62,7 +62,7 @@ class TestWriteSheet:
     def test_error_leaves_nothing_behind(self, tmp_path, monkeypatch):
         def broken(*args, **kwargs):
             raise BadValueError("drawing failed")
-        monkeypatch.setattr(sheet.plots, "plot_response", broken)
+        monkeypatch.setattr(plots, "plot_response", broken)
         with pytest.raises(BadValueError, match="drawing failed"):
             sheet.write_sheet(tmp_path / "s", NET, tolerances=TOL)
         assert list(tmp_path.iterdir()) == []

@@ -28,7 +28,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.linalg
 
 from emulate.errors import CircuitError
 
@@ -320,6 +319,8 @@ def _positive(value, what: str):
 
 def _finite_eigenvalues(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Finite generalized eigenvalues of ``a v = lambda b v`` (pencil scaled to ~1)."""
+    import scipy.linalg  # about 0.3 s of start-up: loaded only when roots are asked for
+
     try:
         alpha, beta = scipy.linalg.eig(a, b, right=False, homogeneous_eigvals=True)
     except (np.linalg.LinAlgError, ValueError) as exc:

@@ -1,4 +1,4 @@
-"""Audio files: streaming blocks, sample-format keeping, TPDF dither, clip report, atomic writes.
+"""Audio files: streaming blocks, sample-format keeping, atomic writes (encoding: :mod:`emulate.audio.encode`).
 
 Everything goes through libsndfile (the ``soundfile`` package), so WAV, FLAC, AIFF and
 every other container libsndfile reads are accepted. Audio is always handled as
@@ -11,16 +11,23 @@ bounded whatever the file length.
             extension names a container libsndfile writes, and the container holds
             the subtype (kept from IN unless one is asked for). Nothing is processed
             before all of this passes.
-2. read     float64 blocks from libsndfile; float input is checked for NaN/Inf.
+2. read     in a reader thread: integer PCM as its codes, scaled to float64 once in a
+            numba kernel (exactly libsndfile's float reading); float input as float64,
+            checked for NaN/Inf.
 3. process  ``processor.process(block)``; the processor's latency is compensated by
             feeding ``latency_samples`` frames of zeros after the input and dropping
             the first ``latency_samples`` output frames, so OUT lines up with IN
             sample for sample and has exactly its length.
-4. measure  peak level, samples over full scale.
-5. encode   integer PCM: scale to codes, TPDF dither for 8/16-bit, explicit clip to
-            the code range (counted); float PCM: written as is (never clipped).
-6. write    into a hidden temporary file beside OUT, moved onto OUT with
-            :func:`os.replace` at the end; removed on any error or Ctrl-C.
+4.-5. measure and encode in one pass (:mod:`emulate.audio.encode`): peak, clip and
+            over-scale counts; integer PCM: codes with TPDF dither for 8/16-bit and an
+            explicit clip to the code range; float PCM: written as is (never clipped).
+6. write    in a writer thread, into a hidden temporary file beside OUT, moved onto
+            OUT with :func:`os.replace` at the end; on any error or Ctrl-C both threads
+            are stopped and joined, then the file is removed
+            (:mod:`emulate.audio.pipeline`).
+
+Reading, processing and writing overlap (libsndfile and the kernels release the GIL);
+bounded queues keep memory at a few blocks whatever the length.
 
 Sample scaling is libsndfile's read convention in both directions: an N-bit code ``c``
 is the value ``c / 2**(N-1)``, so 0 dBFS is 1.0, the largest positive code is
@@ -48,6 +55,8 @@ from pathlib import Path
 import numpy as np
 import soundfile as sf
 
+from emulate.audio import pipeline
+from emulate.audio.encode import PCM_BITS, Encoder, container_bits
 from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning
 from emulate.files import atomic_path
 from emulate.validate import check_count
@@ -68,9 +77,6 @@ __all__ = [
 DEFAULT_BLOCK_FRAMES = 65536
 MAX_BLOCK_FRAMES = 1 << 20
 _EXTENSION_ALIASES = {"aif": "AIFF"}
-_PCM_BITS = {"PCM_S8": 8, "PCM_U8": 8, "PCM_16": 16, "PCM_24": 24, "PCM_32": 32}
-_FLOAT_SUBTYPES = frozenset({"FLOAT", "DOUBLE"})
-_DITHER_MAX_BITS = 16
 
 
 # --- results ------------------------------------------------------------------------
@@ -350,17 +356,38 @@ def _check_finite(block: np.ndarray, path, first_frame: int) -> None:
         f"{block[frame, channel]}; allowed: finite samples only (nothing written)")
 
 
-def _read_blocks(snd: sf.SoundFile, path, block_frames: int,
-                 reuse: bool) -> Iterator[np.ndarray]:
-    buf = np.empty((block_frames, snd.channels)) if reuse else None
-    check = snd.subtype not in _PCM_BITS  # integer PCM cannot hold NaN/Inf
+def _read_blocks(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
+    """New float64 blocks; integer PCM is read as its codes and converted once, exactly."""
+    if snd.subtype in PCM_BITS:
+        yield from _read_codes_as_float(snd, path, block_frames)
+        return
     done = 0
     while True:
-        block = _read(snd, path, done, block_frames, dtype="float64", always_2d=True, out=buf)
+        block = _read(snd, path, done, block_frames, dtype="float64", always_2d=True)
         if not len(block):
             return
-        if check:
-            _check_finite(block, path, done)
+        _check_finite(block, path, done)
+        done += len(block)
+        yield block
+
+
+def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
+    """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one kernel pass.
+
+    The codes come left-aligned in int16/int32, so ``code * 2**-(container bits - 1)``
+    is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
+    """
+    from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
+
+    wide = container_bits(PCM_BITS[snd.subtype])
+    dtype, scale = ("int16" if wide == 16 else "int32"), 2.0 ** -(wide - 1)
+    done = 0
+    while True:
+        codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
+        if not len(codes):
+            return
+        block = np.empty(codes.shape)
+        codes_to_float(codes, scale, block)
         done += len(block)
         yield block
 
@@ -400,7 +427,7 @@ def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.n
     """
     block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
     with _open_read(path) as snd:
-        yield from _read_blocks(snd, path, block_frames, reuse=False)
+        yield from _read_blocks(snd, path, block_frames)
 
 
 # --- processing with latency compensation ------------------------------------------------
@@ -437,92 +464,6 @@ def _processed(blocks: Iterator[np.ndarray], processor, latency: int, channels: 
         out = feed(block)
         if len(out):
             yield out
-
-
-# --- encoding ----------------------------------------------------------------------------
-class _Encoder:
-    """Float64 blocks -> arrays for libsndfile, with peak, clip and over-scale counts.
-
-    Integer PCM (Lipshitz, Wannamaker & Vanderkooy, "Quantization and Dither: A
-    Theoretical Survey", JAES 40(5), 1992): ``code = rint(x * 2**(N-1) + d)`` with TPDF
-    dither ``d = u1 - u2``, ``u1, u2`` uniform on [0, 1) (triangular on (-1, 1) LSB,
-    variance 1/6 LSB^2), then clipped explicitly to ``[-2**(N-1), 2**(N-1) - 1]``. The
-    dither is drawn from one seeded generator in sample order (frame by frame,
-    channel by channel), so the output does not depend on the block size.
-    """
-
-    def __init__(self, subtype: str, channels: int, block_frames: int, dither: bool,
-                 seed: int):
-        self.bits = _PCM_BITS.get(subtype)
-        self.is_float = subtype in _FLOAT_SUBTYPES
-        self.dither = dither and self.bits is not None and self.bits <= _DITHER_MAX_BITS
-        self.peak = 0.0
-        self.clipped = 0
-        self.over = 0
-        shape = (block_frames, channels)
-        self._scratch = np.empty(shape)
-        if self.bits is not None:
-            self.scale = float(2 ** (self.bits - 1))
-            self.lo, self.hi = -self.scale, self.scale - 1.0
-            # codes go to libsndfile left-aligned in int16/int32, which it truncates exactly
-            container_bits = 16 if self.bits <= 16 else 32
-            self.align = float(2 ** (container_bits - self.bits))
-            self._codes = np.empty(shape, np.int16 if container_bits == 16 else np.int32)
-        if self.dither:
-            self._rng = np.random.Generator(np.random.PCG64(seed))
-            self._uniform = np.empty(shape + (2,))
-
-    def encode(self, y: np.ndarray) -> np.ndarray:
-        """Measure ``y`` and return what to hand libsndfile for this block."""
-        if self.bits is not None:
-            return self._encode_int(y)
-        top, bottom = self._measure(y, 1.0)
-        outside = _count_outside(y, top, bottom, -1.0, _JUST_ABOVE_ONE)
-        if self.is_float:
-            self.over += outside  # float PCM holds values beyond full scale: not clipped
-            return y
-        self.clipped += outside  # lossy codecs: clipped to full scale here, explicitly
-        return np.clip(y, -1.0, 1.0, out=self._scratch[:len(y)])
-
-    def _measure(self, y: np.ndarray, scale: float) -> tuple[float, float]:
-        top, bottom = float(y.max()), float(y.min())
-        if not (math.isfinite(top) and math.isfinite(bottom)):
-            raise EmulateError("the processor produced NaN/Inf samples; nothing written")
-        self.peak = max(self.peak, top / scale, -bottom / scale)
-        return top, bottom
-
-    def _encode_int(self, y: np.ndarray) -> np.ndarray:
-        n = len(y)
-        s = np.multiply(y, self.scale, out=self._scratch[:n])
-        top, bottom = self._measure(s, self.scale)
-        # a sample clips when its nearest code (before dither) is outside the range;
-        # rint rounds half to even, so hi + 0.5 -> hi + 1 (clips), lo - 0.5 -> lo (does not)
-        self.clipped += _count_outside(s, top, bottom, self.lo - 0.5, self.hi + 0.5)
-        if self.dither:
-            u = self._rng.random(out=self._uniform[:n])
-            s += u[..., 0]
-            s -= u[..., 1]
-        np.rint(s, out=s)
-        # dither may push a sample at the largest code one code further: held at the rail
-        np.clip(s, self.lo, self.hi, out=s)
-        if self.align != 1.0:
-            s *= self.align
-        codes = self._codes[:n]
-        np.copyto(codes, s, casting="unsafe")
-        return codes
-
-
-_JUST_ABOVE_ONE = float(np.nextafter(1.0, 2.0))
-
-
-def _count_outside(s: np.ndarray, top: float, bottom: float, lo: float, hi: float) -> int:
-    """Samples with ``s < lo`` or ``s >= hi``; ``top``/``bottom`` (max/min) skip the scan."""
-    count = 0
-    if top >= hi:
-        count += int(np.count_nonzero(s >= hi))
-    if bottom < lo:
-        count += int(np.count_nonzero(s < lo))
-    return count
 
 
 # --- writing -----------------------------------------------------------------------------
@@ -583,18 +524,20 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
             processor.prepare(rate, channels)
             latency = check_count("processor latency_samples",
                                   getattr(processor, "latency_samples", 0), 0)
-        encoder = _Encoder(out_subtype, channels, block_frames, dither, dither_seed)
+        encoder = Encoder(out_subtype, dither, dither_seed)
         frames = 0
-        with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst:
+        # reading (thread), processing and encoding (here), writing (thread) overlap
+        with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst, \
+                pipeline.read_ahead(_read_blocks(src, in_path, block_frames)) as blocks, \
+                pipeline.write_behind(dst.write) as write:
             # 2. read
-            blocks = _read_blocks(src, in_path, block_frames, reuse=True)
             # 3. process (latency compensated)
             if processor is not None:
                 blocks = _processed(blocks, processor, latency, channels, block_frames,
                                     progress)
             for block in blocks:
                 # 4.-5. measure and encode, 6. write
-                dst.write(encoder.encode(block))
+                write(encoder.encode(block))
                 frames += len(block)
                 if processor is None and progress is not None:
                     progress(len(block))
@@ -603,7 +546,7 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
 
 
 def _report(in_path, out_path, frames, rate, channels, fmt, subtype, latency,
-            encoder: _Encoder, start: float) -> RenderReport:
+            encoder: Encoder, start: float) -> RenderReport:
     peak_dbfs = 20.0 * math.log10(encoder.peak) if encoder.peak > 0 else -math.inf
     return RenderReport(str(in_path), str(out_path), frames, rate, channels, fmt, subtype,
                         latency, peak_dbfs, encoder.clipped, encoder.over, encoder.dither,
@@ -824,7 +767,7 @@ def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
     subtype = _check_subtype(out_path, fmt, subtype, kept=False)
     frames, channels = x.shape
     block = min(frames, DEFAULT_BLOCK_FRAMES)
-    encoder = _Encoder(subtype, channels, block, dither=True, seed=dither_seed)
+    encoder = Encoder(subtype, dither=True, seed=dither_seed)
     with _atomic_output(out_path, fmt, subtype, samplerate, channels) as dst:
         for first in range(0, frames, block):
             dst.write(encoder.encode(np.ascontiguousarray(x[first:first + block])))

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from emulate.report import plots, sheet
+from emulate.report import sheet
 from emulate.analog import spec, tolerance
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options)
@@ -65,6 +65,8 @@ def tolerance_command(plot_path, force, as_json, **options):
     check_plot(plot_path, force)
     _, result, trim = _analyse(network, options)
     if plot_path:
+        from emulate.report import plots  # matplotlib: loaded only for --plot
+
         plots.plot_tolerance(result, plot_path)
     emit(as_json, result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim))
 

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import click
 
-from emulate.dsp import emulation
 from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
@@ -27,6 +26,8 @@ def response(rate, plot_path, force, as_json, **options):
     payload = summary.metrics_payload(network, metrics, found)
     text = summary.response_text(network, metrics, found)
     if rate is not None:
+        from emulate.dsp import emulation  # numba kernels: loaded only for --rate
+
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)

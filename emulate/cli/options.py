@@ -16,8 +16,6 @@ import warnings
 import click
 
 from emulate import __version__, files, lifetime
-from emulate.work import presets
-from emulate.analog import spec
 from emulate.errors import EmulateError, EmulateWarning
 
 PART_HELP = {
@@ -39,6 +37,20 @@ COMMAND_MODULES = {
     "tolerance": "build", "sheet": "build",
 }
 
+# the first line of each command's help, for ``emulate --help`` without importing the
+# command modules (tests/test_cli.py checks that each line matches its command)
+COMMAND_SUMMARY = {
+    "response": "Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table.",
+    "design": "Design a balanced twin-T for a target notch and snap it to preferred values.",
+    "render": "Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).",
+    "demo": "Invented two-host podcast: takes, sibilance, presets, renders and pictures.",
+    "sibilance": "Find where one speaker's sibilance sits, over one or more takes.",
+    "sweep": "Render every take at every notch setting; reels, a summary table and a pick.",
+    "preset": "Keep notch settings per speaker: save, list, show, delete.",
+    "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
+    "sheet": "Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions.",
+}
+
 
 class _Group(click.Group):
     """Lazy commands; package errors become one clear line, package warnings notes."""
@@ -50,6 +62,28 @@ class _Group(click.Group):
         if name in COMMAND_MODULES and name not in self.commands:
             importlib.import_module(f"emulate.cli.{COMMAND_MODULES[name]}")
         return super().get_command(ctx, name)
+
+    def format_commands(self, ctx, formatter):
+        """The command list from :data:`COMMAND_SUMMARY`, so ``--help`` imports no command."""
+        rows = [(name, COMMAND_SUMMARY[name]) for name in self.list_commands(ctx)
+                if name in COMMAND_SUMMARY]
+        if len(rows) < len(self.list_commands(ctx)):  # a command without a summary line
+            return super().format_commands(ctx, formatter)
+        limit = formatter.width - 6 - max(len(name) for name, _ in rows)
+        with formatter.section("Commands"):
+            formatter.write_dl([(name, click.utils.make_default_short_help(text, limit))
+                                for name, text in rows])
+
+    def main(self, *args, **kwargs):
+        """Run the command line; BLAS is held to one thread for the whole run.
+
+        Set here, when the command line starts and before numpy is loaded, not on
+        import: importing the package changes no environment variable. The circuit
+        engine solves thousands of tiny (about 10 x 10) systems, where BLAS threads only
+        add start-up and contention, and they stalled forked sweep workers.
+        """
+        os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+        return super().main(*args, **kwargs)
 
     def invoke(self, ctx):
         mark = len(files.kept_files())
@@ -108,9 +142,10 @@ def main():
     """Hear a proposed analog twin-T notch before you build it."""
 
 
+PRESETS_ENV_VAR = "EMULATE_PRESETS_DIR"  # emulate.work.presets.ENV_VAR, without importing it
 _presets_dir_option = click.option(
     "--presets", "presets_dir", type=click.Path(file_okay=False),
-    help=f"presets folder; default ${presets.ENV_VAR} or ./presets")
+    help=f"presets folder; default ${PRESETS_ENV_VAR}, else $XDG_DATA_HOME/emulate/presets")
 
 
 def presets_option(command):
@@ -118,8 +153,10 @@ def presets_option(command):
     return _presets_dir_option(command)
 
 
-def store_from(options: dict) -> presets.PresetStore:
-    """The preset store the options name (``--presets``, else the default folder)."""
+def store_from(options: dict):
+    """The :class:`~emulate.work.presets.PresetStore` the options name (``--presets``, else the default folder)."""
+    from emulate.work import presets
+
     return presets.PresetStore(options.get("presets_dir"))
 
 
@@ -147,6 +184,8 @@ def circuit_options(command):
 
 def network_from_options(options: dict):
     """The network the command-line options describe."""
+    from emulate.analog import spec
+
     overrides = {key: options.get(key) for key in spec.CIRCUIT_KEYS if options.get(key) is not None}
     document, where = {}, ""
     if options.get("circuit_file") and options.get("preset"):

@@ -7,7 +7,7 @@ from pathlib import Path
 import click
 
 from emulate.audio import stream as audio
-from emulate.work import presets, sweep
+from emulate.work import presets
 from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
@@ -49,6 +49,8 @@ def sibilance(takes, band, plot_path, force, as_json):
 
 
 def _sweep_notches(from_hz, to_hz, steps, at):
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     if at:
         if from_hz or to_hz:
             raise click.UsageError("give either --at or --from/--to/--steps, not both")
@@ -88,6 +90,8 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
 
     The --out folder appears complete or not at all; a take inside it is refused.
     """
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     held = {} if preset is None else sweep.held_by(presets.PresetStore(presets_dir).load(preset).network())
     given = {"q": q, "series": series, "cap_series": cap_series, "mix": mix,
              "impedance_ohms": None if impedance is None else parse_value(impedance, "resistance")}
@@ -185,6 +189,8 @@ def _build_note(design) -> str:
 
 
 def _from_sweep(folder, mix) -> dict:
+    from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
+
     plan, pick = sweep.read_pick(folder)
     design = plan.design(pick["notch_target_hz"])
     target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan.series}

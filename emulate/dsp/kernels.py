@@ -12,17 +12,40 @@ from __future__ import annotations
 import numpy as np  # noqa: F401  (the docstring examples use it)
 from numba import njit
 
-__all__ = ["sos_filter", "ramp_blend", "delay_line", "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET"]
+__all__ = ["sos_filter", "ramp_blend", "delay_line", "codes_to_float", "encode_codes",
+           "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET", "TALLY_TOP", "TALLY_BOTTOM", "TALLY_CLIPPED",
+           "TALLY_NON_FINITE"]
 
 # Layout of a ramp state array (float64[3]).
 RAMP_VALUE = 0
 RAMP_STEP = 1
 RAMP_TARGET = 2
 
+# Layout of an encoder tally array (float64[4]), carried across blocks.
+TALLY_TOP = 0  # largest scaled sample so far (-inf before any)
+TALLY_BOTTOM = 1  # smallest scaled sample so far (+inf before any)
+TALLY_CLIPPED = 2  # samples whose nearest code lay outside the code range
+TALLY_NON_FINITE = 3  # NaN/Inf samples met
+
+# splitmix64 (Steele, Lea & Flood, "Fast splittable pseudorandom number generators",
+# OOPSLA 2014): a 64-bit counter, stepped by the golden gamma and mixed.
+_GAMMA = np.uint64(0x9E3779B97F4A7C15)
+_MIX1 = np.uint64(0xBF58476D1CE4E5B9)
+_MIX2 = np.uint64(0x94D049BB133111EB)
+_HALF = np.uint64(32)
+_LOW32 = np.uint64(0xFFFFFFFF)
+_TWO_POW_MINUS_32 = 2.0 ** -32
+
 
 @njit(cache=True, nogil=True)
 def sos_filter(sos, x, state, out):
     """Filter ``x`` through cascaded second-order sections (Direct Form II transposed).
+
+    The sections run two at a time over two channels at a time, with the coefficients
+    and the eight state values held in local variables (registers) for the whole
+    block: four independent recurrences per sample, so the processor overlaps their
+    feedback latencies. The arithmetic per section and sample is the textbook DF-II-T
+    order, so the samples equal a section-by-section, sample-by-sample loop exactly.
 
     Parameters
     ----------
@@ -46,18 +69,90 @@ def sos_filter(sos, x, state, out):
     >>> sos_filter(sos, x, np.zeros((1, 1, 2)), y); y[:, 0].tolist()
     [0.5, 0.5, 0.5]
     """
-    frames, channels = x.shape
-    n_sections = sos.shape[0]
-    for c in range(channels):
-        for t in range(frames):
-            v = x[t, c]
-            for s in range(n_sections):
-                # y = b0 v + s1; s1 = b1 v - a1 y + s2; s2 = b2 v - a2 y (DF-II-T)
-                y = sos[s, 0] * v + state[s, c, 0]
-                state[s, c, 0] = sos[s, 1] * v - sos[s, 4] * y + state[s, c, 1]
-                state[s, c, 1] = sos[s, 2] * v - sos[s, 5] * y
-                v = y
-            out[t, c] = v
+    channels = x.shape[1]
+    src = x
+    for s in range(0, sos.shape[0], 2):
+        for c in range(0, channels, 2):
+            if c + 1 < channels:
+                _section_pair_stereo(sos, s, src, c, state, out)
+            else:
+                _section_pair_mono(sos, s, src, c, state, out)
+        src = out
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _coefficients(sos, s):
+    """``b0, b1, b2, a1, a2`` of section ``s``; a pass-through section past the last one."""
+    if s < sos.shape[0]:
+        return sos[s, 0], sos[s, 1], sos[s, 2], sos[s, 4], sos[s, 5]
+    return 1.0, 0.0, 0.0, 0.0, 0.0
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _state(state, s, c):
+    if s < state.shape[0]:
+        return state[s, c, 0], state[s, c, 1]
+    return 0.0, 0.0
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _keep_state(state, s, c, s1, s2):
+    if s < state.shape[0]:
+        state[s, c, 0] = s1
+        state[s, c, 1] = s2
+
+
+@njit(cache=True, nogil=True)
+def _section_pair_stereo(sos, s, x, c, state, out):
+    """Sections ``s`` and ``s + 1`` on channels ``c`` and ``c + 1`` (a missing section passes)."""
+    b0, b1, b2, a1, a2 = _coefficients(sos, s)
+    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
+    p1, p2 = _state(state, s, c)
+    q1, q2 = _state(state, s, c + 1)
+    r1, r2 = _state(state, s + 1, c)
+    t1, t2 = _state(state, s + 1, c + 1)
+    for i in range(x.shape[0]):
+        v = x[i, c]
+        w = x[i, c + 1]
+        # y = b0 v + s1; s1 = b1 v - a1 y + s2; s2 = b2 v - a2 y (DF-II-T)
+        y = b0 * v + p1
+        p1 = b1 * v - a1 * y + p2
+        p2 = b2 * v - a2 * y
+        z = b0 * w + q1
+        q1 = b1 * w - a1 * z + q2
+        q2 = b2 * w - a2 * z
+        u = d0 * y + r1
+        r1 = d1 * y - e1 * u + r2
+        r2 = d2 * y - e2 * u
+        h = d0 * z + t1
+        t1 = d1 * z - e1 * h + t2
+        t2 = d2 * z - e2 * h
+        out[i, c] = u
+        out[i, c + 1] = h
+    _keep_state(state, s, c, p1, p2)
+    _keep_state(state, s, c + 1, q1, q2)
+    _keep_state(state, s + 1, c, r1, r2)
+    _keep_state(state, s + 1, c + 1, t1, t2)
+
+
+@njit(cache=True, nogil=True)
+def _section_pair_mono(sos, s, x, c, state, out):
+    """Sections ``s`` and ``s + 1`` on channel ``c`` (a missing section passes)."""
+    b0, b1, b2, a1, a2 = _coefficients(sos, s)
+    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
+    p1, p2 = _state(state, s, c)
+    r1, r2 = _state(state, s + 1, c)
+    for i in range(x.shape[0]):
+        v = x[i, c]
+        y = b0 * v + p1
+        p1 = b1 * v - a1 * y + p2
+        p2 = b2 * v - a2 * y
+        u = d0 * y + r1
+        r1 = d1 * y - e1 * u + r2
+        r2 = d2 * y - e2 * u
+        out[i, c] = u
+    _keep_state(state, s, c, p1, p2)
+    _keep_state(state, s + 1, c, r1, r2)
 
 
 @njit(cache=True, nogil=True)
@@ -135,3 +230,107 @@ def delay_line(x, buffer, position, out):
         if i == delay:
             i = 0
     position[0] = i
+
+
+@njit(cache=True, nogil=True)
+def codes_to_float(codes, scale, out):
+    """``out = codes * scale``: integer sample codes to float64, exact for a power-of-two scale.
+
+    Parameters
+    ----------
+    codes : ndarray of int16 or int32, shape (frames, channels), C-contiguous
+        Codes as libsndfile hands them (left-aligned in the container).
+    scale : float
+        ``2**-(container bits - 1)``, so a full-scale code reads 1.0.
+    out : ndarray, shape (frames, channels), C-contiguous
+        float64 output.
+
+    Raises
+    ------
+    Nothing (no checks; the caller validates).
+
+    Example
+    -------
+    >>> out = np.empty((2, 1)); codes_to_float(np.array([[16384], [-32768]], np.int16), 2.0 ** -15, out)
+    >>> out[:, 0].tolist()
+    [0.5, -1.0]
+    """
+    flat_codes, flat_out = codes.ravel(), out.ravel()  # C order: one vectorised loop
+    for i in range(flat_codes.size):
+        flat_out[i] = flat_codes[i] * scale
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _uniform_pair(rng):
+    """Two uniforms on [0, 1) from one splitmix64 step of ``rng[0]`` (32 bits each)."""
+    rng[0] += _GAMMA
+    z = rng[0]
+    z = (z ^ (z >> np.uint64(30))) * _MIX1
+    z = (z ^ (z >> np.uint64(27))) * _MIX2
+    z = z ^ (z >> np.uint64(31))
+    return float(z >> _HALF) * _TWO_POW_MINUS_32, float(z & _LOW32) * _TWO_POW_MINUS_32
+
+
+@njit(cache=True, nogil=True)
+def encode_codes(y, scale, lo, hi, align, dither, rng, tally, codes):
+    """Float samples to integer codes in one pass: scale, measure, dither, round, clip.
+
+    Per sample, frame by frame and channel by channel: ``s = y * scale``; the tally
+    keeps the largest and smallest ``s``, counts NaN/Inf and counts ``s`` whose nearest
+    code is outside ``[lo, hi]`` (``s < lo - 0.5`` or ``s >= hi + 0.5``: round half to
+    even sends ``hi + 0.5`` up and ``lo - 0.5`` up); with ``dither`` TPDF dither
+    ``u1 - u2`` is added (``u1, u2`` uniform on [0, 1), one generator step per sample);
+    then ``code = clip(rint(s), lo, hi) * align``.
+
+    Parameters
+    ----------
+    y : ndarray, shape (frames, channels), C-contiguous
+        float64 samples, full scale 1.0.
+    scale : float
+        ``2**(bits - 1)``.
+    lo, hi : float
+        Smallest and largest code, ``-2**(bits - 1)`` and ``2**(bits - 1) - 1``.
+    align : float
+        ``2**(container bits - bits)``: codes go to libsndfile left-aligned.
+    dither : bool
+        Add TPDF dither.
+    rng : ndarray of uint64, shape (1,)
+        splitmix64 counter of the dither generator, updated in place.
+    tally : ndarray, shape (4,)
+        See ``TALLY_*``; updated in place.
+    codes : ndarray of int16 or int32, shape (frames, channels), C-contiguous
+        Output codes.
+
+    Raises
+    ------
+    Nothing (no checks; the caller validates and reads the tally).
+
+    Example
+    -------
+    >>> tally = np.array([-np.inf, np.inf, 0.0, 0.0]); codes = np.empty((3, 1), np.int16)
+    >>> encode_codes(np.array([[0.5], [1.5], [-1.0]]), 32768.0, -32768.0, 32767.0, 1.0, False,
+    ...              np.zeros(1, np.uint64), tally, codes)
+    >>> codes[:, 0].tolist(), float(tally[2])
+    ([16384, 32767, -32768], 1.0)
+    """
+    top, bottom = tally[0], tally[1]
+    clipped, non_finite = 0, 0
+    clip_lo, clip_hi = lo - 0.5, hi + 0.5
+    flat_y, flat_codes = y.ravel(), codes.ravel()  # C order: frame by frame, channel by channel
+    for i in range(flat_y.size):
+        s = flat_y[i] * scale
+        if not (-np.inf < s < np.inf):
+            non_finite += 1
+            s = 0.0
+        top = max(top, s)
+        bottom = min(bottom, s)
+        if s >= clip_hi or s < clip_lo:
+            clipped += 1
+        if dither:
+            u1, u2 = _uniform_pair(rng)
+            s += u1
+            s -= u2
+        flat_codes[i] = min(max(np.rint(s), lo), hi) * align
+    tally[0], tally[1] = top, bottom
+    tally[2] += clipped
+    tally[3] += non_finite

@@ -28,7 +28,6 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from emulate.analog import parts
-from emulate.report import plots
 from emulate.errors import BadValueError
 from emulate import files
 from emulate.files import atomic_path
@@ -315,6 +314,8 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     blocks = compose(network, tolerances=tolerances, design=design, tolerance_result=tolerance_result,
                      trim=trim, title=title)
     # the whole folder is written beside out_dir, then swapped in (an old one removed after)
+    from emulate.report import plots  # matplotlib: loaded only when the pictures are drawn
+
     with atomic_path(out_dir, mode=0o755) as temporary:  # a sheet is for sharing
         temporary.mkdir()
         plots.plot_response(network, temporary / PICTURES["response"], fs=fs)

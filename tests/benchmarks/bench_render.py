@@ -1,29 +1,42 @@
-"""Render benchmark: streaming copy vs notch render of a long take, and peak memory.
+"""Render benchmark: render vs a same-format streaming copy, peak memory, kernel speed, fixed cost.
 
-Makes a 10-minute 48 kHz stereo 24-bit WAV of generated noise and tones (in a temporary
-folder, or --work DIR), then measures in one run, as medians of --repeats runs:
+Makes a --minutes long (default 60) 48 kHz stereo 24-bit WAV of generated noise and tones
+(in a temporary folder, or --work DIR; a tmpfs such as /dev/shm keeps disk writeback out
+of the timings), then measures in one run, the cases interleaved, as medians of
+--repeats runs:
 
-* the bare streaming copy (:func:`emulate.audio.stream.copy_file`), the reference time;
-* a render through :class:`emulate.dsp.processor.NotchProcessor` at default fidelity, a
-  balanced twin-T notch at 6 kHz, H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2)
-  (Analog Devices MT-225) as z, p, k;
-* a render through the plain prewarped bilinear filter of the same H(s)
-  (scipy.signal.bilinear_zpk -> zpk2sos, run by scipy.signal.sosfilt) on the same path;
+* ``copy_same_format``: the reference of issue 8, a plain soundfile streaming copy that
+  reads and writes the same integer format (int32 codes, PCM_24) in the same block size;
+* ``copy_file``: the project's own copy (:func:`emulate.audio.stream.copy_file`, the render
+  path with no processor);
+* ``render``: :func:`emulate.audio.stream.render_file` through
+  :class:`emulate.dsp.processor.NotchProcessor` at default fidelity, a balanced twin-T
+  notch at 6 kHz, H(s) = (s^2 + w0^2) / (s^2 + 4 w0 s + w0^2) (Analog Devices MT-225).
 
-and reports the real-time factor (audio seconds per wall second), the ratio
-render/copy and the fidelity the processor reports.
+Each case reports wall time, CPU time (all threads, time.process_time) and the real-time
+factor; the render reports render/copy ratios (goal: wall <= 1.25x copy_same_format).
 
-Peak memory is measured on the user's path: a fresh child runs the command line,
-``python -m emulate render IN OUT --r1 10k --r2 10k --r3 5k --c1 2n2 --c2 2n2 --c3 4n4``
-(a balanced twin-T at about 7.2 kHz), on a 1-second take, the timed take and, with
---hour, a 1-hour take; the figure is ru_maxrss from
-resource.getrusage(RUSAGE_CHILDREN) in a small meter process whose only child is
-the CLI, with the CLI's own VmHWM (read at exit) as a cross-check. Beside it: the
-resident memory after each import on the render path (where the fixed cost goes).
-Targets: render <= 4x copy (goal 2x); 1-hour peak RSS <= 200 MB. Writes JSON
-(--json, default bench-out/render.json). --profile prints where the render time goes.
+Also:
 
-Run: python3 tests/benchmarks/bench_render.py [--hour] [--repeats 3] [--work DIR]
+* kernel: :func:`emulate.dsp.kernels.sos_filter` in M samples/s (stereo, two sections,
+  2**20 frames, best of 15, the median beside it) against the feedback-latency limit: 590 M samples/s as issue 8
+  measured it on the reference CPU, and this machine's own estimate, twice the rate of
+  one section on one channel (one latency-bound recurrence; the stereo pair runs two of
+  them side by side) -- goal 80 %;
+* fixed cost before the first sample, in a fresh interpreter: imports of the render
+  path, design (processor_for + prepare), first block through the kernels (numba cache
+  loads) -- goal < 0.3 s;
+* peak memory on the user's path: a fresh child runs
+  ``python -m emulate render IN OUT --r1 10k --r2 10k --r3 5k --c1 2n2 --c2 2n2 --c3 4n4``
+  on a 1-second take and on the timed take; the figure is ru_maxrss from
+  resource.getrusage(RUSAGE_CHILDREN) in a small meter process whose only child is the
+  CLI, with the CLI's own VmHWM (read at exit) as a cross-check (goal: flat with length,
+  < 200 MB); beside it the resident memory after each import on the render path.
+
+Writes JSON (--json, default bench-out/render.json). --profile prints where the render
+time goes.
+
+Run: python3 tests/benchmarks/bench_render.py [--minutes 60] [--repeats 3] [--work DIR]
 """
 
 from __future__ import annotations
@@ -45,6 +58,8 @@ import numpy as np
 import scipy.signal
 import soundfile as sf
 
+KERNEL_LIMIT_ISSUE_MS = 590.0  # M samples/s, stereo, two biquads: issue 8's reference CPU
+
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
@@ -61,33 +76,10 @@ def twin_t_zpk(notch_hz: float = NOTCH_HZ):
     return np.array([1j * w0, -1j * w0]), np.roots([1.0, 4 * w0, w0 ** 2]), 1.0
 
 
-class BilinearSos:
-    """Plain bilinear transform prewarped at the notch, run by scipy.signal.sosfilt."""
-
-    latency_samples = 0
-
-    def __init__(self, notch_hz: float = NOTCH_HZ):
-        self.notch_hz = notch_hz
-
-    def prepare(self, sample_rate, channels):
-        # prewarp (Oppenheim & Schafer sec. 7.2): the analog notch placed at
-        # 2 fs tan(pi f / fs) maps exactly onto f after s = 2 fs (z - 1)/(z + 1)
-        warped_hz = sample_rate / np.pi * np.tan(np.pi * self.notch_hz / sample_rate)
-        z, p, k = scipy.signal.bilinear_zpk(*twin_t_zpk(warped_hz), sample_rate)
-        self.sos = scipy.signal.zpk2sos(z, p, k)
-        self.zi = np.zeros((len(self.sos), 2, channels))
-
-    def process(self, block):
-        out, self.zi = scipy.signal.sosfilt(self.sos, block, axis=0, zi=self.zi)
-        return out
-
-
 def notch_processor():
-    """The project's NotchProcessor at default fidelity, or None if it is missing."""
-    try:
-        from emulate.dsp.processor import NotchProcessor
-    except ImportError:
-        return None
+    """The project's NotchProcessor at default fidelity."""
+    from emulate.dsp.processor import NotchProcessor
+
     z, p, k = twin_t_zpk()
     return NotchProcessor(z, p, k, notch_hz=NOTCH_HZ)
 
@@ -114,15 +106,90 @@ def make_take(path: Path, seconds: float) -> Path:
     return path
 
 
+def copy_same_format(src: Path, dst: Path, block_frames: int) -> None:
+    """Plain streaming copy of the same integer format: int32 codes in, int32 codes out."""
+    with sf.SoundFile(src) as a, sf.SoundFile(dst, "w", a.samplerate, a.channels, a.subtype,
+                                              format=a.format) as b:
+        while True:
+            codes = a.read(block_frames, dtype="int32", always_2d=True)
+            if not len(codes):
+                return
+            b.write(codes)
+
+
 def timed_interleaved(cases: dict, repeats: int) -> dict:
-    """Median wall time of each case, the cases run in turn per repeat (same load drift)."""
-    runs = {name: [] for name in cases}
+    """Wall and CPU (all threads) seconds of each case, run in turn per repeat (same load drift)."""
+    runs = {name: {"wall": [], "cpu": []} for name in cases}
     for _ in range(repeats):
         for name, fn in cases.items():
-            t = time.perf_counter()
+            t, c = time.perf_counter(), time.process_time()
             fn()
-            runs[name].append(time.perf_counter() - t)
-    return {name: (statistics.median(r), r) for name, r in runs.items()}
+            runs[name]["cpu"].append(time.process_time() - c)
+            runs[name]["wall"].append(time.perf_counter() - t)
+    return runs
+
+
+def kernel_rates(repeats: int = 15, frames: int = 1 << 20) -> dict:
+    """sos_filter in M samples/s: stereo two sections, and one section on one channel."""
+    from emulate.dsp import kernels
+
+    proc = notch_processor()
+    proc.prepare(RATE, 2)
+    sos = np.vstack([proc.design.sos, proc.design.sos])[:2]  # two sections, as the issue counts
+    rates = {}
+    for name, n_sections, channels in (("stereo_two_sections", 2, 2), ("mono_one_section", 1, 1)):
+        x = np.random.default_rng(1).standard_normal((frames, channels))
+        out, state = np.empty_like(x), np.zeros((n_sections, channels, 2))
+        kernels.sos_filter(sos[:n_sections], x[:16], state, out[:16])  # load the cache
+        times = []
+        for _ in range(repeats):
+            t = time.perf_counter()
+            kernels.sos_filter(sos[:n_sections], x, state, out)
+            times.append(time.perf_counter() - t)
+        # best run: the least disturbed by other processes on a shared machine
+        rates[name] = x.size / min(times) / 1e6
+        rates[name + "_median"] = x.size / statistics.median(times) / 1e6
+    limit_here = 2.0 * rates["mono_one_section"]
+    return {"m_samples_per_s": rates["stereo_two_sections"],
+            "m_samples_per_s_median": rates["stereo_two_sections_median"],
+            "mono_one_section_m_samples_per_s": rates["mono_one_section"],
+            "latency_limit_here_m_samples_per_s": limit_here,
+            "share_of_limit_here": rates["stereo_two_sections"] / limit_here,
+            "latency_limit_issue_m_samples_per_s": KERNEL_LIMIT_ISSUE_MS,
+            "share_of_limit_issue": rates["stereo_two_sections"] / KERNEL_LIMIT_ISSUE_MS}
+
+
+# Fixed cost before the first sample, in a fresh interpreter (interpreter start excluded).
+FIXED_COST_CHILD = """
+import json, sys, time
+sys.path.insert(0, {root!r})
+t0 = time.perf_counter()
+import numpy as np
+from emulate.analog.networks import TwinT
+from emulate.audio import stream
+from emulate.audio.encode import Encoder
+from emulate.dsp.emulation import processor_for
+t1 = time.perf_counter()
+proc = processor_for(TwinT.balanced(6000.0, r_ohms=10e3))
+proc.prepare(48000, 2)
+t2 = time.perf_counter()
+codes = np.zeros((64, 2), np.int32)
+from emulate.dsp.kernels import codes_to_float
+block = np.empty(codes.shape)
+codes_to_float(codes, 2.0 ** -31, block)
+Encoder("PCM_24", True, 0).encode(proc.process(block))
+t3 = time.perf_counter()
+print(json.dumps({{"imports_s": t1 - t0, "design_s": t2 - t1, "first_block_s": t3 - t2,
+                  "total_s": t3 - t0}}))
+"""
+
+
+def fixed_cost(repeats: int) -> dict:
+    """Median of each part over ``repeats`` fresh interpreters (the first run warms the caches)."""
+    code = FIXED_COST_CHILD.format(root=str(ROOT))
+    _fresh_child([sys.executable, "-c", code])
+    runs = [json.loads(_fresh_child([sys.executable, "-c", code])) for _ in range(repeats)]
+    return {key: statistics.median(r[key] for r in runs) for key in runs[0]}
 
 
 CLI_PARTS = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "2n2", "--c2", "2n2",
@@ -177,7 +244,8 @@ print(json.dumps(steps))
 """
 RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "scipy.linalg", "numba", "emulate.dsp.kernels",
                        "emulate.analog.circuit", "emulate.cli.options", "emulate.dsp.digital",
-                       "emulate.dsp.processor", "emulate.cli.sound"]
+                       "emulate.dsp.processor", "emulate.audio.encode", "emulate.audio.pipeline",
+                       "emulate.cli.sound"]
 
 
 def _fresh_child(argv: list[str]) -> str:
@@ -212,7 +280,7 @@ def import_steps_rss() -> dict:
 
 def profile_render(src: Path, dst: Path, block_frames: int) -> dict:
     """One render under cProfile: own time summed per source file, and the top functions."""
-    proc = notch_processor() or BilinearSos()
+    proc = notch_processor()
     prof = cProfile.Profile()
     prof.enable()
     render_file(src, dst, proc, block_frames=block_frames)
@@ -232,53 +300,43 @@ def profile_render(src: Path, dst: Path, block_frames: int) -> dict:
 def run(args) -> dict:
     work = Path(args.work) if args.work else Path(tempfile.mkdtemp(prefix="emulate-bench-"))
     work.mkdir(parents=True, exist_ok=True)
-    src = make_take(work / "take10.wav", args.minutes * 60)
     seconds = args.minutes * 60
+    src = make_take(work / f"take{args.minutes:g}min.wav", seconds)
     out = work / "out.wav"
     bf = args.block_frames
     results = {"take": {"seconds": seconds, "rate_hz": RATE, "channels": 2,
                         "subtype": "PCM_24", "block_frames": bf, "repeats": args.repeats}}
 
-    proc = notch_processor()
-    # warm-up: page cache, numba compile/cache load, scipy imports
-    copy_file(src, out, bf)
-    if proc is not None:
-        render_file(src, out, proc, block_frames=bf)
+    # warm-up: page cache, numba cache load
+    copy_same_format(src, out, bf)
+    render_file(src, out, notch_processor(), block_frames=bf)
 
-    cases = {"copy": lambda: copy_file(src, out, bf),
-             "bilinear_scipy": lambda: render_file(src, out, BilinearSos(), block_frames=bf)}
-    if proc is not None:
-        cases["notch_processor"] = lambda: render_file(src, out, notch_processor(),
-                                                       block_frames=bf)
+    cases = {"copy_same_format": lambda: copy_same_format(src, out, bf),
+             "copy_file": lambda: copy_file(src, out, bf),
+             "render": lambda: render_file(src, out, notch_processor(), block_frames=bf)}
     load_before = os.getloadavg()[0]
-    timings = timed_interleaved(cases, args.repeats)
+    runs = timed_interleaved(cases, args.repeats)
     results["take"]["loadavg_1min_before_after"] = [load_before, os.getloadavg()[0]]
-    copy_s = timings["copy"][0]
-    for name, (med, runs) in timings.items():
-        results[name] = {"median_s": med, "runs_s": runs, "rtf": seconds / med}
-        if name != "copy":
-            results[name]["ratio_to_copy"] = med / copy_s
-    if proc is not None:
-        proc.prepare(RATE, 2)
-        results["notch_processor"].update(
-            fidelity_db=proc.fidelity_db, latency_samples=proc.latency_samples,
-            method=getattr(proc.design, "method", None),
-            sections=int(len(proc.design.sos)))
-    else:
-        results["notch_processor"] = "emulate.dsp.processor.NotchProcessor not available"
+    reference = {kind: statistics.median(runs["copy_same_format"][kind]) for kind in ("wall", "cpu")}
+    for name, r in runs.items():
+        wall, cpu = statistics.median(r["wall"]), statistics.median(r["cpu"])
+        results[name] = {"median_wall_s": wall, "median_cpu_s": cpu, "runs_wall_s": r["wall"],
+                         "runs_cpu_s": r["cpu"], "rtf": seconds / wall}
+        if name != "copy_same_format":
+            results[name]["wall_ratio_to_copy_same_format"] = wall / reference["wall"]
+            results[name]["cpu_ratio_to_copy_same_format"] = cpu / reference["cpu"]
+    proc = notch_processor()
+    proc.prepare(RATE, 2)
+    results["render"].update(fidelity_db=proc.fidelity_db, method=proc.design.method,
+                             sections=int(len(proc.design.sos)))
+    results["kernel"] = kernel_rates()
+    results["fixed_cost_s"] = fixed_cost(args.repeats)
 
     # a 1-second take shows the fixed cost (interpreter, imports, kernels, design);
     # longer takes must not add to it if memory is bounded
     short = make_take(work / "take1s.wav", 1.0)
-    results["memory"] = {
-        "cli_render_1s": cli_peak_rss(short, work / "out1s.wav"),
-        f"cli_render_{args.minutes:g}min": cli_peak_rss(src, out)}
-    if args.hour:
-        hour = make_take(work / "take60.wav", 3600)
-        results["memory"]["cli_render_60min"] = cli_peak_rss(hour, work / "out60.wav")
-        (work / "out60.wav").unlink()
-        if not args.work:
-            hour.unlink()
+    results["memory"] = {"cli_render_1s": cli_peak_rss(short, work / "out1s.wav"),
+                         f"cli_render_{args.minutes:g}min": cli_peak_rss(src, out)}
     results["import_steps_rss_mb"] = import_steps_rss()
     if args.profile:
         results["profile"] = profile_render(src, out, bf)
@@ -290,20 +348,27 @@ def run(args) -> dict:
 
 
 def report(results: dict) -> None:
-    print(f"take: {results['take']['seconds'] / 60:.0f} min, 48 kHz stereo PCM_24, "
-          f"block {results['take']['block_frames']} frames, median of "
-          f"{results['take']['repeats']}")
-    c = results["copy"]
-    print(f"copy              {c['median_s']:7.2f} s   RTF {c['rtf']:7.0f}x")
-    for name in ("bilinear_scipy", "notch_processor"):
+    take = results["take"]
+    print(f"take: {take['seconds'] / 60:g} min, 48 kHz stereo PCM_24, block {take['block_frames']} "
+          f"frames, median of {take['repeats']}; load average before/after "
+          f"{take['loadavg_1min_before_after'][0]:.1f}/{take['loadavg_1min_before_after'][1]:.1f}")
+    for name in ("copy_same_format", "copy_file", "render"):
         r = results[name]
-        if isinstance(r, str):
-            print(f"{name:17s} {r}")
-            continue
-        extra = (f"  fidelity {r['fidelity_db']:.3f} dB ({r['method']}, {r['sections']} "
-                 "sections)" if "fidelity_db" in r else "")
-        print(f"{name:17s} {r['median_s']:7.2f} s   RTF {r['rtf']:7.0f}x   "
-              f"render/copy {r['ratio_to_copy']:.2f}{extra}")
+        ratio = (f"   wall {r['wall_ratio_to_copy_same_format']:.2f}x, CPU "
+                 f"{r['cpu_ratio_to_copy_same_format']:.2f}x the same-format copy"
+                 if "wall_ratio_to_copy_same_format" in r else "")
+        print(f"{name:17s} wall {r['median_wall_s']:7.2f} s  CPU {r['median_cpu_s']:7.2f} s  "
+              f"RTF {r['rtf']:6.0f}x{ratio}")
+    r = results["render"]
+    print(f"  render fidelity {r['fidelity_db']:.3f} dB ({r['method']}, {r['sections']} sections)")
+    k = results["kernel"]
+    print(f"kernel: {k['m_samples_per_s']:.0f} M samples/s stereo, two sections, best of 15 (median "
+          f"{k['m_samples_per_s_median']:.0f}) = "
+          f"{k['share_of_limit_issue']:.0%} of issue 8's latency limit ({k['latency_limit_issue_m_samples_per_s']:.0f}), "
+          f"{k['share_of_limit_here']:.0%} of this machine's estimate ({k['latency_limit_here_m_samples_per_s']:.0f})")
+    f = results["fixed_cost_s"]
+    print(f"fixed cost before the first sample: {f['total_s']:.3f} s (imports {f['imports_s']:.3f}, "
+          f"design {f['design_s']:.3f}, first block {f['first_block_s']:.3f})")
     print("peak RSS of `emulate render` in a fresh child (ru_maxrss / VmHWM): " + "; ".join(
         f"{k} {v['maxrss_mb']:.0f} / {v['vmhwm_mb']:.0f} MB ({v['elapsed_s']:.1f} s)"
         for k, v in results["memory"].items()))
@@ -324,9 +389,8 @@ def main(argv=None) -> int:
                     "a tmpfs such as /dev/shm keeps disk writeback out of the timings)")
     ap.add_argument("--json", default="bench-out/render.json", help="where to write figures")
     ap.add_argument("--repeats", type=int, default=3, help="runs per case (median), >= 3")
-    ap.add_argument("--minutes", type=float, default=10.0, help="length of the timed take")
+    ap.add_argument("--minutes", type=float, default=60.0, help="length of the timed take")
     ap.add_argument("--block-frames", type=int, default=65536, help="frames per block")
-    ap.add_argument("--hour", action="store_true", help="also measure RSS on a 1-hour take")
     ap.add_argument("--profile", action="store_true", help="print a cProfile of one render")
     args = ap.parse_args(argv)
     if args.repeats < 3:
