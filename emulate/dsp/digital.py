@@ -56,6 +56,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from emulate.analog.roots import upper_and_real
 from emulate.errors import BadValueError, CircuitError
 from emulate.validate import check_range
 
@@ -326,33 +327,6 @@ def _correction_zpk(z, p, fs, band_hz, order):
 
 # --- stage 5 and the response evaluations (numpy only) ----------------------
 
-# Relative size of the imaginary part below which a root counts as real, and
-# within which two roots count as a conjugate pair (100 eps, as scipy.signal).
-_REAL_TOL = 100.0 * np.finfo(float).eps
-
-
-def _split_conjugates(roots):
-    """One root per conjugate pair (imag > 0, the pair averaged), then the real roots.
-
-    Complex roots sorted by real part then |imag|, real roots by value.  Raises
-    BadValueError if a complex root has no conjugate.
-    """
-    roots = np.asarray(roots, complex)
-    is_real = np.abs(roots.imag) <= _REAL_TOL * np.abs(roots)
-    real = np.sort(roots[is_real].real)
-    upper, lower = roots[~is_real & (roots.imag > 0)], list(roots[~is_real & (roots.imag < 0)])
-    pairs = []
-    for r in upper:
-        i = int(np.argmin(np.abs(np.conj(lower) - r))) if lower else -1
-        if i < 0 or abs(np.conj(lower[i]) - r) > _REAL_TOL * abs(r):
-            raise BadValueError(f"root {r} has no complex conjugate; allowed: real roots and conjugate pairs")
-        pairs.append((r + np.conj(lower.pop(i))) / 2.0)
-    if lower:
-        raise BadValueError(f"roots {lower} have no complex conjugate; allowed: real roots and conjugate pairs")
-    pairs = np.array(sorted(pairs, key=lambda r: (r.real, abs(r.imag))), complex)
-    return np.concatenate([pairs, real.astype(complex)])
-
-
 def _take(roots, i):
     """(roots[i], roots without element i)."""
     return roots[i], np.delete(roots, i)
@@ -384,8 +358,8 @@ def _zpk_to_sos(z, p, k):
     z, p = np.asarray(z, complex), np.asarray(p, complex)
     n = max(len(z), len(p))
     n += n % 2
-    z = _split_conjugates(np.concatenate([z, np.zeros(n - len(z))]))
-    p = _split_conjugates(np.concatenate([p, np.zeros(n - len(p))]))
+    z = upper_and_real(np.concatenate([z, np.zeros(n - len(z))]))
+    p = upper_and_real(np.concatenate([p, np.zeros(n - len(p))]))
     sos = np.zeros((max(n // 2, 1), 6))
     sos[:, 0] = sos[:, 3] = 1.0
     for row in range(n // 2 - 1, -1, -1):
