@@ -66,8 +66,8 @@ def pair_conjugates(roots) -> np.ndarray:
 
     Example
     -------
-    >>> pair_conjugates([-1 + 2e-8j, -1 - 3e-9j, 2j, -2j + 1e-12])
-    array([-1.+0.j, -1.+0.j, -0.-2.j, -0.+2.j])
+    >>> pair_conjugates([-1 + 2e-8j, -1.0, 2j, -2j + 1e-12])
+    array([-1.e+00+0.j, -1.e+00+0.j,  5.e-13-2.j,  5.e-13+2.j])
     """
     roots = np.atleast_1d(np.asarray(roots, complex)).ravel()
     size = _sizes(roots)
