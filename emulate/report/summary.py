@@ -123,26 +123,46 @@ def render_text(report, processor) -> str:
         clip = f"{report.over_full_scale_samples} samples over 0 dBFS (float, kept unclipped)"
     peak = "silence" if report.peak_dbfs == float("-inf") else f"{report.peak_dbfs:.2f} dBFS"
     dither = ", TPDF dither" if report.dithered else ""
+    design = processor.design
     return "\n".join([
         f"wrote {report.out_path}: {report.frames} frames, {report.samplerate} Hz, "
         f"{report.channels} ch, {report.format} {report.subtype}{dither}",
         f"  peak {peak}; {clip}",
-        f"  emulation: {processor.design.method}, within {processor.fidelity_db:.3f} dB of the "
-        f"analog model over {processor.design.band_hz[0]:.0f}-{processor.design.band_hz[1]:.0f} Hz",
+        f"  emulation: {design.method}, within {processor.fidelity_db:.3f} dB of the "
+        f"analog model over {design.band_hz[0]:.0f}-{design.band_hz[1]:.0f} Hz, "
+        f"phase within {design.phase_error_deg:.1f} degrees up to {design.phase_band_hz[1]:.0f} Hz",
+        *shortfall_lines(design),
         f"  took {report.elapsed_s:.2f} s",
     ])
 
 
+def shortfall_lines(digital) -> list[str]:
+    """The warning line of a design that misses the fidelity target (none if it meets it)."""
+    missed = digital.shortfall()
+    return [f"warning: {missed}"] if missed else []
+
+
+def fidelity_payload(digital) -> dict:
+    """The fidelity figures of a design, for JSON (``fidelity_met`` false where a warning was shown)."""
+    return {"fidelity_db": digital.fidelity_db, "phase_error_deg": digital.phase_error_deg,
+            "phase_band_hz": list(digital.phase_band_hz), "fidelity_met": digital.meets_target,
+            "fidelity_warning": digital.shortfall()}
+
+
 def digital_payload(digital) -> dict:
     return {"fs": digital.fs, "method": digital.method, "sections": len(digital.sos),
-            "fidelity_db": digital.fidelity_db, "band_hz": list(digital.band_hz),
-            "notch_hz": digital.notch_hz, "latency_samples": digital.latency_samples}
+            "band_hz": list(digital.band_hz), "notch_hz": digital.notch_hz,
+            "latency_samples": digital.latency_samples} | fidelity_payload(digital)
 
 
 def digital_text(digital) -> str:
-    return (f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
-            f"within {digital.fidelity_db:.3f} dB of the analog model over "
-            f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz; digital notch {digital.notch_hz:.2f} Hz")
+    notch = ("notch at or above Nyquist: the part below it is emulated" if digital.notch_hz != digital.notch_hz
+             else f"digital notch {digital.notch_hz:.2f} Hz")
+    return "\n".join([
+        f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
+        f"within {digital.fidelity_db:.3f} dB of the analog model over "
+        f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz, phase within {digital.phase_error_deg:.1f} "
+        f"degrees up to {digital.phase_band_hz[1]:.0f} Hz; {notch}", *shortfall_lines(digital)])
 
 
 # --- speakers ------------------------------------------------------------------
