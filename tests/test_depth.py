@@ -231,3 +231,17 @@ class TestPotPositionForDepth:
     def test_needs_a_pot(self):
         with pytest.raises(BadValueError, match="no depth pot"):
             pot_position_for_depth(balanced(), -20.0)
+
+
+class TestPotRefusalDryEnd:
+    def test_dry_end_artefact_with_source(self):
+        # Regression (issue 10, defect 9): with a source resistance the refusal's dry end was the
+        # minimum of a flat response somewhere in the search band ("+6.45 dB"); it is the level at
+        # the full notch's frequency against the passband: within 1 dB of 0 dB for a 600 ohm source
+        # on a 10 kohm network (source loss about 20 log10(1 + 600 / 10k) = 0.5 dB, common practice).
+        from emulate.analog.networks import TwinT
+        from emulate.dsp.depth import pot_position_for_depth
+
+        net = TwinT.balanced(1000.0, r_ohms=10e3, source_ohms=600.0, depth_pot_ohms=10e3)
+        with pytest.raises(BadValueError, match=r"allowed \[-1\d\d\.\d\d, 0\.\d\d\] dB"):
+            pot_position_for_depth(net, -300.0)

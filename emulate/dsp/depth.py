@@ -25,7 +25,7 @@ import math
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.analog.response import measure
+from emulate.analog.response import db, measure
 from emulate.validate import check_range
 
 __all__ = [
@@ -283,6 +283,20 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     return -measure(pot.response).depth_below_passband_db
 
 
+def _dry_end_db(network, ohms) -> float:
+    """Level with the wiper at the dry end, dB against the passband, at the full notch's frequency.
+
+    At the dry end there is no dip to measure: the smallest |H| over the search
+    band is wherever a source resistance makes the response lowest, not the
+    notch.  The level that matters is the one at the notch the pot moves away
+    from, against the same passband (the lower of the two passband gains).
+    """
+    full = measure(network.replace(depth_pot_ohms=ohms, mix=1.0).response)
+    dry = network.replace(depth_pot_ohms=ohms, mix=0.0)
+    level = db(np.abs(np.atleast_1d(dry.response([full.notch_hz])).ravel()[0]))
+    return float(level - min(full.passband_low_db, full.passband_high_db))
+
+
 def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
     """The depth pot position that puts the notch at ``depth_db`` below the passband.
 
@@ -337,7 +351,7 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
     if dry * full > 0.0:
         raise BadValueError(
             f"depth {depth_db!r} dB is outside what this depth pot reaches; "
-            f"allowed [{full + target:.2f}, {dry + target:.2f}] dB")
+            f"allowed [{full + target:.2f}, {_dry_end_db(network, ohms):.2f}] dB")
     # imported here, not at the top: rendering never solves a pot position
     from scipy import optimize
 

@@ -113,7 +113,7 @@ def parts_rows(network: TwinT, tolerances, design=None, trim=None) -> list[list[
                   if design is None else {"r3": design.r3_build, "c3": design.c3_build})
     rows = []
     for name, value in network.parts().items():
-        written = shunt_text.get(name) or parts.format_value(value, part_kind(name))
+        written = shunt_text.get(name) or parts.format_value(value, part_kind(name), 6)  # the built value, exact
         if name == "r3" and trim is not None:
             rows.append(["R3a (fixed)", parts.format_value(trim.fixed_ohms, "resistance"),
                          preferred_series(trim.fixed_ohms), parts.format_tolerance(fractions[name]),

@@ -25,7 +25,7 @@ def network_line(network) -> str:
     mix = "" if network.mix == 1.0 else (
         f", depth pot {format_value(network.depth_pot_ohms, 'resistance')} at {network.mix:.2f}"
         if network.depth_pot_ohms else f", wet/dry mix {network.mix:.2f}")
-    values = "  ".join(f"{name.upper()} {format_value(v, part_kind(name))}"
+    values = "  ".join(f"{name.upper()} {format_value(v, part_kind(name), 6)}"
                        for name, v in network.parts().items())
     return f"twin-T ({kind}), source {source}, load {load}{mix}\n  {values}"
 
