@@ -9,6 +9,7 @@ from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
 from emulate.analog.response import check_twin_t, measure
+from emulate.analog.stability import check_stability
 
 
 @main.command()
@@ -21,9 +22,10 @@ def response(rate, plot_path, as_json, **options):
     network = network_from_options(options)
     metrics = measure(network.response)
     found = check_twin_t(network, metrics)
-    payload = summary.metrics_payload(network, metrics, found)
-    text = summary.response_text(network, metrics, found)
-    if rate is not None:
+    stable = check_stability(network)
+    payload = summary.metrics_payload(network, metrics, found, stable)
+    text = summary.response_text(network, metrics, found, stable)
+    if rate is not None and stable.stable:
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)

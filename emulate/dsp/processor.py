@@ -58,7 +58,8 @@ class NotchProcessor:
     k : float
         Analog gain.
     notch_hz : float
-        Analog notch frequency in Hz (below Nyquist at the prepared rate).
+        Analog notch frequency in Hz (at or above Nyquist: the part below it is emulated;
+        None for a network with no notch).
     mix : float, optional
         Wet/dry mix, 0 (dry) to 1 (full notch).
     smoothing_ms : float, optional

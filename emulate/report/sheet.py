@@ -28,6 +28,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from emulate.analog import parts
+from emulate.analog.stability import margin_warning
 from emulate.report import plots
 from emulate.errors import BadValueError
 from emulate.files import atomic_path
@@ -172,6 +173,8 @@ def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, t
                                  "exact null" if depth > 150 else f"{depth:.1f} dB", q,
                                  f"{_signed(metrics.passband_low_db)} / {_signed(metrics.passband_high_db)} dB"]])),
                Block("image", (PICTURES["response"], "analog and digital response"))]
+    if network.is_active:
+        blocks.append(Block("p", margin_warning(network)))
     if tolerance_result is not None:
         blocks += _tolerance_blocks(tolerance_result)
     if trim is not None:

@@ -56,6 +56,9 @@ def network_line(network) -> str:
     return f"twin-T ({kind}), source {source}, load {load}{mix}\n  {values}"
 
 
+SEARCH_TEXT = "1 Hz - 200 kHz"  # the band response.measure searches by default
+
+
 def depth_text(metrics) -> str:
     if metrics.depth_db < IDEAL_NULL_DB:
         return f"below {IDEAL_NULL_DB:.0f} dB (an exact null)"
@@ -63,6 +66,10 @@ def depth_text(metrics) -> str:
 
 
 def metrics_lines(metrics) -> list[str]:
+    if not metrics.in_range:
+        return [f"  notch      no notch in range {SEARCH_TEXT} (the response is lowest at the edge, "
+                f"{metrics.notch_hz:.4g} Hz, {metrics.depth_db:.1f} dB)",
+                f"  passband   {_signed(metrics.passband_low_db)} dB low, {_signed(metrics.passband_high_db)} dB high"]
     width = ("not 3 dB deep: no -3 dB band" if math.isnan(metrics.q) else
              f"-3 dB from {metrics.lower_hz:.1f} Hz to {metrics.upper_hz:.1f} Hz, Q {metrics.q:.3f}")
     return [
@@ -83,7 +90,8 @@ def warning_lines(found) -> list[str]:
 
 
 def table_lines(network, notch_hz) -> list[str]:
-    f = np.array(sorted({*TABLE_HZ, notch_hz}))
+    """The response at the table frequencies and at ``notch_hz`` (None: no notch row)."""
+    f = np.array(sorted({*TABLE_HZ, *([] if notch_hz is None else [notch_hz])}))
     h = network.response(f)
     rows = ["  f (Hz)      gain (dB)   phase (deg)"]
     for fi, hi in zip(f, h):
@@ -92,14 +100,22 @@ def table_lines(network, notch_hz) -> list[str]:
     return rows
 
 
-def response_text(network, metrics, found) -> str:
+def response_text(network, metrics, found, stability=None) -> str:
+    """The response report; an unstable network gets its oscillation instead of a response."""
+    if stability is not None and not stability.stable:
+        return "\n".join([network_line(network), f"  {stability.describe()}: it has no steady response; "
+                          "lower the bootstrap K or balance the parts", "warnings", *warning_lines(found)])
     lines = [network_line(network), *metrics_lines(metrics), "warnings", *warning_lines(found),
-             *table_lines(network, metrics.notch_hz)]
+             *table_lines(network, metrics.notch_hz if metrics.in_range else None)]
     return "\n".join(lines)
 
 
-def metrics_payload(network, metrics, found) -> dict:
+def metrics_payload(network, metrics, found, stability=None) -> dict:
     payload = metrics.as_dict()  # non-finite numbers become null where JSON is written
+    if not metrics.in_range:
+        payload["notch"] = f"no notch in range {SEARCH_TEXT}"
+    if stability is not None:
+        payload["stable"], payload["oscillation_hz"] = stability.stable, stability.oscillation_hz
     payload["warnings"] = [str(item) for item in found]
     payload["active"] = network.is_active
     payload["bootstrap"] = network.bootstrap
@@ -139,6 +155,28 @@ def design_text(design, found) -> str:
               f"(ideal parts: {ideal.notch_hz:.2f} Hz, Q {ideal.q:.3f})",
               "warnings", *warning_lines(found)]
     return "\n".join(lines)
+
+
+def unmeasured_lines(d) -> list[str]:
+    """Tolerance run: the oscillating builds and the builds with no notch in range, if any (from ``as_dict``)."""
+    lines = []
+    if d.get("oscillating_share"):
+        low, high = d["oscillation_hz_range"]
+        lines.append(f"  ! {d['oscillating_share']:.2%} of builds oscillate ({low:.4g}-{high:.4g} Hz): "
+                     "counted as failures; lower the bootstrap K")
+    if d.get("no_notch_share"):
+        lines.append(f"  ! {d['no_notch_share']:.2%} of builds have no notch in the search band: counted as "
+                     "failures and left out of the percentiles")
+    return lines
+
+
+def corner_line(corner) -> str:
+    """Tolerance run: the worst of the 64 corners (from ``Corners.as_dict``)."""
+    if corner.get("oscillating_corners"):
+        return (f"  worst corner oscillates at {corner['worst_oscillation_hz']:.4g} Hz "
+                f"({corner['oscillating_corners']} of 64 corners oscillate)")
+    return (f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
+            f"{corner['notch_high_hz']:.1f} Hz over 64 corners")
 
 
 def render_text(report, processor) -> str:
