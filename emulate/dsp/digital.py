@@ -259,8 +259,8 @@ def bilinear_prewarped_zpk(z, p, k, fs, warp_hz):
 
 
 # A root whose frequency |Im r| lies above this share of Nyquist is not mapped by
-# exp(r / fs) (it would alias into the band): it becomes the real root
-# exp(-|r| / fs) and the fitted correction carries the rest of its in-band effect.
+# exp(r / fs) (it would alias into the band): it gets a stand-in (_high_roots) and
+# the fitted correction carries the rest of its in-band effect.
 ALIAS_SHARE = 0.98
 
 
@@ -275,7 +275,7 @@ def _is_high(roots, fs):
     return (np.abs(roots.imag) > ALIAS_SHARE * np.pi * fs) | (np.abs(roots) > FAR_ROOT * fs)
 
 
-def _root_ratio_log(w, roots, fs):
+def _root_ratio_log(w, roots, fs, clamp=False):
     """Sum over ``roots`` of log |jW - r|^2 / |exp(jw) - m(r)|^2, scale of each root removed.
 
     For a mapped root, m(r) = exp(r / fs) and the term is log |u / expm1(u)|^2,
@@ -292,29 +292,52 @@ def _root_ratio_log(w, roots, fs):
     total = 2.0 * np.sum(np.log(ratio), axis=1)
     r = roots[high]
     if len(r):
-        rho = np.exp(-np.abs(r) / fs)
+        m = _high_roots(r, fs, clamp)
         analog = np.abs(1j * w[:, None] * fs - r[None, :]) / np.abs(r)[None, :]
-        digital = np.abs(np.exp(1j * w)[:, None] - rho[None, :]) / (1.0 - rho)[None, :]
-        total += 2.0 * np.sum(np.log(np.maximum(analog, 1e-300) / digital), axis=1)
+        digital = np.abs(np.exp(1j * w)[:, None] - m[None, :]) / np.abs(1.0 - m)[None, :]
+        total += 2.0 * np.sum(np.log(np.maximum(analog, 1e-300) / np.maximum(digital, 1e-300)), axis=1)
     return total
 
 
-def _matched_roots(roots, fs):
-    """exp(r / fs) for every root, exp(-|r| / fs) for the high ones; and the gain factor."""
+def _high_roots(roots, fs, clamp):
+    """Digital stand-ins for high roots: exp(-|r| / fs) (real), or with ``clamp`` a resonant one at ALIAS_SHARE of Nyquist.
+
+    With ``clamp``, a complex root closer to the j axis than its own frequency
+    (Q above 1/2) becomes exp((Re r + j ALIAS_SHARE pi fs sign(Im r)) / fs), so the
+    digital response still rises or falls towards Nyquist as the analog one does
+    beyond it.  Which stand-in the correction fits better depends on the network;
+    the design tries both.
+    """
+    roots = np.asarray(roots, complex)
+    resonant = clamp & _is_resonant(roots, fs)
+    clamped = roots.real + 1j * np.sign(roots.imag) * ALIAS_SHARE * np.pi * fs
+    return np.where(resonant, np.exp(clamped / fs), np.exp(-np.abs(roots) / fs))
+
+
+def _is_resonant(roots, fs):
+    """Complex roots closer to the j axis than their own frequency, not far out."""
+    roots = np.asarray(roots, complex)
+    return (np.abs(roots.real) < np.abs(roots.imag)) & (np.abs(roots) <= FAR_ROOT * fs)
+
+
+def _matched_roots(roots, fs, clamp=False):
+    """exp(r / fs) for every root, :func:`_high_roots` for the high ones; and the gain factor."""
     roots = np.asarray(roots, complex)
     high = _is_high(roots, fs)
-    mapped = np.where(high, np.exp(-np.abs(roots) / fs), np.exp(roots / fs))
+    mapped = np.zeros(len(roots), complex)
+    mapped[~high] = np.exp(roots[~high] / fs)
+    mapped[high] = _high_roots(roots[high], fs, clamp)
     # |jW - r| = |exp(jw) - exp(r/fs)| * fs * exp(-Re r / fs) * |u / expm1(u)|  (mapped);
-    # |jW - r| = |exp(jw) - rho| * |r| / (1 - rho) * (the normalised ratio)     (high).
-    scale = np.abs(roots) / (1.0 - np.real(mapped))
+    # |jW - r| = |exp(jw) - m| * |r| / |1 - m| * (the normalised ratio)         (high).
+    scale = np.abs(roots) / np.abs(1.0 - mapped)
     scale[~high] = fs * np.exp(-roots[~high].real / fs)
     return mapped, float(np.prod(np.real(scale)))
 
 
-def _matched_zpk(z, p, k, fs):
+def _matched_zpk(z, p, k, fs, clamp=False):
     """Map every analog root r to exp(r / fs) (high roots to exp(-|r| / fs)); gain so the ratio -> 1."""
-    z_d, z_scale = _matched_roots(z, fs)
-    p_d, p_scale = _matched_roots(p, fs)
+    z_d, z_scale = _matched_roots(z, fs, clamp)
+    p_d, p_scale = _matched_roots(p, fs, clamp)
     z_d = np.concatenate([z_d, np.zeros(len(p) - len(z))])  # excess poles: delays only
     return z_d, p_d, k * z_scale / p_scale
 
@@ -339,7 +362,9 @@ def _fit_cos_rational(w, log_d, weight, order, iterations=12, lawson=8):
 
     Sanathanan-Koerner: minimise sum weight * ((P - D Q) / (D Q_prev))^2, a linear
     least-squares problem per iteration; then Lawson reweighting (weights grow
-    with the error) pushes towards the minimax error in dB.
+    with the error) pushes towards the minimax error in dB.  An iteration whose
+    P or Q is not positive on the grid ends the loop: the last positive iterate is
+    returned (None if there is none).
     """
     # log_d is shifted to mean 0 (a constant factor of D is a factor of P), so the
     # columns stay of order 1; each column is also scaled to unit norm, and any
@@ -351,7 +376,7 @@ def _fit_cos_rational(w, log_d, weight, order, iterations=12, lawson=8):
     basis = _cos_basis(w, order)
     q_prev = np.ones_like(w)
     wt = weight.copy()
-    coeffs = None
+    kept = None
     for it in range(iterations + lawson):
         scale = np.sqrt(wt) / q_prev
         a = np.hstack([basis * (scale / d)[:, None], -basis[:, 1:] * scale[:, None]])
@@ -366,13 +391,16 @@ def _fit_cos_rational(w, log_d, weight, order, iterations=12, lawson=8):
         p_val = basis @ coeffs[: order + 1]
         q_val = 1.0 + basis[:, 1:] @ coeffs[order + 1 :]
         if np.any(q_val <= 0.0) or np.any(p_val <= 0.0):
-            return None
+            break
+        kept = coeffs
         q_prev = q_val
         if it >= iterations:
             err = np.abs(np.log(p_val / q_val) - log_d)
             wt = wt * (err / err.max() + 1e-3)
             wt = wt / wt.mean()
-    return coeffs[: order + 1] * math.exp(shift), np.concatenate([[1.0], coeffs[order + 1 :]])
+    if kept is None:
+        return None
+    return kept[: order + 1] * math.exp(shift), np.concatenate([[1.0], kept[order + 1 :]])
 
 
 def _spectral_factor(cos_coeffs):
@@ -399,10 +427,10 @@ def _spectral_factor(cos_coeffs):
     return inside, math.sqrt(gain_sq)
 
 
-def _correction_zpk(z, p, fs, band_hz, order):
+def _correction_zpk(z, p, fs, band_hz, order, clamp=False):
     """Minimum-phase correction (z, p, k) fitted to |H_a|^2 / |H_matched|^2, or None if the fit fails."""
     w, weight = _fit_grid(fs, band_hz)
-    log_d = _root_ratio_log(w, z, fs) - _root_ratio_log(w, p, fs)
+    log_d = _root_ratio_log(w, z, fs, clamp) - _root_ratio_log(w, p, fs, clamp)
     fit = _fit_cos_rational(w, log_d, weight, order)
     if fit is None:
         return None
@@ -736,12 +764,15 @@ def _candidates(z, p, k, fs, notch_hz, band_hz):
     bilinear = ("bilinear", *bilinear_prewarped_zpk(z, p, k, fs, warp_hz))
     if warp_hz == notch_hz:
         yield bilinear
-    z_m, p_m, k_m = _matched_zpk(z, p, k, fs)
-    for order in _FIT_ORDERS:
-        corr = _correction_zpk(z, p, fs, band_hz, order)
-        if corr is not None:
-            z_c, p_c, k_c = corr
-            yield (f"matched+fit{order}", np.concatenate([z_m, z_c]), np.concatenate([p_m, p_c]), k_m * k_c)
+    roots = np.concatenate([z, p])
+    clamps = (False, True) if np.any(_is_high(roots, fs) & _is_resonant(roots, fs)) else (False,)
+    for clamp in clamps:
+        z_m, p_m, k_m = _matched_zpk(z, p, k, fs, clamp)
+        for order in _FIT_ORDERS:
+            corr = _correction_zpk(z, p, fs, band_hz, order, clamp)
+            if corr is not None:
+                z_c, p_c, k_c = corr
+                yield (f"matched+fit{order}", np.concatenate([z_m, z_c]), np.concatenate([p_m, p_c]), k_m * k_c)
     if warp_hz != notch_hz:
         yield bilinear
 
