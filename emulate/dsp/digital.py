@@ -2,14 +2,17 @@
 
 The stage reads top to bottom like the math:
 
-1. validate    fs > 0, the notch below Nyquist, a proper and stable analog H(s).
+1. validate    fs > 0, a notch frequency > 0 (at or above Nyquist allowed: the
+               part of the response below Nyquist is what is heard, so it is
+               emulated), a proper and stable analog H(s).
 2. bilinear    s = c (z-1)/(z+1), c = w_warp / tan(w_warp / (2 fs)), warped at the
                notch so the digital null lands exactly on the analog one
-               (Oppenheim & Schafer, *Discrete-Time Signal Processing*, sec. 7.2).
+               (Oppenheim & Schafer, *Discrete-Time Signal Processing*, sec. 7.2);
+               for a notch above the band it is warped at the band's top and
+               tried last, as the design that exists for every stable H(s).
 3. check       the worst |dB| error against the analog over the band (20 Hz to
-               20 kHz, or to 0.9 Nyquist below 44.1 kHz) wherever the analog
-               response is above -30 dB.  If it meets the tolerance, stop here:
-               method ``"bilinear"``.
+               min(20 kHz, 0.45 fs)) wherever the analog response is above
+               -30 dB.  If it meets the tolerance, stop here: method ``"bilinear"``.
 4. correct     otherwise build a *matched* core, every analog root r mapped to
                exp(r / fs) (the impulse-invariant root map also used by Vicanek,
                "Matched Second Order Digital Filters", 2016), and multiply it by a
@@ -18,10 +21,31 @@ The stage reads top to bottom like the math:
                least squares, then a few Lawson reweightings towards minimax) to
                |H_analog|^2 / |H_matched|^2; the correction is spectrally
                factorised into its minimum-phase roots.  Method ``"matched+fit<m>"``
-               where m is the correction order (1 to 4).
-5. convert     zpk -> sos, roots paired as scipy.signal.zpk2sos pairs them by
+               where m is the correction order (1 to 4).  A root above 0.98 of
+               Nyquist (or farther out than 30 fs) would alias under exp(r / fs):
+               it gets a stand-in (a real root, or a resonant one held at 0.98 of
+               Nyquist with its own damping; both are tried) and the correction
+               carries the rest of its in-band effect.  The fit is scaled (log
+               ratio centred, columns normalised), any solver failure means "no
+               fit", and the bilinear image remains: the design never throws for
+               a stable network.
+5. phase       the phase error (latency removed) is measured up to 0.35 fs.  The
+               magnitude designs are nearly all off by a constant fraction of a
+               sample (the matched map's delay error grows as -Re(r) / (12 fs) per
+               root) plus a smooth bend near the top; where the error exceeds
+               4 degrees (the 5 degree target less a margin), an all-pass of order
+               N = 1..4 fitted by equation-error least squares (Lang & Laakso 1994)
+               turns it into N whole samples of latency, which the processor
+               reports and a render compensates.  Method suffix ``"+allpass<N>"``.
+6. convert     zpk -> sos, roots paired as scipy.signal.zpk2sos pairs them by
                default ("nearest"): the pole nearest the unit circle with its
                conjugate and its nearest zero, those sections last in the cascade.
+               Conjugate pairs are tidied by the package's one pairing routine
+               (:func:`emulate.analog.roots.pair_conjugates`).
+
+Where a design still misses the target (0.1 dB, 5 degrees), it is returned
+anyway with the figures it reaches; ``DigitalNotch.shortfall()`` gives the
+warning line the commands print and ``meets_target`` the JSON flag.
 
 Why the correction sits on a matched core and not on the bilinear one: the
 bilinear map compresses frequency near the notch by g = 2x / sin(2x),
@@ -39,8 +63,8 @@ tiny across the audible part of the response (at 44.1 kHz it is within 0.02 dB u
 to about a 300 Hz notch; the passive Q 0.25 notch reaches 0.2 dB at 1 kHz).
 The correction takes over as soon as the bilinear image misses the tolerance.
 
-All designs are causal minimum-phase IIR sections at the base rate: no
-oversampling, no look-ahead, so ``latency_samples`` is 0.
+All designs are causal IIR sections at the base rate, no oversampling; the
+latency is 0 except where the phase all-pass is used (1 to 4 samples).
 
 Only numpy is imported: the zpk -> sos pairing, the response evaluation of zpk
 and sos on a frequency grid and the bounded null search are small module-private

@@ -6,7 +6,7 @@ Per block, top to bottom:
 2. wet        cascaded sections of the current design (:func:`emulate.dsp.kernels.sos_filter`).
 3. crossfade  after :meth:`NotchProcessor.set_circuit`, the old design keeps running and
               its output fades linearly into the new one's over the smoothing time.
-4. dry        the input, delayed by the design latency (0 for every current design).
+4. dry        the input, delayed by the design latency (0, or 1-4 samples where the phase all-pass is used).
 5. mix        H_mix = (1 - m) + m H, m ramped linearly to its target over the
               smoothing time (no zipper noise, no clicks).
 
