@@ -48,3 +48,16 @@ class TestUpperAndReal:
         # common practice, no source: one root per pair (imag > 0) by real part, then real roots
         out = upper_and_real([0.3, -0.1 - 0.2j, 0.1, -0.1 + 0.2j, 0.2 + 0.1j, 0.2 - 0.1j])
         np.testing.assert_array_equal(out, [-0.1 + 0.2j, 0.2 + 0.1j, 0.1, 0.3])
+
+
+class TestActiveDoubleZero:
+    @pytest.mark.parametrize("k", [0.1, 0.2, 0.4])
+    def test_no_conjugate_partner_when_mixed_active_halves(self, k):
+        # Regression (issue 10, defect 1): active networks were refused whenever
+        # (1 - mix)(1 - K) = 1/2 (a double real zero of the mixed response).  The emulation must
+        # come back within the 0.1 dB target (the fidelity target of emulate.dsp.digital).
+        from emulate.dsp.emulation import digital_for
+
+        mix = 1.0 - 0.5 / (1.0 - k)
+        net = TwinT(10e3, 10e3, 5e3, 5.6e-9, 5.6e-9, 11.2e-9, bootstrap=k, mix=mix)
+        assert digital_for(net, 48000).fidelity_db <= 0.1
