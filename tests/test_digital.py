@@ -230,7 +230,8 @@ class TestDesignNeverThrows:
         design = design_sections(z, p, k, 44100, notch_hz=analog_null_hz(z, p, k, 5000.0))
         assert np.all(np.isfinite(design.sos)) and design.fidelity_db <= 0.1
 
-    @pytest.mark.parametrize("fs, f0", [(32000, 16300.0), (8000, 6500.0), (44100, 19000.0), (44100, 0.49 * 44100)])
+    @pytest.mark.parametrize("fs, f0", [(32000, 16300.0), (8000, 6500.0), (44100, 19000.0), (44100, 0.49 * 44100),
+                                       (32000, 16000.0), (16000, 8000.0)])  # at Nyquist exactly too
     def test_notch_at_or_above_nyquist_refused(self, fs, f0):
         # Regression (issue 10, defect 3): "notch 16300 Hz is not allowed at 32000 Hz"; the part of
         # the response below Nyquist is emulated instead, within the 0.1 dB / 5 degree target.

@@ -21,7 +21,7 @@ The stage reads top to bottom like the math:
                least squares, then a few Lawson reweightings towards minimax) to
                |H_analog|^2 / |H_matched|^2; the correction is spectrally
                factorised into its minimum-phase roots.  Method ``"matched+fit<m>"``
-               where m is the correction order (1 to 4).  A root above 0.98 of
+               where m is the correction order (1 to 4).  A root above
                Nyquist (or farther out than 30 fs) would alias under exp(r / fs):
                it gets a stand-in (a real root, or a resonant one held at 0.98 of
                Nyquist with its own damping; both are tried) and the correction
@@ -282,9 +282,10 @@ def bilinear_prewarped_zpk(z, p, k, fs, warp_hz):
 # --- stage 4: matched core and fitted correction ----------------------------
 
 
-# A root whose frequency |Im r| lies above this share of Nyquist is not mapped by
-# exp(r / fs) (it would alias into the band): it gets a stand-in (_high_roots) and
-# the fitted correction carries the rest of its in-band effect.
+# A root whose frequency |Im r| lies above Nyquist is not mapped by exp(r / fs) (it
+# would alias into the band): it gets a stand-in (_high_roots) and the fitted
+# correction carries the rest of its in-band effect.  A resonant stand-in sits at
+# this share of Nyquist.
 ALIAS_SHARE = 0.98
 
 
@@ -294,9 +295,12 @@ FAR_ROOT = 30.0
 
 
 def _is_high(roots, fs):
-    """Roots whose frequency lies above ALIAS_SHARE of Nyquist, or farther out than FAR_ROOT fs."""
+    """Roots whose frequency lies above Nyquist, or farther out than FAR_ROOT fs.
+
+    A root at Nyquist itself maps to z = -1 exactly: it is kept.
+    """
     roots = np.asarray(roots)
-    return (np.abs(roots.imag) > ALIAS_SHARE * np.pi * fs) | (np.abs(roots) > FAR_ROOT * fs)
+    return (np.abs(roots.imag) > np.pi * fs * (1.0 + 1e-9)) | (np.abs(roots) > FAR_ROOT * fs)
 
 
 def _root_ratio_log(w, roots, fs, clamp=False):
@@ -715,17 +719,49 @@ def _errors(z, p, k, sos, fs, band_hz, latency_samples):
     lo, hi = (float(v) for v in band_hz)
     if not 0.0 < lo < hi <= fs / 2.0:
         raise BadValueError(f"band {band_hz!r} Hz is not allowed; allowed: 0 < lo < hi <= {fs / 2.0:g} Hz")
-    f = _check_grid_hz(p, z, (lo, hi))
-    h_a = _zpk_response_s(z, p, k, 2.0 * np.pi * f)
-    h_d = _sos_response_z(sos, f, fs) * np.exp(2j * np.pi * f * latency_samples / fs)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        db_a = 20.0 * np.log10(np.abs(h_a))
-        db_d = 20.0 * np.log10(np.abs(h_d))
-        phase = np.degrees(np.abs(np.angle(h_d / h_a)))
-    mask = db_a > FLOOR_DB
-    if not np.any(mask):
-        return 0.0, 0.0
-    return float(np.max(np.abs(db_d[mask] - db_a[mask]))), float(np.max(phase[mask]))
+    return _Reference(z, p, k, fs, (lo, hi)).errors(sos, latency_samples)
+
+
+class _Reference:
+    """The analog response on the check grid of a band, computed once per design."""
+
+    def __init__(self, z, p, k, fs, band_hz, phase_top_hz=math.inf):
+        self.fs = fs
+        self.f = _check_grid_hz(p, z, band_hz)
+        self.h = _zpk_response_s(z, p, k, 2.0 * np.pi * self.f)
+        with np.errstate(divide="ignore"):
+            self.db = 20.0 * np.log10(np.abs(self.h))
+        self.keep = self.db > FLOOR_DB
+        self.phase_keep = self.keep & (self.f <= phase_top_hz)
+
+    def digital(self, sos, latency_samples=0):
+        """The design's response on the grid, latency removed."""
+        return _sos_response_z(sos, self.f, self.fs) * np.exp(2j * np.pi * self.f * latency_samples / self.fs)
+
+    def magnitude_error_db(self, sos):
+        """Worst |dB| error where the analog is above -30 dB (0.0 where it never is)."""
+        if not np.any(self.keep):
+            return 0.0
+        with np.errstate(divide="ignore"):
+            db_d = 20.0 * np.log10(np.abs(self.digital(sos)[self.keep]))
+        return float(np.max(np.abs(db_d - self.db[self.keep])))
+
+    def phase_error_rad(self, sos, latency_samples=0):
+        """Digital w (rad/sample) and phase(H_d / H_a) (rad) over the phase part of the grid."""
+        keep = self.phase_keep
+        with np.errstate(divide="ignore", invalid="ignore"):
+            phase = np.angle(self.digital(sos, latency_samples)[keep] / self.h[keep])
+        finite = np.isfinite(phase)
+        return 2.0 * np.pi * self.f[keep][finite] / self.fs, phase[finite]
+
+    def phase_error_deg(self, sos, latency_samples=0):
+        """Worst |phase| error in degrees over the phase part of the grid (0.0 where it is empty)."""
+        phase = self.phase_error_rad(sos, latency_samples)[1]
+        return float(np.degrees(np.max(np.abs(phase)))) if len(phase) else 0.0
+
+    def errors(self, sos, latency_samples=0):
+        """(worst |dB| error, worst |phase| error in degrees)."""
+        return self.magnitude_error_db(sos), self.phase_error_deg(sos, latency_samples)
 
 
 def _null_hz(magnitude, near_hz, hi_hz):
@@ -805,17 +841,6 @@ def _candidates(z, p, k, fs, notch_hz, band_hz):
 _ALLPASS_ORDERS = (1, 2, 3, 4)
 
 
-def _phase_error_rad(z, p, k, sos, fs, band_hz):
-    """Digital w (rad/sample) and phase(H_d / H_a) (rad) where the analog is above -30 dB."""
-    f = _check_grid_hz(p, z, band_hz)
-    h_a = _zpk_response_s(z, p, k, 2.0 * np.pi * f)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        keep = 20.0 * np.log10(np.abs(h_a)) > FLOOR_DB
-        phase = np.angle(_sos_response_z(sos, f, fs) / h_a)
-    keep &= np.isfinite(phase)
-    return 2.0 * np.pi * f[keep] / fs, phase[keep]
-
-
 def _allpass_sos(w, phase_error, order):
     """All-pass of ``order`` N whose phase makes phase_error(w) + phase_A(w) = -N w, or None.
 
@@ -839,7 +864,7 @@ def _allpass_sos(w, phase_error, order):
     return _zpk_to_sos(zeros, poles, float(coeffs[-1]))
 
 
-def _phase_trimmed(z, p, k, sos, fs, band_hz):
+def _phase_trimmed(reference, sos):
     """The least-error (sos, latency_samples, phase error) with an all-pass trim of order 1 to 4.
 
     Nearly all of the phase error of the magnitude designs is a constant group
@@ -849,8 +874,8 @@ def _phase_trimmed(z, p, k, sos, fs, band_hz):
     the processor reports as latency and a render compensates.  Stops at the
     first order within the trim threshold; the magnitude is untouched.
     """
-    w, error = _phase_error_rad(z, p, k, sos, fs, band_hz)
-    best = (sos, 0, phase_error_deg(z, p, k, sos, fs, band_hz))
+    w, error = reference.phase_error_rad(sos)
+    best = (sos, 0, reference.phase_error_deg(sos))
     if len(w) == 0:
         return best
     for order in _ALLPASS_ORDERS:
@@ -858,7 +883,7 @@ def _phase_trimmed(z, p, k, sos, fs, band_hz):
         if allpass is None:
             continue
         trial = np.vstack([sos, allpass])
-        phase = phase_error_deg(z, p, k, trial, fs, band_hz, order)
+        phase = reference.phase_error_deg(trial, order)
         if phase < best[2]:
             best = (trial, order, phase)
         if phase <= PHASE_TRIM_DEG:
@@ -919,20 +944,21 @@ def design_sections(z, p, k, fs, *, notch_hz, tolerance_db=0.1):
     tol = float(tolerance_db)
     z, p, k = _check_zpk(z, p, k)
     band, phase_band = fidelity_band_hz(fs), phase_band_hz(fs)
+    reference = _Reference(z, p, k, fs, band, phase_band[1])
     best = None
     for method, z_d, p_d, k_d in _candidates(z, p, k, fs, notch_hz, band):
         if not (np.all(np.abs(p_d) < 1.0) and np.all(np.isfinite(z_d)) and math.isfinite(k_d)):
             continue  # only stable, finite designs
         sos = _zpk_to_sos(z_d, p_d, k_d)
-        err = fidelity_error_db(z, p, k, sos, fs, band)
+        err = reference.magnitude_error_db(sos)
         if best is None or err < best[2]:
             best = (method, sos, err)
         if err <= tol:
             break
     method, sos, err = best
-    latency, phase = 0, phase_error_deg(z, p, k, sos, fs, phase_band)
+    latency, phase = 0, reference.phase_error_deg(sos)
     if phase > PHASE_TRIM_DEG:
-        sos, latency, phase = _phase_trimmed(z, p, k, sos, fs, phase_band)
+        sos, latency, phase = _phase_trimmed(reference, sos)
         method += f"+allpass{latency}" if latency else ""
     in_band = notch_hz is not None and notch_hz < 0.4999 * fs
     return DigitalNotch(
