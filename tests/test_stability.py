@@ -96,3 +96,14 @@ class TestBootstrapMargin:
     def test_passive_refused(self):
         with pytest.raises(BadValueError, match="passive"):
             bootstrap_margin(TwinT.balanced(1000.0, r_ohms=10e3))
+
+
+class TestSheetMarginLine:
+    def test_sheet_warns_with_the_margin(self, tmp_path):
+        # Regression (issue 10, defect 5): the build sheet of an active network states how far K
+        # may rise before it oscillates (1 - K for the balanced network, MT-225).
+        from emulate.report import sheet
+
+        path = sheet.write_sheet(tmp_path / "s", ISSUE_NOMINAL, tolerances=tol.Tolerances(0.01, 0.05))
+        text = (path / "sheet.md").read_text()
+        assert "K may rise by only 0.0125" in text
