@@ -33,11 +33,18 @@ def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
                   smoothing_ms: float = 20.0) -> NotchProcessor:
     """A :class:`NotchProcessor` that emulates ``network`` (not yet prepared).
 
+    The notch is the measured one (None where no notch lies in 1 Hz - 200 kHz).
+
+    Raises
+    ------
+    CircuitError
+        If the network is unstable (it oscillates; the message names the frequency).
+
     Example
     -------
     >>> proc = processor_for(TwinT.balanced(6000.0, r_ohms=10e3))
-    >>> proc.prepare(48000, 2); proc.latency_samples
-    0
+    >>> proc.prepare(48000, 2); proc.design.meets_target
+    True
     """
     metrics = measure(network.response)
     notch_hz = metrics.notch_hz if metrics.in_range else None
