@@ -161,7 +161,7 @@ def _cases() -> list[Case]:
         _c("response zero", "response --r1 0 --r2 10k --r3 5k --c1 10n --c2 10n --c3 20n", 1, "r1"),
         _c("response huge C", "response --r1 10k --r2 10k --r3 5k --c1 1e9 --c2 10n --c3 20n", 1, "c1"),
         _c("regression_suggestion_never_fails_a_valid_analysis",
-           "response --r1 10k --r2 10k --r3 5k --c1 1 --c2 1 --c3 1", 0, "balanced"),
+           "response --r1 10k --r2 10k --r3 5k --c1 1 --c2 1 --c3 1", 0, "no notch in range"),
         _c("response mix too big", f"response {P} --mix 1.5", 1, "mix"),
         _c("response mix nan", f"response {P} --mix nan", 1, "mix"),
         _c("response bootstrap 1", f"response {P} --bootstrap 1", 1, "bootstrap"),

@@ -124,11 +124,16 @@ class TestRender:
         assert_one_line_error(run("render", take, take, *BALANCED), "same file")
         assert take.read_bytes() == before
 
-    def test_notch_above_nyquist(self, tmp_path):
+    def test_notch_16300_hz_is_not_allowed_at_32000_hz(self, tmp_path):
+        # Regression (issue 10, defect 3): a notch above Nyquist was refused; the part of the
+        # response below Nyquist is what the listener hears, so it is rendered (15.9 kHz notch at 16 kHz).
         take = self.write_take(tmp_path / "take.wav", rate=16000)
         args = ["--r1", "1k", "--r2", "1k", "--r3", "500", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
-        assert_one_line_error(run("render", take, tmp_path / "o.wav", *args), "Nyquist")
-        assert sorted(p.name for p in tmp_path.iterdir()) == ["take.wav"]
+        result = run("render", take, tmp_path / "o.wav", *args, "--json")
+        assert result.exit_code == 0, result.output
+        payload = json.loads(result.output)
+        assert payload["fidelity_db"] <= 0.1 and payload["fidelity_met"] is True
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["o.wav", "take.wav"]
 
 
 class TestPlots:

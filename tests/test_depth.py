@@ -231,3 +231,34 @@ class TestPotPositionForDepth:
     def test_needs_a_pot(self):
         with pytest.raises(BadValueError, match="no depth pot"):
             pot_position_for_depth(balanced(), -20.0)
+
+
+class TestPotRefusalDryEnd:
+    def test_dry_end_artefact_with_source(self):
+        # Regression (issue 10, defect 9): with a source resistance the refusal's dry end was the
+        # minimum of a flat response somewhere in the search band ("+6.45 dB"); it is the level at
+        # the full notch's frequency against the passband: within 1 dB of 0 dB for a 600 ohm source
+        # on a 10 kohm network (source loss about 20 log10(1 + 600 / 10k) = 0.5 dB, common practice).
+        from emulate.analog.networks import TwinT
+        from emulate.dsp.depth import pot_position_for_depth
+
+        net = TwinT.balanced(1000.0, r_ohms=10e3, source_ohms=600.0, depth_pot_ohms=10e3)
+        with pytest.raises(BadValueError, match=r"allowed \[-1\d\d\.\d\d, 0\.\d\d\] dB"):
+            pot_position_for_depth(net, -300.0)
+
+
+class TestMixForDepthMixedMinimum:
+    # A strongly unbalanced bootstrapped network with a heavy source (drawn at random): its
+    # mixed response's minimum moves away from the wet notch as the mix changes.
+    NET = TwinT(732.6263469449661, 2497.4436006847786, 601.7947064860366, 2.168381946026993e-06,
+                3.9915795286887635e-06, 8.152899798602651e-06, source_ohms=6811.583720323703,
+                load_ohms=245833.004820745, bootstrap=0.7530978006528237)
+
+    @pytest.mark.parametrize("depth", [-6.0, -20.0, -30.0])
+    def test_depth_set_at_wet_notch_not_resulting_notch(self, depth):
+        # Regression (issue 10, defect 6): --depth set the level at the wet network's notch, so
+        # the mixed response dipped deeper than asked (here 2.2 dB at -20 dB); the level of the
+        # mixed response's own minimum (measure(), the reference) is now the one asked for;
+        # 1e-6 dB is far inside what brentq's 1e-10 mix tolerance gives.
+        mix = mix_for_depth(self.NET, depth)
+        assert measure(self.NET.replace(mix=mix).response).depth_db == pytest.approx(depth, abs=1e-6)

@@ -146,3 +146,14 @@ class TestDesignTwinT:
 
 def test_design_networks_are_twin_t(designs):
     assert all(isinstance(d.built, TwinT) and d.built.bootstrap is None for d in designs.values())
+
+
+class TestPartsAsWrittenExact:
+    @pytest.mark.parametrize("notch, q, series", [(6300.0, 20.0, "E96"), (6300.0, 20.0, "E24"), (4500.0, 2.0, "E192")])
+    def test_design_json_r3_4k54(self, notch, q, series):
+        # Regression (issue 10, defect 8): design --json wrote R3 "4k54" for a build of 2 x 9k09 =
+        # 4k545; every written value must read back as the built value exactly.
+        d = design_twin_t(notch, q=q, series=series)
+        for name, value in d.built.parts().items():
+            kind = "resistance" if name.startswith("r") else "capacitance"
+            assert parts.parse_value(d.parts_as_written()[name.upper()], kind) == pytest.approx(value, rel=1e-6)

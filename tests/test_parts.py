@@ -347,3 +347,20 @@ class TestToleranceLetter:
     def test_bad_fraction(self):
         with pytest.raises(BadValueError, match=r"tolerance -0.01: outside"):
             parts.tolerance_letter(-0.01)
+
+
+class TestLetterCodeTwice:
+    @pytest.mark.parametrize("text", ["4R7R", "4R7 ohm", "R47R"])
+    def test_4r7r_accepted(self, text):
+        # Regression (issue 10, defect 9): "4R7R" was read as 4.7 ohms; IEC 60062 (from memory)
+        # writes the R once, as the decimal mark.
+        with pytest.raises(BadValueError, match="already names ohms with R"):
+            parts.parse_value(text, "resistance")
+
+
+class TestBuiltValueExact:
+    def test_r3_4k54_for_2_x_9k09(self):
+        # Regression (issue 10, defect 8): 2 x 9k09 in parallel is 4545 ohms exactly; written with
+        # three figures it read "4k54" and a build from the text missed the Q 20 null.
+        assert parts.format_value(9090.0 / 2, "resistance", 6) == "4k545"
+        assert parts.parse_value(parts.format_value(9090.0 / 2, "resistance", 6), "resistance") == 4545.0

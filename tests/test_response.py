@@ -84,7 +84,8 @@ class TestMeasure:
     def test_as_dict(self):
         m = measure(analog_notch(1000.0, 1.0))
         assert set(m.as_dict()) == set(NotchMetrics.__dataclass_fields__)
-        assert all(isinstance(v, float) for v in m.as_dict().values())
+        assert all(isinstance(v, float) for k, v in m.as_dict().items() if k != "in_range")
+        assert m.as_dict()["in_range"] is True
 
     def test_docstring_example(self):
         m = measure(TwinT.balanced(1000.0, r_ohms=10e3).response)
@@ -195,3 +196,17 @@ class TestWarnAll:
         with pytest.warns(EmulateWarning) as record:
             warn_all(found)
         assert len(record) == len(found) == 2
+
+
+class TestNoNotchInRange:
+    @pytest.mark.parametrize("r, c", [(100e3, 2.2e-6), (10.0, 1e-10)])
+    def test_notch_reported_at_search_edge(self, r, c):
+        # Regression (issue 10, defect 7): a true 0.72 Hz notch was reported as "1.00 Hz, -27 dB" (the
+        # search edge).  f0 = 1/(2 pi R C) (MT-225): 0.72 Hz and 159 MHz lie outside 1 Hz - 200 kHz.
+        m = measure(TwinT.balanced(1 / (2 * np.pi * r * c), r_ohms=r).response)
+        assert m.in_range is False
+        found = check_twin_t(TwinT.balanced(1 / (2 * np.pi * r * c), r_ohms=r), m)
+        assert any("no notch in range" in str(w) for w in found)
+
+    def test_notch_inside_is_in_range(self):
+        assert measure(TwinT.balanced(1000.0, r_ohms=10e3).response).in_range is True

@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from emulate.errors import CircuitError
+from emulate.analog.roots import pair_conjugates
 
 GROUND = "gnd"
 SOURCE = "src"
@@ -332,26 +333,11 @@ def _finite_eigenvalues(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 
 def _tidy(roots: np.ndarray) -> np.ndarray:
-    """Snap numerically real roots to the real axis and pair conjugates exactly.
-
-    A real network's roots come in conjugate pairs; eigenvalue round-off breaks
-    the pairing slightly, which later stages (SOS conversion) do not accept.
-    """
+    """Snap numerically imaginary roots to the j axis; pair conjugates (:func:`pair_conjugates`)."""
     roots = np.asarray(roots, complex)
     scale = np.maximum(np.abs(roots), 1e-2 * np.max(np.abs(roots), initial=1e-300))
-    roots = np.where(np.abs(roots.imag) < 1e-9 * scale, roots.real + 0j, roots)
     roots = np.where(np.abs(roots.real) < 1e-12 * scale, 1j * roots.imag, roots)
-    upper, lower = list(roots[roots.imag > 0]), list(roots[roots.imag < 0])
-    paired = []
-    for root in upper:
-        if not lower:
-            raise CircuitError(f"complex root {root} has no conjugate partner")
-        j = int(np.argmin([abs(root - np.conj(other)) for other in lower]))
-        mean = (root + np.conj(lower.pop(j))) / 2
-        paired += [mean, np.conj(mean)]
-    if lower:
-        raise CircuitError(f"complex roots {lower} have no conjugate partners")
-    return np.sort_complex(np.concatenate([roots[roots.imag == 0], paired]))
+    return pair_conjugates(roots)
 
 
 def _cancel_common(zeros: np.ndarray, poles: np.ndarray):

@@ -60,7 +60,8 @@ class Design:
 
     def parts_as_written(self) -> dict[str, str]:
         """Designator -> value as the trade writes it (R3/C3 as one value; see ``*_build``)."""
-        written = {name.upper(): parts.format_value(value, part_kind(name))
+        # six figures: the built value exactly (2 x 9k09 in parallel is 4k545, not 4k54)
+        written = {name.upper(): parts.format_value(value, part_kind(name), 6)
                    for name, value in self.built.parts().items()}
         if self.divider is not None:
             written["RK_TOP"], written["RK_BOTTOM"] = (parts.format_value(v, "resistance")

@@ -151,6 +151,8 @@ def _from_text(text: str, kind: str | None) -> float:
     if match := _DECIMAL_RE.fullmatch(cleaned):
         number, exp, unit = match["num"], _PREFIX_EXP[match["prefix"]], match["unit"]
     elif match := _LETTER_RE.fullmatch(cleaned):
+        if match["mark"] == "R" and match["unit"]:
+            raise _fail(kind, text, f"the letter code already names ohms with R; write e.g. {_EXAMPLES[kind]}")
         number = f"{match['sign']}{match['int'] or '0'}.{match['frac']}"
         exp = _PREFIX_EXP[match["mark"]]
         unit = "R" if match["mark"] == "R" else match["unit"]

@@ -42,6 +42,9 @@ class NotchMetrics:
     q : notch_hz / (upper_hz - lower_hz) (nan where the edges do not exist).
     passband_low_db, passband_high_db : the gain far below and far above the
         notch, dB (insertion loss from source and load).
+    in_range : False where the deepest point lies at an edge of the search band
+        (no dip inside it: "no notch in range"); the other fields then describe
+        that edge, not a notch.
     """
 
     notch_hz: float
@@ -52,9 +55,11 @@ class NotchMetrics:
     q: float
     passband_low_db: float
     passband_high_db: float
+    in_range: bool = True
 
     def as_dict(self) -> dict[str, float]:
-        return {name: float(getattr(self, name)) for name in self.__dataclass_fields__}
+        return {name: (bool if name == "in_range" else float)(getattr(self, name))
+                for name in self.__dataclass_fields__}
 
 
 def db(magnitude):
@@ -86,7 +91,27 @@ def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 6
         q = notch / (upper - lower)
     below = np.minimum(db(low), db(high)) - depth
     fields = (notch, depth, below, lower, upper, q, db(low), db(high))
-    return [NotchMetrics(*(float(v[i]) for v in fields)) for i in range(len(notch))]
+    inside = notch_in_range(notch, search_hz, points)
+    return [NotchMetrics(*(float(v[i]) for v in fields), bool(inside[i])) for i in range(len(notch))]
+
+
+def notch_in_range(notch_hz, search_hz, points: int = 600) -> np.ndarray:
+    """True where a found minimum lies inside the search band, not on its edge.
+
+    The search refines the deepest grid point between its two neighbours, so a
+    minimum within one grid step (log spacing) of either edge is the edge
+    itself: the response is still falling there and the true notch (if any)
+    lies outside the band.
+
+    Example
+    -------
+    >>> notch_in_range([1.0, 1000.0, 199999.0], (1.0, 200e3)).tolist()
+    [False, True, False]
+    """
+    lo, hi = search_hz
+    step = (hi / lo) ** (1.0 / (points - 1))
+    notch = np.asarray(notch_hz, float)
+    return (notch > lo * step * (1 + 1e-9)) & (notch < hi / step / (1 + 1e-9))
 
 
 def find_notch(response: Callable, search_hz, points: int):
@@ -154,7 +179,11 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
     """
     found = []
     mismatch = network.null_mismatch()
-    if abs(mismatch) > UNBALANCE_LIMIT and metrics.depth_below_passband_db < SHALLOW_DB:
+    if not metrics.in_range:
+        found.append(EmulateWarning(
+            f"no notch in range 1 Hz - 200 kHz: the response is lowest at the edge ({metrics.notch_hz:.4g} Hz); "
+            "check the part values and their units"))
+    elif abs(mismatch) > UNBALANCE_LIMIT and metrics.depth_below_passband_db < SHALLOW_DB:
         found.append(EmulateWarning(_unbalanced_message(network, mismatch, metrics)))
     series = network.r1 + network.r2
     if not network.is_active and network.load_ohms < LOAD_FACTOR * series:
@@ -168,7 +197,7 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
             f"the null stays but Q and the passband change (Q {metrics.q:.3f}); drive the network "
             "from a buffer or scale the impedance up"))
     low, high = AUDIO_BAND_HZ
-    if not low <= metrics.notch_hz <= high:
+    if metrics.in_range and not low <= metrics.notch_hz <= high:
         found.append(EmulateWarning(
             f"notch at {metrics.notch_hz:.4g} Hz is outside the audio band {low:g}-{high:g} Hz"))
     return found

@@ -21,6 +21,12 @@ The pipeline, top to bottom:
                no more than a few times the tolerances) with a coarse grid and the
                usual golden-section refinement.  Depths below the passband are
                capped at ``DEPTH_CAP_DB`` (deeper is an exact null in floating point).
+   stability   every build's poles (the roots of its D(s),
+               :func:`emulate.analog.stability.batch_stability`): a build with a pole
+               in the right half-plane oscillates; it has no depth (NaN) and fails
+               the yield.  A build whose deepest point lies on the edge of the
+               search band has no notch in range; it fails the yield too, and both
+               kinds are counted apart and left out of the percentiles.
 5. report      percentiles, yield against a depth spec, a sensitivity ranking
                (Spearman rank correlation of each part's deviation with the notch
                shift, and of its size |deviation| with the depth), the 2^6 worst-case
@@ -48,6 +54,7 @@ from scipy import special, stats
 from emulate.analog import parts
 from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT
+from emulate.analog.stability import batch_stability
 from emulate.analog.response import measure_batch
 from emulate.validate import check_range
 
@@ -196,10 +203,20 @@ def builds(nominal: TwinT, deviation: np.ndarray) -> TwinT:
 
 @dataclass(frozen=True)
 class BatchMetrics:
-    """Notch frequency (Hz) and depth below the passband (dB, capped) per build."""
+    """Notch frequency (Hz) and depth below the passband (dB, capped; NaN if it oscillates) per build.
+
+    ``oscillation_hz`` is NaN for a stable build; ``in_range`` is False where no
+    dip lies inside the search band.
+    """
 
     notch_hz: np.ndarray
     depth_db: np.ndarray
+    oscillation_hz: np.ndarray
+    in_range: np.ndarray
+
+    @property
+    def oscillating(self) -> np.ndarray:
+        return np.isfinite(self.oscillation_hz)
 
 
 def search_band_hz(notch_hz: float, tolerances: Tolerances) -> tuple[float, float]:
@@ -215,7 +232,9 @@ def measure_builds(network: TwinT, band_hz, f_ref_hz: float) -> BatchMetrics:
     metrics = measure_batch(rational.response, search_hz=band_hz, points=_SEARCH_POINTS)
     notch = np.array([m.notch_hz for m in metrics])
     depth = np.array([m.depth_below_passband_db for m in metrics])
-    return BatchMetrics(notch, np.minimum(depth, DEPTH_CAP_DB))
+    unstable, oscillation_hz = batch_stability(rational)
+    depth = np.where(unstable, np.nan, np.minimum(depth, DEPTH_CAP_DB))
+    return BatchMetrics(notch, depth, oscillation_hz, np.array([m.in_range for m in metrics]))
 
 
 def _nominal_notch_hz(nominal: TwinT) -> float:
@@ -246,9 +265,25 @@ class Corners:
     signs: np.ndarray
     notch_hz: np.ndarray
     depth_db: np.ndarray
+    oscillation_hz: np.ndarray = None
+    in_range: np.ndarray = None
+
+    def __post_init__(self):
+        if self.oscillation_hz is None:
+            object.__setattr__(self, "oscillation_hz", np.full(len(self.depth_db), np.nan))
+        if self.in_range is None:
+            object.__setattr__(self, "in_range", np.ones(len(self.depth_db), bool))
+
+    @property
+    def oscillating(self) -> int:
+        """How many corners oscillate."""
+        return int(np.sum(np.isfinite(self.oscillation_hz)))
 
     @property
     def worst_index(self) -> int:
+        """An oscillating corner if any (the one at the highest frequency), else the shallowest."""
+        if self.oscillating:
+            return int(np.nanargmax(self.oscillation_hz))
         return int(np.argmin(self.depth_db))
 
     @property
@@ -257,13 +292,17 @@ class Corners:
 
     @property
     def notch_range_hz(self) -> tuple[float, float]:
-        return float(self.notch_hz.min()), float(self.notch_hz.max())
+        found = self.notch_hz[self.in_range & ~np.isfinite(self.oscillation_hz)]
+        return (float(found.min()), float(found.max())) if len(found) else (math.nan, math.nan)
 
     def as_dict(self) -> dict:
         worst = self.signs[self.worst_index]
         return {"worst_depth_db": self.worst_depth_db,
                 "worst_signs": {name.upper(): "+" if s > 0 else "-" for name, s in zip(PART_NAMES, worst)},
-                "notch_low_hz": self.notch_range_hz[0], "notch_high_hz": self.notch_range_hz[1]}
+                "notch_low_hz": self.notch_range_hz[0], "notch_high_hz": self.notch_range_hz[1],
+                "oscillating_corners": self.oscillating,
+                "worst_oscillation_hz": float(self.oscillation_hz[self.worst_index]) if self.oscillating else None,
+                "no_notch_corners": int(np.sum(~self.in_range))}
 
 
 @dataclass(frozen=True)
@@ -290,23 +329,46 @@ class ToleranceResult:
     nominal_notch_hz: float
     nominal_depth_db: float
     corners: Corners = field(repr=False)
+    oscillation_hz: np.ndarray = field(default=None, repr=False)
+    in_range: np.ndarray = field(default=None, repr=False)
+
+    def __post_init__(self):
+        if self.oscillation_hz is None:
+            object.__setattr__(self, "oscillation_hz", np.full(len(self.depth_db), np.nan))
+        if self.in_range is None:
+            object.__setattr__(self, "in_range", np.ones(len(self.depth_db), bool))
 
     @property
     def draws(self) -> int:
         return len(self.notch_hz)
 
     @property
+    def oscillating(self) -> np.ndarray:
+        """Per draw: the build oscillates (a pole in the right half-plane)."""
+        return np.isfinite(self.oscillation_hz)
+
+    @property
+    def measured(self) -> np.ndarray:
+        """Per draw: a stable build with a notch inside the search band."""
+        return ~self.oscillating & self.in_range
+
+    @property
     def yield_fraction(self) -> float:
-        """Share of draws at least ``spec_db`` below the passband."""
-        return float(np.mean(self.depth_db >= self.spec_db))
+        """Share of draws at least ``spec_db`` below the passband (oscillating or notch-less builds fail)."""
+        return float(np.mean(self.measured & (np.nan_to_num(self.depth_db, nan=-np.inf) >= self.spec_db)))
 
     @property
     def typical_index(self) -> int:
-        """The draw whose depth is nearest the median depth (the lowest such number)."""
-        return int(np.argmin(np.abs(self.depth_db - np.median(self.depth_db))))
+        """The measured draw whose depth is nearest their median depth (the lowest such number)."""
+        depth = np.where(self.measured, self.depth_db, np.nan)
+        if not np.any(self.measured):
+            return 0
+        return int(np.nanargmin(np.abs(depth - np.nanmedian(depth))))
 
-    def percentiles(self, values: np.ndarray, at=PERCENTILES) -> dict[str, float]:
-        return {f"p{p:g}": float(np.percentile(values, p)) for p in at}
+    def percentiles(self, values: np.ndarray, at=PERCENTILES, where=None) -> dict[str, float]:
+        """Percentiles over the measured draws (or the draws ``where`` is True; NaN if none)."""
+        values = np.asarray(values)[self.measured if where is None else where]
+        return {f"p{p:g}": float(np.percentile(values, p)) if len(values) else math.nan for p in at}
 
     def sensitivity(self) -> list[PartSensitivity]:
         """Every part, the one that matters most for the depth first."""
@@ -318,7 +380,7 @@ class ToleranceResult:
             found.append(PartSensitivity(
                 name.upper(),
                 0.0 if flat else float(stats.spearmanr(d, shift).statistic),
-                0.0 if flat else float(stats.spearmanr(np.abs(d), self.depth_db).statistic)))
+                0.0 if flat else float(stats.spearmanr(np.abs(d), np.nan_to_num(self.depth_db, nan=0.0)).statistic)))
         return sorted(found, key=lambda s: (-abs(np.nan_to_num(s.depth_corr)), -abs(s.notch_corr)))
 
     def draw(self, which: int) -> TwinT:
@@ -341,6 +403,10 @@ class ToleranceResult:
             **{f"notch_hz_{k}": v for k, v in self.percentiles(self.notch_hz).items()},
             **{f"depth_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
             "spec_db": self.spec_db, "yield": self.yield_fraction,
+            "oscillating_share": float(np.mean(self.oscillating)),
+            "oscillation_hz_range": ([float(np.nanmin(self.oscillation_hz)), float(np.nanmax(self.oscillation_hz))]
+                                     if np.any(self.oscillating) else None),
+            "no_notch_share": float(np.mean(~self.in_range & ~self.oscillating)),
             "typical_build": self.typical_index,
             "matters_most": ranking[0].part,
             "sensitivity": [s.__dict__ for s in ranking],
@@ -391,7 +457,8 @@ def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_
     corners = worst_corners(nominal, tolerances, f_nominal)
     nominal_depth = measure_builds(nominal, band, f_nominal).depth_db[0]
     return ToleranceResult(nominal, tolerances, seed, float(spec_db), deviation, measured.notch_hz,
-                           measured.depth_db, f_nominal, float(nominal_depth), corners)
+                           measured.depth_db, f_nominal, float(nominal_depth), corners,
+                           measured.oscillation_hz, measured.in_range)
 
 
 def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None = None) -> Corners:
@@ -407,7 +474,8 @@ def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None
     f_nominal = _nominal_notch_hz(nominal) if notch_hz is None else notch_hz
     band = search_band_hz(f_nominal, Tolerances(tolerances.resistors, tolerances.capacitors))
     measured = measure_builds(builds(nominal, _CORNER_SIGNS * tolerances.fractions()), band, f_nominal)
-    return Corners(_CORNER_SIGNS.copy(), measured.notch_hz, measured.depth_db)
+    return Corners(_CORNER_SIGNS.copy(), measured.notch_hz, measured.depth_db, measured.oscillation_hz,
+                   measured.in_range)
 
 
 MAX_DRAW_NUMBER = 2**62  # draw numbers index a 64-bit counter stream
@@ -540,11 +608,13 @@ def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, 
     trimmed = batch.replace(r3=fixed * r3_scale + setting + 0.5 * resolution * trimmer)
     measured = measure_builds(trimmed, search_band_hz(result.nominal_notch_hz, result.tolerances),
                               result.nominal_notch_hz)
+    kept = measured.in_range & ~measured.oscillating
     tail = (1 - share) / 2
     need = needed - fixed * r3_scale
     return TrimSuggestion(fixed, trimmer, float(share), covered,
                           (float(np.quantile(need, tail)), float(np.quantile(need, 1 - tail))), float(resolution),
-                          result.percentiles(measured.depth_db), result.percentiles(measured.notch_hz))
+                          result.percentiles(measured.depth_db, where=kept),
+                          result.percentiles(measured.notch_hz, where=kept))
 
 
 def _size_trim(needed, r3_scale, share, series):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from emulate.report import sheet
+from emulate.report import sheet, summary
 from emulate.analog import spec, tolerance
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options)
@@ -46,8 +46,8 @@ def _text(result, trim) -> str:
         f"  notch   {d['notch_hz_p5']:.1f} / {d['notch_hz_p50']:.1f} / {d['notch_hz_p95']:.1f} Hz (5/50/95 %)",
         f"  depth   {d['depth_db_p5']:.1f} / {d['depth_db_p50']:.1f} / {d['depth_db_p95']:.1f} dB below passband",
         f"  yield   {result.yield_fraction:.1%} at {result.spec_db:g} dB; typical build {result.typical_index}",
-        f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
-        f"{corner['notch_high_hz']:.1f} Hz over 64 corners",
+        *summary.unmeasured_lines(d),
+        summary.corner_line(corner),
         f"  matters most: {', '.join(s.part for s in result.sensitivity()[:3])} (depth)",
         f"  trim    {trim.describe()}",
     ])

@@ -9,6 +9,7 @@ from emulate.report import summary
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options)
 from emulate.analog.response import check_twin_t, measure
+from emulate.analog.stability import check_stability
 
 
 @main.command()
@@ -23,9 +24,10 @@ def response(rate, plot_path, force, as_json, **options):
     check_plot(plot_path, force)
     metrics = measure(network.response)
     found = check_twin_t(network, metrics)
-    payload = summary.metrics_payload(network, metrics, found)
-    text = summary.response_text(network, metrics, found)
-    if rate is not None:
+    stable = check_stability(network)
+    payload = summary.metrics_payload(network, metrics, found, stable)
+    text = summary.response_text(network, metrics, found, stable)
+    if rate is not None and stable.stable:
         from emulate.dsp import emulation  # numba kernels: loaded only for --rate
 
         digital = emulation.digital_for(network, rate)

@@ -52,7 +52,7 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     with progress(info.frames, f"rendering {in_path}") as bar:
         report = audio.render_file(in_path, out_path, processor, progress=bar.update,
                                    subtype="FLOAT" if as_float else subtype)
-    payload = report.to_dict() | {"fidelity_db": processor.fidelity_db,
+    payload = report.to_dict() | summary.fidelity_payload(processor.design) | {
                                   "digital_method": processor.design.method,
                                   "build": build, "parts": spec.table_from_network(network)}
     text = summary.render_text(report, processor)

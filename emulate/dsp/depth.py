@@ -6,8 +6,9 @@ Two controls, as :class:`emulate.analog.networks.TwinT` models them:
   source voltage). At an exact null (H = 0) the level there is 1 - m, so
   depth = 20 log10(1 - m) (common practice, no source): :func:`mix_to_depth_db`,
   :func:`depth_db_to_mix`. When the network's own null is not exact (parts that
-  miss the balance, source and load), :func:`mix_for_depth` solves the mix from
-  the complex H at the notch.
+  miss the balance, source and load), :func:`mix_for_depth` solves the mix for
+  the level of the mixed response's own minimum (which moves away from the wet
+  notch on an unbalanced network).
 * a real linear potentiometer wired from the network input to its (buffered)
   output with its wiper buffered, position 0 = dry, 1 = full notch:
   :func:`pot_depth_db`, :func:`pot_position_for_depth`. Each end of the track
@@ -25,7 +26,7 @@ import math
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.analog.response import measure
+from emulate.analog.response import db, measure
 from emulate.validate import check_range
 
 __all__ = [
@@ -43,6 +44,8 @@ __all__ = [
 _POSITION_XTOL = 1e-10
 # Relative rounding allowed at the deepest point the ideal mix reaches.
 _ROUNDING = 1e-12
+# A closed-form mix whose mixed minimum lies this close to the target (dB) is kept.
+_LEVEL_TOL_DB = 1e-9
 
 
 # --- validators (one per concept) -------------------------------------------
@@ -165,28 +168,26 @@ def depth_db_to_mix(depth_db) -> float:
 
 
 def mix_for_depth(network, depth_db) -> float:
-    """The ideal wet/dry mix that puts the level at the network's notch at ``depth_db``.
+    """The ideal wet/dry mix that puts the mixed response's own minimum at ``depth_db``.
 
-    With H0 the complex response of the full-notch network (``network.wet()``) at
-    its measured notch, the mixer gives (1 - m) + m H0 = 1 + m d, d = H0 - 1, there.
-    Setting |1 + m d| = A = 10^(depth_db / 20) is the quadratic
-    |d|^2 m^2 + 2 Re(d) m + (1 - A^2) = 0; its smaller root (written as
-    (1 - A^2) / (-Re d + sqrt(Re(d)^2 - |d|^2 (1 - A^2))) so it stays accurate as
-    A -> 1) is the mix on the branch that deepens from m = 0. ``depth_db`` is
-    relative to the dry (source) level, the scale of ``NotchMetrics.depth_db``;
-    it equals "below the passband" when the passband gain is 1 (ideal source, no
-    passive load). At an exact null (H0 = 0) this is :func:`depth_db_to_mix`.
-
-    The deepest level the mix reaches is |H0| at m = 1 when Re(H0) >= |H0|^2, and
-    |Im H0| / |1 - H0| at m = -Re(d) / |d|^2 < 1 otherwise (a residual in phase
-    opposition to the dry signal is cancelled by a little dry).
+    The level asked for is the deepest point of the mixed response
+    (1 - m) + m H(f), wherever it falls: on an unbalanced network the mixed
+    minimum moves away from the wet network's notch and can lie far deeper than
+    the level there.  The closed form at the wet notch (:func:`_mix_at_wet_notch`,
+    exact for an exact null) gives the first guess and the bracket; the level of
+    the mixed minimum (``measure(...).depth_db``) is then solved for the mix by
+    bracketed root finding (scipy.optimize.brentq) to 1e-10, starting from the dry
+    end (m = 0, 0 dB), so the smallest mix that reaches the level is returned.
+    ``depth_db`` is relative to the dry (source) level, the scale of
+    ``NotchMetrics.depth_db``; it equals "below the passband" when the passband
+    gain is 1 (ideal source, no passive load).
 
     Parameters
     ----------
     network : emulate.analog.networks.TwinT
         The network; its own ``mix`` and depth pot are ignored.
     depth_db : float
-        Level at the notch relative to the dry signal, dB, -inf to 0.
+        Level of the mixed response's minimum relative to the dry signal, dB, -inf to 0.
 
     Returns
     -------
@@ -197,7 +198,7 @@ def mix_for_depth(network, depth_db) -> float:
     ------
     BadValueError
         If ``depth_db`` is not in [-inf, 0] dB, or is deeper than this network's
-        notch reaches with any mix (the message gives the deepest level).
+        mixed response reaches with any mix (the message gives the deepest level).
 
     Example
     -------
@@ -205,20 +206,62 @@ def mix_for_depth(network, depth_db) -> float:
     >>> round(mix_for_depth(TwinT.balanced(1000.0, r_ohms=10e3), -20.0), 6)
     0.9
     """
-    target = 10.0 ** (check_depth_db(depth_db) / 20.0)
+    target_db = check_depth_db(depth_db)
     wet = network.wet()
+    if target_db == 0.0:
+        return 0.0
+    guess = _mix_at_wet_notch(wet, depth_db, refuse=math.isinf(target_db))
+    if math.isinf(target_db):
+        return guess  # only an exact null reaches -inf, and only at the wet notch
+
+    def miss(mix):
+        return measure(wet.replace(mix=float(mix)).response).depth_db - target_db
+
+    if guess is not None and abs(miss(guess)) <= _LEVEL_TOL_DB:
+        return guess  # the wet notch is the mixed minimum (an exact or nearly exact null)
+    top = guess if guess is not None and miss(guess) < 0.0 else _first_reaching(miss, target_db, depth_db)
+    from scipy import optimize  # imported here: rendering never solves a mix
+
+    return float(optimize.brentq(miss, 0.0, top, xtol=_POSITION_XTOL))
+
+
+def _first_reaching(miss, target_db, depth_db) -> float:
+    """The first mix on a 1/64 grid whose mixed minimum reaches the target; refuses if none does."""
+    grid = np.linspace(0.0, 1.0, 65)[1:]
+    misses = np.array([miss(m) for m in grid])
+    reached = np.flatnonzero(misses <= 0.0)
+    if len(reached) == 0:
+        _unreachable(depth_db, float(np.min(misses)) + target_db)
+    return float(grid[reached[0]])
+
+
+def _mix_at_wet_notch(wet, depth_db, *, refuse) -> float | None:
+    """The mix that puts the level at the wet network's own notch at ``depth_db``; None (or, if ``refuse``, BadValueError) if none does.
+
+    With H0 the complex response of the full-notch network ``wet`` at its
+    measured notch, the mixer gives (1 - m) + m H0 = 1 + m d, d = H0 - 1, there.
+    Setting |1 + m d| = A = 10^(depth_db / 20) is the quadratic
+    |d|^2 m^2 + 2 Re(d) m + (1 - A^2) = 0; its smaller root (written as
+    (1 - A^2) / (-Re d + sqrt(Re(d)^2 - |d|^2 (1 - A^2))) so it stays accurate as
+    A -> 1) is the mix on the branch that deepens from m = 0.  At an exact null
+    (H0 = 0) this is :func:`depth_db_to_mix`.  The deepest level reached there is
+    |H0| at m = 1 when Re(H0) >= |H0|^2, and |Im H0| / |1 - H0| at
+    m = -Re(d) / |d|^2 < 1 otherwise (a residual in phase opposition to the dry
+    signal is cancelled by a little dry).
+    """
+    target = 10.0 ** (check_depth_db(depth_db) / 20.0)
     h0 = complex(np.ravel(wet.response(np.array([measure(wet.response).notch_hz])))[0])
     d = h0 - 1.0
     c = 1.0 - target**2
     if c == 0.0:
         return 0.0
     disc = d.real**2 - abs(d) ** 2 * c
-    if disc < -_ROUNDING * abs(d) ** 2:
-        _unreachable(depth_db, _deepest_db(d))
     denominator = -d.real + math.sqrt(max(disc, 0.0))
     mix = c / denominator if denominator > 0.0 else math.inf  # Re(H0) >= 1: no notch to deepen
-    if not mix <= 1.0 + _ROUNDING:
-        _unreachable(depth_db, _deepest_db(d))
+    if disc < -_ROUNDING * abs(d) ** 2 or not mix <= 1.0 + _ROUNDING:
+        if refuse:
+            _unreachable(depth_db, _deepest_db(d))
+        return None
     return min(mix, 1.0)
 
 
@@ -283,6 +326,20 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     return -measure(pot.response).depth_below_passband_db
 
 
+def _dry_end_db(network, ohms) -> float:
+    """Level with the wiper at the dry end, dB against the passband, at the full notch's frequency.
+
+    At the dry end there is no dip to measure: the smallest |H| over the search
+    band is wherever a source resistance makes the response lowest, not the
+    notch.  The level that matters is the one at the notch the pot moves away
+    from, against the same passband (the lower of the two passband gains).
+    """
+    full = measure(network.replace(depth_pot_ohms=ohms, mix=1.0).response)
+    dry = network.replace(depth_pot_ohms=ohms, mix=0.0)
+    level = db(np.abs(np.atleast_1d(dry.response([full.notch_hz])).ravel()[0]))
+    return float(level - min(full.passband_low_db, full.passband_high_db))
+
+
 def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
     """The depth pot position that puts the notch at ``depth_db`` below the passband.
 
@@ -337,7 +394,7 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
     if dry * full > 0.0:
         raise BadValueError(
             f"depth {depth_db!r} dB is outside what this depth pot reaches; "
-            f"allowed [{full + target:.2f}, {dry + target:.2f}] dB")
+            f"allowed [{full + target:.2f}, {_dry_end_db(network, ohms):.2f}] dB")
     # imported here, not at the top: rendering never solves a pot position
     from scipy import optimize
 

@@ -22,6 +22,8 @@ from __future__ import annotations
 from emulate.analog.networks import TwinT
 from emulate.dsp.processor import NotchProcessor
 from emulate.analog.response import measure
+from emulate.analog.stability import check_stability
+from emulate.errors import CircuitError
 
 
 DESIGN_TOLERANCE_DB = 0.05  # half the 0.1 dB fidelity target: margin for the worst grid cases
@@ -31,13 +33,24 @@ def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
                   smoothing_ms: float = 20.0) -> NotchProcessor:
     """A :class:`NotchProcessor` that emulates ``network`` (not yet prepared).
 
+    The notch is the measured one (None where no notch lies in 1 Hz - 200 kHz).
+
+    Raises
+    ------
+    CircuitError
+        If the network is unstable (it oscillates; the message names the frequency).
+
     Example
     -------
     >>> proc = processor_for(TwinT.balanced(6000.0, r_ohms=10e3))
-    >>> proc.prepare(48000, 2); proc.latency_samples
-    0
+    >>> proc.prepare(48000, 2); proc.design.meets_target
+    True
     """
-    notch_hz = measure(network.response).notch_hz
+    metrics = measure(network.response)
+    notch_hz = metrics.notch_hz if metrics.in_range else None
+    stability = check_stability(network)
+    if not stability.stable:
+        raise CircuitError(f"the network is {stability.describe()}; there is no steady response to emulate")
     z, p, k = network.zpk()
     return NotchProcessor(z, p, k, notch_hz=notch_hz, mix=1.0,
                           tolerance_db=tolerance_db, smoothing_ms=smoothing_ms)

@@ -6,7 +6,7 @@ Per block, top to bottom:
 2. wet        cascaded sections of the current design (:func:`emulate.dsp.kernels.sos_filter`).
 3. crossfade  after :meth:`NotchProcessor.set_circuit`, the old design keeps running and
               its output fades linearly into the new one's over the smoothing time.
-4. dry        the input, delayed by the design latency (0 for every current design).
+4. dry        the input, delayed by the design latency (0, or 1-4 samples where the phase all-pass is used).
 5. mix        H_mix = (1 - m) + m H, m ramped linearly to its target over the
               smoothing time (no zipper noise, no clicks).
 
@@ -58,7 +58,8 @@ class NotchProcessor:
     k : float
         Analog gain.
     notch_hz : float
-        Analog notch frequency in Hz (below Nyquist at the prepared rate).
+        Analog notch frequency in Hz (at or above Nyquist: the part below it is emulated;
+        None for a network with no notch).
     mix : float, optional
         Wet/dry mix, 0 (dry) to 1 (full notch).
     smoothing_ms : float, optional
@@ -121,8 +122,8 @@ class NotchProcessor:
         -------
         >>> w0 = 2 * np.pi * 1000.0
         >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000)
-        >>> proc.prepare(44100, 1); proc.latency_samples
-        0
+        >>> proc.prepare(44100, 1); proc.latency_samples <= 4  # the phase all-pass order, if any
+        True
         """
         self._fs = check_sample_rate_hz(sample_rate)
         self._channels = check_count("channels", channels, 1)

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from emulate.analog import parts
+from emulate.analog.stability import margin_warning
 from emulate.errors import BadValueError
 from emulate import files
 from emulate.files import atomic_path
@@ -113,7 +114,7 @@ def parts_rows(network: TwinT, tolerances, design=None, trim=None) -> list[list[
                   if design is None else {"r3": design.r3_build, "c3": design.c3_build})
     rows = []
     for name, value in network.parts().items():
-        written = shunt_text.get(name) or parts.format_value(value, part_kind(name))
+        written = shunt_text.get(name) or parts.format_value(value, part_kind(name), 6)  # the built value, exact
         if name == "r3" and trim is not None:
             rows.append(["R3a (fixed)", parts.format_value(trim.fixed_ohms, "resistance"),
                          preferred_series(trim.fixed_ohms), parts.format_tolerance(fractions[name]),
@@ -172,6 +173,8 @@ def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, t
                                  "exact null" if depth > 150 else f"{depth:.1f} dB", q,
                                  f"{_signed(metrics.passband_low_db)} / {_signed(metrics.passband_high_db)} dB"]])),
                Block("image", (PICTURES["response"], "analog and digital response"))]
+    if network.is_active:
+        blocks.append(Block("p", margin_warning(network)))
     if tolerance_result is not None:
         blocks += _tolerance_blocks(tolerance_result)
     if trim is not None:

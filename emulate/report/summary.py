@@ -51,9 +51,12 @@ def network_line(network) -> str:
     mix = "" if network.mix == 1.0 else (
         f", depth pot {format_value(network.depth_pot_ohms, 'resistance')} at {network.mix:.2f}"
         if network.depth_pot_ohms else f", wet/dry mix {network.mix:.2f}")
-    values = "  ".join(f"{name.upper()} {format_value(v, part_kind(name))}"
+    values = "  ".join(f"{name.upper()} {format_value(v, part_kind(name), 6)}"
                        for name, v in network.parts().items())
     return f"twin-T ({kind}), source {source}, load {load}{mix}\n  {values}"
+
+
+SEARCH_TEXT = "1 Hz - 200 kHz"  # the band response.measure searches by default
 
 
 def depth_text(metrics) -> str:
@@ -63,6 +66,10 @@ def depth_text(metrics) -> str:
 
 
 def metrics_lines(metrics) -> list[str]:
+    if not metrics.in_range:
+        return [f"  notch      no notch in range {SEARCH_TEXT} (the response is lowest at the edge, "
+                f"{metrics.notch_hz:.4g} Hz, {metrics.depth_db:.1f} dB)",
+                f"  passband   {_signed(metrics.passband_low_db)} dB low, {_signed(metrics.passband_high_db)} dB high"]
     width = ("not 3 dB deep: no -3 dB band" if math.isnan(metrics.q) else
              f"-3 dB from {metrics.lower_hz:.1f} Hz to {metrics.upper_hz:.1f} Hz, Q {metrics.q:.3f}")
     return [
@@ -83,7 +90,8 @@ def warning_lines(found) -> list[str]:
 
 
 def table_lines(network, notch_hz) -> list[str]:
-    f = np.array(sorted({*TABLE_HZ, notch_hz}))
+    """The response at the table frequencies and at ``notch_hz`` (None: no notch row)."""
+    f = np.array(sorted({*TABLE_HZ, *([] if notch_hz is None else [notch_hz])}))
     h = network.response(f)
     rows = ["  f (Hz)      gain (dB)   phase (deg)"]
     for fi, hi in zip(f, h):
@@ -92,14 +100,22 @@ def table_lines(network, notch_hz) -> list[str]:
     return rows
 
 
-def response_text(network, metrics, found) -> str:
+def response_text(network, metrics, found, stability=None) -> str:
+    """The response report; an unstable network gets its oscillation instead of a response."""
+    if stability is not None and not stability.stable:
+        return "\n".join([network_line(network), f"  {stability.describe()}: it has no steady response; "
+                          "lower the bootstrap K or balance the parts", "warnings", *warning_lines(found)])
     lines = [network_line(network), *metrics_lines(metrics), "warnings", *warning_lines(found),
-             *table_lines(network, metrics.notch_hz)]
+             *table_lines(network, metrics.notch_hz if metrics.in_range else None)]
     return "\n".join(lines)
 
 
-def metrics_payload(network, metrics, found) -> dict:
+def metrics_payload(network, metrics, found, stability=None) -> dict:
     payload = metrics.as_dict()  # non-finite numbers become null where JSON is written
+    if not metrics.in_range:
+        payload["notch"] = f"no notch in range {SEARCH_TEXT}"
+    if stability is not None:
+        payload["stable"], payload["oscillation_hz"] = stability.stable, stability.oscillation_hz
     payload["warnings"] = [str(item) for item in found]
     payload["active"] = network.is_active
     payload["bootstrap"] = network.bootstrap
@@ -141,6 +157,28 @@ def design_text(design, found) -> str:
     return "\n".join(lines)
 
 
+def unmeasured_lines(d) -> list[str]:
+    """Tolerance run: the oscillating builds and the builds with no notch in range, if any (from ``as_dict``)."""
+    lines = []
+    if d.get("oscillating_share"):
+        low, high = d["oscillation_hz_range"]
+        lines.append(f"  ! {d['oscillating_share']:.2%} of builds oscillate ({low:.4g}-{high:.4g} Hz): "
+                     "counted as failures; lower the bootstrap K")
+    if d.get("no_notch_share"):
+        lines.append(f"  ! {d['no_notch_share']:.2%} of builds have no notch in the search band: counted as "
+                     "failures and left out of the percentiles")
+    return lines
+
+
+def corner_line(corner) -> str:
+    """Tolerance run: the worst of the 64 corners (from ``Corners.as_dict``)."""
+    if corner.get("oscillating_corners"):
+        return (f"  worst corner oscillates at {corner['worst_oscillation_hz']:.4g} Hz "
+                f"({corner['oscillating_corners']} of 64 corners oscillate)")
+    return (f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
+            f"{corner['notch_high_hz']:.1f} Hz over 64 corners")
+
+
 def render_text(report, processor) -> str:
     """What a render wrote, with the clip count and the emulation's fidelity."""
     clip = (f"{report.clipped_samples} samples clipped" if report.clipped_samples
@@ -149,26 +187,46 @@ def render_text(report, processor) -> str:
         clip = f"{report.over_full_scale_samples} samples over 0 dBFS (float, kept unclipped)"
     peak = "silence" if report.peak_dbfs == float("-inf") else f"{report.peak_dbfs:.2f} dBFS"
     dither = ", TPDF dither" if report.dithered else ""
+    design = processor.design
     return "\n".join([
         f"wrote {report.out_path}: {report.frames} frames, {report.samplerate} Hz, "
         f"{report.channels} ch, {report.format} {report.subtype}{dither}",
         f"  peak {peak}; {clip}",
-        f"  emulation: {processor.design.method}, within {processor.fidelity_db:.3f} dB of the "
-        f"analog model over {processor.design.band_hz[0]:.0f}-{processor.design.band_hz[1]:.0f} Hz",
+        f"  emulation: {design.method}, within {processor.fidelity_db:.3f} dB of the "
+        f"analog model over {design.band_hz[0]:.0f}-{design.band_hz[1]:.0f} Hz, "
+        f"phase within {design.phase_error_deg:.1f} degrees up to {design.phase_band_hz[1]:.0f} Hz",
+        *shortfall_lines(design),
         f"  took {report.elapsed_s:.2f} s",
     ])
 
 
+def shortfall_lines(digital) -> list[str]:
+    """The warning line of a design that misses the fidelity target (none if it meets it)."""
+    missed = digital.shortfall()
+    return [f"warning: {missed}"] if missed else []
+
+
+def fidelity_payload(digital) -> dict:
+    """The fidelity figures of a design, for JSON (``fidelity_met`` false where a warning was shown)."""
+    return {"fidelity_db": digital.fidelity_db, "phase_error_deg": digital.phase_error_deg,
+            "phase_band_hz": list(digital.phase_band_hz), "fidelity_met": digital.meets_target,
+            "fidelity_warning": digital.shortfall()}
+
+
 def digital_payload(digital) -> dict:
     return {"fs": digital.fs, "method": digital.method, "sections": len(digital.sos),
-            "fidelity_db": digital.fidelity_db, "band_hz": list(digital.band_hz),
-            "notch_hz": digital.notch_hz, "latency_samples": digital.latency_samples}
+            "band_hz": list(digital.band_hz), "notch_hz": digital.notch_hz,
+            "latency_samples": digital.latency_samples} | fidelity_payload(digital)
 
 
 def digital_text(digital) -> str:
-    return (f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
-            f"within {digital.fidelity_db:.3f} dB of the analog model over "
-            f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz; digital notch {digital.notch_hz:.2f} Hz")
+    notch = ("notch at or above Nyquist: the part below it is emulated" if digital.notch_hz != digital.notch_hz
+             else f"digital notch {digital.notch_hz:.2f} Hz")
+    return "\n".join([
+        f"digital emulation at {digital.fs:g} Hz: {digital.method}, {len(digital.sos)} biquads, "
+        f"within {digital.fidelity_db:.3f} dB of the analog model over "
+        f"{digital.band_hz[0]:.0f}-{digital.band_hz[1]:.0f} Hz, phase within {digital.phase_error_deg:.1f} "
+        f"degrees up to {digital.phase_band_hz[1]:.0f} Hz; {notch}", *shortfall_lines(digital)])
 
 
 # --- speakers ------------------------------------------------------------------
