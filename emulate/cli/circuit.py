@@ -43,11 +43,13 @@ def response(rate, plot_path, as_json, **options):
 @click.option("--capacitor", help="design around this C1 = C2, farads (e.g. 10n)")
 @click.option("--source", help="source resistance driving the network, ohms; default 0")
 @click.option("--load", help="load resistance on the output, ohms; default none")
+@click.option("--parts-per-position", type=click.IntRange(1, 2), default=1, show_default=True,
+              help="1: one part a position (R3/C3 may be two equal parts); 2: any two parts in series or parallel")
 @json_option
-def design(notch, q, series, cap_series, impedance, capacitor, source, load, as_json):
-    """Design a balanced twin-T for a target notch and snap it to preferred values."""
+def design(notch, q, series, cap_series, impedance, capacitor, source, load, parts_per_position, as_json):
+    """Design a balanced twin-T for a target notch and build it from preferred values."""
     target = {"notch": notch, "q": q, "series": series, "cap_series": cap_series,
-              "impedance": impedance, "capacitor": capacitor}
+              "impedance": impedance, "capacitor": capacitor, "parts_per_position": parts_per_position}
     surroundings = spec.network_surroundings({"source": source, "load": load})
     result = spec.design_from_table(target, where="", **surroundings)
     found = check_twin_t(result.built, result.built_metrics)

@@ -9,6 +9,7 @@ import math
 
 import numpy as np
 
+from emulate.analog.design import HUM_MIN_CUT_DB
 from emulate.analog.networks import part_kind
 from emulate.analog.parts import format_value
 from emulate.analog.response import db
@@ -87,7 +88,11 @@ def design_payload(design, found) -> dict:
         target_hz=design.target_hz, target_q=design.target_q, series=design.series,
         cap_series=design.cap_series, parts=design.parts_as_written(),
         r3_build=design.r3_build, c3_build=design.c3_build,
-        notch_error_percent=100 * design.notch_error,
+        notch_error_percent=100 * design.notch_error, target_cut_db=design.target_cut_db,
+        parts_per_position=design.parts_per_position, part_count=design.part_count,
+        impedance_range_ohms=list(design.impedance_ohms),
+        hum_target=design.is_hum, meets_hum_cut=design.meets_hum_cut,
+        fix=None if design.fix is None else design.fix.lines(),
         ideal={"parts": {k.upper(): v for k, v in design.ideal.parts().items()},
                "notch_hz": design.ideal_metrics.notch_hz, "q": design.ideal_metrics.q})
     return payload
@@ -95,13 +100,13 @@ def design_payload(design, found) -> dict:
 
 def design_text(design, found) -> str:
     built, ideal = design.built_metrics, design.ideal_metrics
-    q = "passive (Q 0.25)" if design.target_q is None else f"Q {design.target_q:g}"
+    q = "passive (Q 0.25)" if design.built.bootstrap is None else f"Q {design.target_q:g}"
     lines = [f"design for a {design.target_hz:.1f} Hz notch, {q}, resistors {design.series}, "
              f"capacitors {design.cap_series}",
              "  part   ideal        as built"]
     written = design.parts_as_written()
     for name, value in design.ideal.parts().items():
-        build = {"r3": design.r3_build, "c3": design.c3_build}.get(name, written[name.upper()])
+        build = written[name.upper()]
         lines.append(f"  {name.upper():<5}  {format_value(value, part_kind(name), 4):<12} {build}")
     if design.divider is not None:
         top, bottom = (format_value(v, "resistance") for v in design.divider)
@@ -109,10 +114,23 @@ def design_text(design, found) -> str:
         lines.append(f"  bootstrap divider: {top} over {bottom} from the output buffer, K = {k:.4f} "
                      f"(ideal {1 - 1 / (4 * design.target_q):.4f})")
     lines += ["as built", *metrics_lines(built),
-              f"  error      notch {100 * design.notch_error:+.2f} % from target "
+              f"  error      notch {100 * design.notch_error:+.3f} % from target "
               f"(ideal parts: {ideal.notch_hz:.2f} Hz, Q {ideal.q:.3f})",
+              f"  at target  {design.target_cut_db:.1f} dB of cut at {design.target_hz:.2f} Hz "
+              f"(nominal parts, {design.part_count} parts in the network)",
+              *_hum_lines(design),
               "warnings", *warning_lines(found)]
     return "\n".join(lines)
+
+
+def _hum_lines(design) -> list[str]:
+    if not design.is_hum:
+        return []
+    if design.meets_hum_cut:
+        return [f"  hum        cut at the hum frequency is at least {HUM_MIN_CUT_DB:g} dB: met"]
+    return [f"  ! hum      only {design.target_cut_db:.1f} dB of cut at {design.target_hz:g} Hz (a hum notch "
+            f"needs {HUM_MIN_CUT_DB:g} dB): no combination of {design.parts_per_position} part(s) a position reaches it",
+            "    nearest fix:", *(f"      {line}" for line in design.fix.lines())]
 
 
 def render_text(report, processor) -> str:
