@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from emulate.analog import parts
+from emulate.errors import BadValueError
 from emulate.analog.makeup import PARALLEL, SERIES, Makeup, combine, value_table
 
 
@@ -52,5 +53,5 @@ class TestValueTable:
         assert (below, above) == (4700.0, 6800.0)
 
     def test_bad_pairs(self):
-        with pytest.raises(ValueError, match="pairs 'some'"):
+        with pytest.raises(BadValueError, match="pairs 'some'"):
             value_table("E6", 1e3, 10e3, "resistance", pairs="some")

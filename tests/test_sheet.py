@@ -6,6 +6,7 @@ import pytest
 
 from emulate.report import sheet
 from emulate.analog import tolerance
+from emulate.analog import trim as trim_module
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.networks import TwinT
@@ -18,7 +19,7 @@ NET = TwinT.balanced(6000.0, r_ohms=10e3)
 def full_sheet(tmp_path_factory):
     design = design_twin_t(6300.0)
     result = tolerance.monte_carlo(design.built, TOL, draws=500, seed=3)
-    trim = tolerance.suggest_trim(result)
+    trim = trim_module.suggest_trim(result)
     out = tmp_path_factory.mktemp("sheets") / "build"
     return sheet.write_sheet(out, design.built, tolerances=TOL, design=design, tolerance_result=result, trim=trim)
 

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.analog import parts
+from emulate.errors import BadValueError
 from emulate.validate import check_range
 
 SINGLE, SERIES, PARALLEL = 0, 1, 2
@@ -135,7 +136,7 @@ def value_table(series: str, lo: float, hi: float, kind: str, *, pairs: str = "n
     """
     check_range("range low end", lo, 0.0, hi, low_open=True)
     if pairs not in ("none", "equal", "any"):
-        raise ValueError(f"pairs {pairs!r}: allowed none, equal, any")
+        raise BadValueError(f"pairs {pairs!r}: allowed none, equal, any")
     singles = np.array(parts.series_values(series, lo, hi))
     rows = [(singles, singles, np.full(len(singles), SINGLE))]
     if pairs != "none":

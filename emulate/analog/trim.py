@@ -122,6 +122,8 @@ def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, 
 
     Example
     -------
+    >>> from emulate.analog.networks import TwinT
+    >>> from emulate.analog.tolerance import Tolerances, monte_carlo
     >>> r = monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), Tolerances(0.01, 0.05), draws=500)
     >>> suggest_trim(r).share >= 0.95
     True

@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+import contextlib
+import sys
+
 import click
 
 from emulate.report import plots, sheet
-from emulate.analog import spec, tolerance
+from emulate.analog import spec, tolerance, trim as trims
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
 
 
@@ -14,6 +17,8 @@ def tolerance_options(command):
     options = [
         click.option("--r-tol", default="1%", show_default=True, help="resistor tolerance (1%, F, 0.01)"),
         click.option("--c-tol", default="5%", show_default=True, help="capacitor tolerance (5%, J, 0.05)"),
+        click.option("--tol", "per_part", multiple=True, metavar="PART=TOL",
+                     help="one part's tolerance, e.g. R3=0.1%; repeat for more (R4/R5: the bootstrap divider)"),
         click.option("--distribution", type=click.Choice(tolerance.DISTRIBUTIONS), default="uniform",
                      show_default=True, help="uniform within tolerance, or normal with the tolerance as 3 sigma"),
         click.option("--draws", type=int, default=tolerance.DEFAULT_DRAWS, show_default=True,
@@ -21,7 +26,7 @@ def tolerance_options(command):
         click.option("--seed", type=int, default=0, show_default=True, help="seed; build i of a seed never changes"),
         click.option("--spec-db", type=float, default=tolerance.DEFAULT_SPEC_DB, show_default=True,
                      help="depth spec below the passband, dB, for the yield"),
-        click.option("--trim-share", type=float, default=tolerance.DEFAULT_TRIM_SHARE, show_default=True,
+        click.option("--trim-share", type=float, default=trims.DEFAULT_TRIM_SHARE, show_default=True,
                      help="share of builds the R3 trimmer must reach, 0.5-1"),
     ]
     for option in reversed(options):
@@ -31,10 +36,25 @@ def tolerance_options(command):
 
 def _analyse(network, options):
     """Tolerances of the network at full notch: the parts set the null, the mix only scales it."""
-    tolerances = tolerance.Tolerances.parse(options["r_tol"], options["c_tol"], options["distribution"])
-    result = tolerance.monte_carlo(network.wet(), tolerances, draws=options["draws"], seed=options["seed"],
-                                   spec_db=options["spec_db"])
-    return tolerances, result, tolerance.suggest_trim(result, share=options["trim_share"])
+    tolerances = tolerance.Tolerances.parse(options["r_tol"], options["c_tol"], options["distribution"],
+                                            options["per_part"])
+    with _progress(options["draws"]) as update:
+        result = tolerance.monte_carlo(network.wet(), tolerances, draws=options["draws"], seed=options["seed"],
+                                       spec_db=options["spec_db"], progress=update)
+    return tolerances, result, trims.suggest_trim(result, share=options["trim_share"])
+
+
+PROGRESS_FROM_DRAWS = 100_000  # shorter runs take well under a second
+
+
+@contextlib.contextmanager
+def _progress(draws):
+    """A progress bar on stderr for long runs; a no-op update otherwise."""
+    if not isinstance(draws, int) or draws < PROGRESS_FROM_DRAWS:
+        yield None
+        return
+    with click.progressbar(length=draws, label="builds", file=sys.stderr) as bar:
+        yield bar.update
 
 
 def _text(result, trim) -> str:
@@ -46,7 +66,7 @@ def _text(result, trim) -> str:
         f"  depth   {d['depth_db_p5']:.1f} / {d['depth_db_p50']:.1f} / {d['depth_db_p95']:.1f} dB below passband",
         f"  yield   {result.yield_fraction:.1%} at {result.spec_db:g} dB; typical build {result.typical_index}",
         f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
-        f"{corner['notch_high_hz']:.1f} Hz over 64 corners",
+        f"{corner['notch_high_hz']:.1f} Hz over {corner['corners']} corners",
         f"  matters most: {', '.join(s.part for s in result.sensitivity()[:3])} (depth)",
         f"  trim    {trim.describe()}",
     ])
