@@ -24,7 +24,8 @@ SINGLE, SERIES, PARALLEL = 0, 1, 2
 WIRING = {SINGLE: "single", SERIES: "series", PARALLEL: "parallel"}
 _PAIR_REACH = 10.0  # two-part sums and parallels use parts up to a decade beyond the range
 
-__all__ = ["Makeup", "ValueTable", "value_table", "combine", "SINGLE", "SERIES", "PARALLEL", "WIRING"]
+__all__ = ["Makeup", "ValueTable", "value_table", "combine", "coarsest_series", "buyable", "STOCKED_SERIES",
+           "SINGLE", "SERIES", "PARALLEL", "WIRING"]
 
 
 def combine(a, b, wiring: int, kind: str):
@@ -158,3 +159,40 @@ def value_table(series: str, lo: float, hi: float, kind: str, *, pairs: str = "n
     value, a, b, wiring = value[keep][order], a[keep][order], b[keep][order], wiring[keep][order]
     count = np.where(wiring == SINGLE, 1, 2)
     return ValueTable(value, a, b, wiring, count, kind)
+
+
+STOCKED_SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")  # E3 is rarely stocked (common practice)
+
+
+def coarsest_series(value: float) -> str | None:
+    """The coarsest stocked IEC 60063 series holding ``value`` (E6 .. E192), or None.
+
+    Example
+    -------
+    >>> coarsest_series(4700.0), coarsest_series(9100.0), coarsest_series(1234.0)
+    ('E6', 'E24', None)
+    """
+    for series in STOCKED_SERIES:
+        if any(abs(v / value - 1) < 1e-6 for v in parts.series_values(series, value * 0.99, value * 1.01)):
+            return series
+    return None
+
+
+def buyable(value: float, kind: str) -> Makeup:
+    """How to buy a value: one preferred part; else two equal preferred parts in parallel or
+    series (the usual way to make R/2 and 2C); else the one part, not a preferred value.
+
+    Example
+    -------
+    >>> buyable(5000.0, "resistance").text(), buyable(4.4e-9, "capacitance").text()
+    ('2 x 10k in parallel', '2 x 2n2 in parallel')
+    """
+    if coarsest_series(value) is not None:
+        return Makeup.single(value, kind)
+    halves = (2 * value, "parallel"), (value / 2, "series")
+    if kind == "capacitance":
+        halves = (value / 2, "parallel"), (2 * value, "series")
+    for part, wiring in halves:
+        if coarsest_series(part) is not None:
+            return Makeup.pair(part, part, wiring, kind)
+    return Makeup.single(value, kind)

@@ -22,6 +22,7 @@ import numpy as np
 from emulate.errors import EmulateWarning
 
 AUDIO_BAND_HZ = (20.0, 20000.0)
+EXACT_NULL_DB = 200.0  # a notch deeper than this below the passband is an exact null in float64 (the one threshold)
 _GOLDEN = (math.sqrt(5) - 1) / 2
 _EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
 _PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
@@ -55,6 +56,17 @@ class NotchMetrics:
 
     def as_dict(self) -> dict[str, float]:
         return {name: float(getattr(self, name)) for name in self.__dataclass_fields__}
+
+
+def is_exact_null(depth_below_passband_db) -> bool:
+    """True where the notch is deeper than ``EXACT_NULL_DB`` below the passband (text, sheet, plots).
+
+    Example
+    -------
+    >>> is_exact_null(250.0), is_exact_null(80.0)
+    (True, False)
+    """
+    return bool(depth_below_passband_db >= EXACT_NULL_DB)
 
 
 def db(magnitude):

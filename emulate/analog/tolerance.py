@@ -49,7 +49,7 @@ from scipy import special, stats
 from emulate.analog import parts
 from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT
-from emulate.analog.response import measure_batch
+from emulate.analog.response import EXACT_NULL_DB, measure_batch
 from emulate.validate import check_range
 
 __all__ = ["Tolerances", "ToleranceResult", "Corners", "PartSensitivity", "BatchMetrics", "monte_carlo",
@@ -59,7 +59,7 @@ __all__ = ["Tolerances", "ToleranceResult", "Corners", "PartSensitivity", "Batch
 DISTRIBUTIONS = ("uniform", "normal")
 DEFAULT_DRAWS = 10_000
 DEFAULT_SPEC_DB = 30.0
-DEPTH_CAP_DB = 200.0  # deeper than this below the passband is an exact null in float64
+DEPTH_CAP_DB = EXACT_NULL_DB  # deeper than this below the passband is an exact null in float64
 PERCENTILES = (5.0, 50.0, 95.0)
 NORMAL_SIGMAS = 3.0  # the tolerance is 3 sigma for "normal"
 _NORMAL_CUT = 5.9  # sigmas: keeps 1 - 0.5 * 5.9 / 3 > 0 at the 50 % tolerance limit

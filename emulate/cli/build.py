@@ -75,14 +75,16 @@ def _text(result, trim) -> str:
 @main.command(name="tolerance")
 @circuit_options
 @tolerance_options
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (.png or .svg)")
 @json_option
 def tolerance_command(plot_path, as_json, **options):
     """Monte Carlo builds and worst-case corners of a circuit, with an R3 trim."""
     network = network_from_options(options)
+    if plot_path:
+        plots.check_picture_path(plot_path)
     _, result, trim = _analyse(network, options)
     if plot_path:
-        plots.plot_tolerance(result, plot_path)
+        plots.plot_tolerance(result, plot_path, label=options.get("preset") or options.get("circuit_file"))
     emit(as_json, result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim))
 
 
@@ -92,22 +94,44 @@ def tolerance_command(plot_path, as_json, **options):
 @click.option("--notch", help="design target instead of parts: notch frequency, Hz (e.g. 6.3k)")
 @click.option("--q", type=float, help="design target Q, 0.25-20 (active network); default passive")
 @click.option("--series", help="resistor series for the design, IEC 60063; default E24")
+@click.option("--parts-per-position", type=click.IntRange(1, 2), default=1, show_default=True,
+              help="design: 1 part a position (R3/C3 may be two equal parts) or any 2 parts")
 @tolerance_options
 @click.option("--title", default=sheet.DEFAULT_TITLE, show_default=True, help="heading of the sheet")
 @click.option("--force", is_flag=True, help="replace a non-empty --out folder")
 @json_option
-def sheet_command(out_dir, notch, q, series, title, force, as_json, **options):
-    """Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions."""
+def sheet_command(out_dir, notch, q, series, parts_per_position, title, force, as_json, **options):
+    """Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions."""
     design = None
     if notch is not None:
         surroundings = spec.network_surroundings({"source": options.get("source"), "load": options.get("load")})
-        design = spec.design_from_table({"notch": notch, "q": q, "series": series}, where="", **surroundings)
+        design = spec.design_from_table({"notch": notch, "q": q, "series": series,
+                                         "parts_per_position": parts_per_position}, where="", **surroundings)
         network = design.built
     else:
         network = network_from_options(options)
     tolerances, result, trim = _analyse(network, options)
+    block = _title_block(options, notch)
     path = sheet.write_sheet(out_dir, network, tolerances=tolerances, design=design, tolerance_result=result,
-                             trim=trim, title=title, force=force)
-    payload = {"out": str(path), "files": sorted(p.name for p in path.iterdir())} | result.as_dict()
-    emit(as_json, payload, f"wrote {path}/sheet.md and sheet.html\n{_text(result, trim)}\n"
-                           f"cautions: {sheet.CAUTION_LINE}")
+                             trim=trim, title=title, force=force, title_block=block)
+    header = sheet.PARTS_HEADER
+    payload = ({"out": str(path), "files": sorted(p.name for p in path.iterdir()), "title_block": block,
+                "parts": [dict(zip(header, row)) for row in sheet.parts_rows(network, tolerances, design)],
+                "assumed": dict(sheet.assumed_rows(network)), "trim": trim.as_dict()}
+               | result.as_dict())
+    emit(as_json, payload, f"wrote {path}/sheet.md, sheet.html, schematic.svg/.png and circuit.cir\n"
+                           f"{_text(result, trim)}\ncautions: {sheet.CAUTION_LINE}")
+
+
+def _title_block(options, notch) -> dict:
+    """The circuit's name and speaker for the sheet's title block."""
+    if options.get("preset"):
+        from emulate.cli.options import store_from
+
+        preset = store_from(options).load(options["preset"])
+        return {"circuit": f"preset {preset.name}", "speaker": preset.speaker}
+    if options.get("circuit_file"):
+        return {"circuit": f"circuit file {options['circuit_file']}"}
+    if notch is not None:
+        return {"circuit": f"designed for {notch} Hz"}
+    return {}

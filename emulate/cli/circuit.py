@@ -14,7 +14,7 @@ from emulate.analog.response import check_twin_t, measure
 @main.command()
 @circuit_options
 @click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (.png or .svg)")
 @json_option
 def response(rate, plot_path, as_json, **options):
     """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
@@ -30,7 +30,8 @@ def response(rate, plot_path, as_json, **options):
     if plot_path:
         from emulate.report import plots
 
-        text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0)}"
+        label = options.get("preset") or options.get("circuit_file")
+        text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0, label=label)}"
     emit(as_json, payload, text)
 
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import click
 
 from emulate.audio import stream as audio
@@ -24,13 +26,17 @@ from emulate.cli.options import circuit_options, emit, json_option, main, networ
 @click.option("--distribution", type=click.Choice(["uniform", "normal"]), default="uniform",
               show_default=True, help="with --build: how parts spread within tolerance")
 @click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (.png or .svg)")
 @json_option
 @run_quietly
 def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path, as_json,
            **options):
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...)."""
     network = network_from_options(options)
+    if plot_path:
+        from emulate.report import plots
+
+        plots.check_picture_path(plot_path)  # refuse a bad picture name before rendering
     if build is not None:
         from emulate.analog import tolerance
 
@@ -52,5 +58,8 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
         from emulate.analog.response import measure
 
         (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
-        text += f"\n  wrote {plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz)}"
+        label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
+        drawn = plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz,
+                                         label=label)
+        text += f"\n  wrote {drawn}"
     emit(as_json, payload, text)

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 
+from pathlib import Path
+
 import click
 
 from emulate.audio import stream as audio
@@ -23,7 +25,7 @@ takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=T
 @takes_argument
 @click.option("--band", nargs=2, type=float, metavar="LO HI",
               help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (.png or .svg)")
 @json_option
 def sibilance(takes, band, plot_path, as_json):
     """Find where one speaker's sibilance sits, over one or more takes."""
@@ -41,7 +43,8 @@ def sibilance(takes, band, plot_path, as_json):
         x, fs = audio.read_all(takes[0])
         notch = combined.suggested_notch_hz if combined.usable else None
         band = combined.band_hz if combined.usable else None
-        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band)}"
+        label = f"{Path(takes[0]).name}, dry (suggested notch marked)"
+        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band, label=label)}"
     emit(as_json, payload, text)
 
 
@@ -74,7 +77,7 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @presets_option
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
-              help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
+              help="draw the summary: reduction, loudness and speech cost against the notch (.png or .svg)")
 @json_option
 @run_quietly
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,

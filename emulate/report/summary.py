@@ -12,11 +12,11 @@ import numpy as np
 from emulate.analog.design import HUM_MIN_CUT_DB
 from emulate.analog.networks import part_kind
 from emulate.analog.parts import format_value
-from emulate.analog.response import db
+from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null
 
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
-IDEAL_NULL_DB = -200.0  # deeper than this is an exact null in floating point
+IDEAL_NULL_DB = -EXACT_NULL_DB  # table floor: deeper is an exact null
 
 
 def network_line(network) -> str:
@@ -32,8 +32,8 @@ def network_line(network) -> str:
 
 
 def depth_text(metrics) -> str:
-    if metrics.depth_db < IDEAL_NULL_DB:
-        return f"below {IDEAL_NULL_DB:.0f} dB (an exact null)"
+    if is_exact_null(metrics.depth_below_passband_db):
+        return f"more than {EXACT_NULL_DB:.0f} dB below the passband (an exact null)"
     return f"{metrics.depth_db:.1f} dB ({metrics.depth_below_passband_db:.1f} dB below the passband)"
 
 
