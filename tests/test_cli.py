@@ -175,3 +175,26 @@ class TestFileSystemRefusals:
         take = TestRender().write_take(tmp_path / "take.wav")
         result = run("render", take, tmp_path / "o.wav", *BALANCED, "--build", "9" * 20)
         assert_one_line_error(result, "draw number")
+
+
+class TestResponseJsonTable:
+    def test_holds_the_table_and_the_parts(self):
+        import json
+
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["response", "--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n",
+                                           "--c2", "10n", "--c3", "20n", "--json"])
+        payload = json.loads(result.output)
+        assert payload["parts"]["R3"] == "5k" and payload["parts"]["C3"] == "20n"
+        assert len(payload["table"]) == 13 and sum(row["notch"] for row in payload["table"]) == 1
+        assert payload["exact_null"] is True
+
+    def test_unknown_plot_suffix_is_one_line(self, tmp_path):
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["response", "--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n",
+                                           "--c2", "10n", "--c3", "20n", "--plot", str(tmp_path / "r.jpg")])
+        assert result.exit_code != 0 and ".png or .svg" in result.output and "Traceback" not in result.output

@@ -158,6 +158,8 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
       (a deeper nominal notch is more than 1 % parts hold anyway, MT-225):
       states the nearest balanced set;
     * a passive network driving a load under 10 x (R1 + R2);
+    * an active network given a load: its output follower drives the load, so
+      the load does not change the response (said, so it is not silently ignored);
     * a source resistance over 5 % of R3: it does not move the null (the null is
       between the network's input node and its output) but reshapes Q and the
       passband;
@@ -174,6 +176,10 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
             f"load {_ohms(network.load_ohms)} is heavy for a network of R1+R2 = {_ohms(series)}: "
             f"passband {metrics.passband_low_db:.1f} dB low / {metrics.passband_high_db:.1f} dB high; "
             f"buffer the output or keep the load above {_ohms(LOAD_FACTOR * series)}"))
+    if network.is_active and np.all(np.isfinite(network.load_ohms)):
+        found.append(EmulateWarning(
+            f"load {_ohms(network.load_ohms)} is driven by the active network's output follower: it does not "
+            "change the response here (an ideal follower; the op-amp's own output limits are not modelled)"))
     if network.source_ohms > SOURCE_FACTOR * network.r3:
         found.append(EmulateWarning(
             f"source {_ohms(network.source_ohms)} is over {SOURCE_FACTOR:.0%} of R3 = {_ohms(network.r3)}: "

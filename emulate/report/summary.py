@@ -84,12 +84,10 @@ def warning_lines(found) -> list[str]:
 
 
 def table_lines(network, notch_hz) -> list[str]:
-    f = np.array(sorted({*TABLE_HZ, notch_hz}))
-    h = network.response(f)
     rows = ["  f (Hz)      gain (dB)   phase (deg)"]
-    for fi, hi in zip(f, h):
-        mark = "  <- notch" if fi == notch_hz else ""
-        rows.append(f"  {fi:>9.1f}   {max(db(hi), IDEAL_NULL_DB):>9.2f}   {np.degrees(np.angle(hi)):>9.1f}{mark}")
+    for row in table_rows(network, notch_hz):
+        mark = "  <- notch" if row["notch"] else ""
+        rows.append(f"  {row['f_hz']:>9.1f}   {row['gain_db']:>9.2f}   {row['phase_deg']:>9.1f}{mark}")
     return rows
 
 
@@ -105,7 +103,21 @@ def metrics_payload(network, metrics, found) -> dict:
     payload["active"] = network.is_active
     payload["bootstrap"] = network.bootstrap
     payload["mix"] = network.mix
+    payload["parts"] = {name.upper(): format_value(v, part_kind(name), 4) for name, v in network.parts().items()}
+    payload["source_ohms"] = float(network.source_ohms)
+    payload["load_ohms"] = float(network.load_ohms)  # inf (no load) becomes null
+    payload["depth_pot_ohms"] = network.depth_pot_ohms
+    payload["exact_null"] = is_exact_null(metrics.depth_below_passband_db)
+    payload["table"] = table_rows(network, metrics.notch_hz)
     return payload
+
+
+def table_rows(network, notch_hz) -> list[dict]:
+    """The response at the ISO 266 octave centres and the notch: Hz, gain dB (floored), phase degrees."""
+    f = np.array(sorted({*TABLE_HZ, notch_hz}))
+    h = network.response(f)
+    return [{"f_hz": float(fi), "gain_db": float(max(db(hi), IDEAL_NULL_DB)),
+             "phase_deg": float(np.degrees(np.angle(hi))), "notch": bool(fi == notch_hz)} for fi, hi in zip(f, h)]
 
 
 def design_payload(design, found) -> dict:
