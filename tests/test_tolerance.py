@@ -171,7 +171,7 @@ class TestMonteCarlo:
         a = tol.monte_carlo(NOMINAL, ONE_PERCENT, draws=300, seed=5).as_dict()
         b = tol.monte_carlo(NOMINAL, ONE_PERCENT, draws=300, seed=5).as_dict()
         assert a == b
-        assert {"notch_hz_p50", "depth_db_p50", "yield", "worst_corner"} <= set(a)
+        assert {"notch_hz_p50", "depth_below_passband_db_p50", "yield", "worst_corner"} <= set(a)
 
     def test_yield_against_spec(self):
         loose = tol.monte_carlo(NOMINAL, tol.Tolerances(0.05, 0.1), draws=2000, seed=1, spec_db=45)
@@ -232,7 +232,7 @@ class TestToleranceCommand:
         result = self.run("--r-tol", "F", "--c-tol", "1%", "--draws", "500", "--json", "--plot", tmp_path / "t.png")
         assert result.exit_code == 0, result.output
         payload = json.loads(result.output)
-        assert {"notch_hz_p50", "depth_db_p50", "yield", "worst_corner", "trim"} <= set(payload)
+        assert {"notch_hz_p50", "depth_below_passband_db_p50", "yield", "worst_corner", "trim"} <= set(payload)
         assert payload["trim"]["part"] == "R3" and (tmp_path / "t.png").exists()
 
     @pytest.mark.parametrize("args, match", [(["--r-tol", "70%"], "tolerance"), (["--draws", "0"], "draws"),

@@ -328,7 +328,7 @@ class Corners:
 
     def as_dict(self) -> dict:
         worst = self.signs[self.worst_index]
-        return {"worst_depth_db": self.worst_depth_db,
+        return {"worst_depth_below_passband_db": self.worst_depth_db,
                 "corners": len(self.signs),
                 "worst_signs": {name.upper(): "+" if s > 0 else "-" for name, s in zip(self.names, worst)},
                 "notch_low_hz": self.notch_range_hz[0], "notch_high_hz": self.notch_range_hz[1]}
@@ -405,9 +405,9 @@ class ToleranceResult:
         return {
             "draws": self.draws, "seed": self.seed, "tolerances": self.tolerances.describe(),
             "distribution": self.tolerances.distribution,
-            "nominal_notch_hz": self.nominal_notch_hz, "nominal_depth_db": self.nominal_depth_db,
+            "nominal_notch_hz": self.nominal_notch_hz, "nominal_depth_below_passband_db": self.nominal_depth_db,
             **{f"notch_hz_{k}": v for k, v in self.percentiles(self.notch_hz).items()},
-            **{f"depth_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
+            **{f"depth_below_passband_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
             "spec_db": self.spec_db, "yield": self.yield_fraction,
             "typical_build": self.typical_index,
             "matters_most": ranking[0].part,

@@ -82,7 +82,7 @@ class TrimSuggestion:
                 "trimmer": parts.format_value(self.trimmer_ohms, "resistance"),
                 "target_share": self.target_share, "share": self.share,
                 "setting_range_ohms": list(self.setting_range_ohms), "resolution": self.resolution,
-                **{f"depth_db_{k}": v for k, v in self.depth_db.items()},
+                **{f"depth_below_passband_db_{k}": v for k, v in self.depth_db.items()},
                 **{f"notch_hz_{k}": v for k, v in self.notch_hz.items()}, "where": self.where}
 
     def describe(self) -> str:

@@ -63,9 +63,10 @@ def _text(result, trim) -> str:
     return "\n".join([
         f"{result.draws} builds, {result.tolerances.describe()}, seed {result.seed}",
         f"  notch   {d['notch_hz_p5']:.1f} / {d['notch_hz_p50']:.1f} / {d['notch_hz_p95']:.1f} Hz (5/50/95 %)",
-        f"  depth   {d['depth_db_p5']:.1f} / {d['depth_db_p50']:.1f} / {d['depth_db_p95']:.1f} dB below passband",
+        f"  depth   {d['depth_below_passband_db_p5']:.1f} / {d['depth_below_passband_db_p50']:.1f} / "
+        f"{d['depth_below_passband_db_p95']:.1f} dB of cut below the passband",
         f"  yield   {result.yield_fraction:.1%} at {result.spec_db:g} dB; typical build {result.typical_index}",
-        f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
+        f"  worst corner {corner['worst_depth_below_passband_db']:.1f} dB of cut; notch {corner['notch_low_hz']:.1f}-"
         f"{corner['notch_high_hz']:.1f} Hz over {corner['corners']} corners",
         f"  matters most: {', '.join(s.part for s in result.sensitivity()[:3])} (depth)",
         f"  trim    {trim.describe()}",

@@ -356,8 +356,9 @@ def plot_sweep(rows, path) -> Path:
     f = np.array([float(row["notch_hz"]) for row in rows])
     figure, (levels, cost) = _figure(2)
     levels.plot(f, [row["sibilance_reduction_db"] for row in rows], "o-", color=_ANALOG,
-                label="sibilance-band reduction")
-    levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL, label="loudness change")
+                label="sibilance-band cut (dB, positive = quieter)")
+    levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL,
+                label="loudness change (gain, dB)")
     cost.plot(f, [row["intelligibility_cost"] for row in rows], "d-", color=_INK, label="intelligibility cost")
     for row in rows:
         if row.get("pick"):
@@ -366,7 +367,7 @@ def plot_sweep(rows, path) -> Path:
             levels.annotate(f"pick: {float(row['notch_hz']):.0f} Hz", (float(row["notch_hz"]),
                             row["sibilance_reduction_db"]), textcoords="offset points", xytext=(8, 8),
                             color=_MARK)
-    levels.set_ylabel("change (dB)")
+    levels.set_ylabel("dB")
     levels.set_title("notch sweep: what each setting does to the take")
     levels.legend(loc="best")
     cost.set_ylabel("intelligibility cost (SII-weighted)")

@@ -242,11 +242,13 @@ def sibilance_text(takes, reports, combined) -> str:
 
 
 def sweep_text(result, csv_path, json_path) -> str:
-    rows = ["  setting                      as built  sibilance  loudness  relative  speech cost"]
+    """The sweep table; cuts are positive dB (quieter), the loudness change a signed gain."""
+    rows = ["  setting                      asked      as built   sibilance cut  loudness  relative cut  speech cost"]
     for row in result.rows:
         mark = "  <- pick" if row["setting"] == result.pick["setting"] else ""
-        rows.append(f"  {row['setting']:<28} {row['notch_hz']:>6.0f} Hz {-row['sibilance_reduction_db']:>+6.1f} dB"
-                    f" {row['loudness_change_db']:>+6.1f} dB {-row['relative_reduction_db']:>+6.1f} dB"
+        rows.append(f"  {row['setting']:<28} {row['notch_target_hz']:>6.0f} Hz  {row['notch_hz']:>6.0f} Hz "
+                    f"({row.get('notch_error_percent', 0.0):+.2f} %) {row['sibilance_reduction_db']:>6.1f} dB"
+                    f" {row['loudness_change_db']:>+6.1f} dB {row['relative_reduction_db']:>8.1f} dB"
                     f" {row['intelligibility_cost']:>9.1%}{mark}")
     reels = [f"  {reel}" for reel in result.reels.values()]
     return "\n".join([f"swept {len(result.plan.notches_hz)} settings x {len(result.reels)} takes "
