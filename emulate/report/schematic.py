@@ -285,7 +285,8 @@ def _load(pen: _Pen, elements, x) -> float:
     pen.dot(node_x, 1.0)
     pen.resistor((node_x, 1.0), (node_x, -1.0), _label(elements["RL"]) + "\n(load, assumed)", color=_ASSUMED)
     pen.ground(node_x, -1.0)
-    return node_x
+    pen.wire((node_x, 1.0), (node_x + 1.4, 1.0))  # room for the label before the next stage
+    return node_x + 1.4
 
 
 def _depth_control(pen: _Pen, elements, network, x, wet) -> float:
