@@ -175,7 +175,7 @@ def cut_at_db(network: TwinT, f_hz: float, metrics: NotchMetrics) -> float:
     -------
     >>> net = TwinT.balanced(1000.0, r_ohms=10e3)
     >>> round(cut_at_db(net, 2000.0, measure(net.response)), 2)
-    4.65
+    9.09
     """
     gain = float(db(np.abs(network.response([f_hz]))[0]))
     return min(metrics.passband_low_db, metrics.passband_high_db) - gain

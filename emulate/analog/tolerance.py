@@ -237,7 +237,7 @@ def divider_k(k, top_deviation, bottom_deviation):
     Example
     -------
     >>> round(float(divider_k(0.75, 0.01, -0.01)), 5)
-    0.74627
+    0.74623
     """
     bottom = k * (1.0 + bottom_deviation)
     return bottom / (bottom + (1.0 - k) * (1.0 + top_deviation))

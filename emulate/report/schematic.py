@@ -151,7 +151,7 @@ def schematic_figure(network: TwinT, makeup: dict | None = None, divider=None, t
     Example
     -------
     >>> fig = schematic_figure(TwinT.balanced(1000.0, r_ohms=10e3))
-    >>> fig.get_figwidth() > 5
+    >>> bool(fig.get_figwidth() > 5)
     True
     """
     elements = {e.designator: e for e in netlist.whole_circuit(network, makeup, divider)}
