@@ -199,3 +199,12 @@ class TestSheetJson:
         payload = json.loads(result.output)
         assert {row["part"] for row in payload["parts"]} >= {"R1", "R3A", "R3B", "C3", "U1A"}  # 5k = 2 x 10k; 20n is E24
         assert payload["trim"]["part"] == "R3" and "schematic.svg" in payload["files"]
+
+
+class TestHumSheet:
+    def test_a_missed_hum_target_is_a_design_note_and_cautions_stay_once(self, tmp_path):
+        design = design_twin_t(50.0, q=20.0)
+        assert not design.meets_hum_cut  # one part a position cannot reach 30 dB at 50 Hz, Q 20
+        md = (sheet.write_sheet(tmp_path / "s", design.built, tolerances=TOL, design=design) / "sheet.md").read_text()
+        assert md.count("**Caution.**") == 1 and "**Design note.**" in md and "trimmer set to" in md
+        assert "dB of cut at the target" in md

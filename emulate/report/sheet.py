@@ -73,6 +73,7 @@ th, td { border: 1px solid #c9d1d9; padding: .3rem .7rem; text-align: left; }
 th { background: #eef3f8; }
 img { max-width: 100%; border: 1px solid #e3e7eb; }
 .caution { background: #fff4e5; border-left: 4px solid #d9822b; padding: .5rem 1rem; }
+.note { background: #eef3f8; border-left: 4px solid #1f5fa8; padding: .5rem 1rem; }
 .schematic svg { width: 100%; height: auto; }
 pre { background: #f6f8fa; padding: .6rem; font-size: .85rem; overflow-x: auto; }
 @media print { body { max-width: none; margin: 0; } h2 { break-after: avoid; } table, .schematic { break-inside: avoid; } }
@@ -81,7 +82,7 @@ pre { background: #f6f8fa; padding: .6rem; font-size: .85rem; overflow-x: auto; 
 
 @dataclass(frozen=True)
 class Block:
-    """One piece of a sheet: ``kind`` is h1, h2, p, list, table, image or caution."""
+    """One piece of a sheet: ``kind`` is h1, h2, p, list, table, image, svg, pre, caution or note."""
 
     kind: str
     content: object
@@ -327,7 +328,7 @@ def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, t
 def _hum_blocks(design) -> list[Block]:
     if design is None or design.meets_hum_cut:
         return []
-    return [Block("caution", (f"Only {design.target_cut_db:.1f} dB of cut at the hum frequency "
+    return [Block("note", (f"Only {design.target_cut_db:.1f} dB of cut at the hum frequency "
                               f"{design.target_hz:g} Hz with these parts (a hum notch needs "
                               f"{HUM_MIN_CUT_DB:g} dB). Nearest fix:", *design.fix.lines()))]
 
@@ -363,8 +364,9 @@ def render_markdown(blocks: list[Block]) -> str:
             out.append(block.content)
         elif block.kind == "list":
             out.append("\n".join(f"- {item}" for item in block.content))
-        elif block.kind == "caution":
-            out.append("\n".join(["> **Caution.**", ">", *(f"> - {item}" for item in block.content)]))
+        elif block.kind in ("caution", "note"):
+            head = "> **Caution.**" if block.kind == "caution" else "> **Design note.**"
+            out.append("\n".join([head, ">", *(f"> - {item}" for item in block.content)]))
         elif block.kind == "table":
             header, rows = block.content
             out.append("\n".join(["| " + " | ".join(header) + " |", "|" + "---|" * len(header),
@@ -393,6 +395,9 @@ def render_html(blocks: list[Block], folder: Path) -> str:
         elif block.kind == "caution":
             out.append('<div class="caution"><strong>Caution.</strong> ' + " ".join(e(i) for i in block.content)
                        + "</div>")
+        elif block.kind == "note":
+            out.append('<div class="note"><strong>Design note.</strong><ul>'
+                       + "".join(f"<li>{e(i)}</li>" for i in block.content) + "</ul></div>")
         elif block.kind == "table":
             header, rows = block.content
             head = "<tr>" + "".join(f"<th>{e(h)}</th>" for h in header) + "</tr>" if any(header) else ""
