@@ -348,7 +348,7 @@ def _tolerance_blocks(result) -> list[Block]:
                             [["notch (Hz)", *(f"{notch[k]:.1f}" for k in ("p5", "p50", "p95"))],
                              ["depth (dB of cut)", *(f"{depth[k]:.1f}" for k in ("p5", "p50", "p95"))]])),
             Block("p", f"Yield {result.yield_fraction:.1%} at {result.spec_db:g} dB of cut. "
-                       f"Worst corner {result.corners.worst_depth_db:.1f} dB; notch {low:.1f}-{high:.1f} Hz "
+                       f"Worst corner {result.corners.worst_depth_db:.1f} dB of cut; notch {low:.1f}-{high:.1f} Hz "
                        f"over all {len(result.corners.signs)} corners. Parts by influence on depth: {ranking}."),
             Block("image", (PICTURES["tolerance"], "tolerance envelope"))]
 
