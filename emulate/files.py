@@ -24,7 +24,7 @@ import stat
 from collections.abc import Iterator
 from pathlib import Path
 
-from emulate.errors import EmulateError, OutputRefusedError
+from emulate.errors import BadValueError, EmulateError, OutputRefusedError
 
 __all__ = ["atomic_path", "write_text", "check_new_output", "check_new_folder", "parents_made",
            "remove_stale", "kept_files", "discard", "OutputRefusedError"]
@@ -381,3 +381,32 @@ def _remove(path: Path) -> None:
         shutil.rmtree(path, ignore_errors=True)
     else:
         path.unlink(missing_ok=True)
+
+
+PICTURE_FORMATS = ("png", "svg")  # a picture's format, by its file name's suffix
+
+
+def check_picture_suffix(path) -> Path:
+    """The picture's path if its suffix is .png or .svg.
+
+    Raises
+    ------
+    BadValueError : another suffix.
+    """
+    path = Path(path)
+    if path.suffix.lower().lstrip(".") not in PICTURE_FORMATS:
+        raise BadValueError(f"{path}: a picture is written as .png or .svg (by its name's suffix)")
+    return path
+
+
+def check_picture_path(path) -> Path:
+    """The picture's path if its suffix is .png or .svg and its folder exists.
+
+    Raises
+    ------
+    BadValueError : another suffix, or a missing folder.
+    """
+    path = check_picture_suffix(path)
+    if not path.parent.is_dir():
+        raise BadValueError(f"{path}: folder {path.parent} does not exist")
+    return path

@@ -224,3 +224,46 @@ class TestRegressionRenderRefusesExistingOut:
         assert_one_line_error(result, "already exists")
         assert (tmp_path / "o.wav").read_bytes() == b"earlier render"
         assert run("render", take, tmp_path / "o.wav", *BALANCED, "--force").exit_code == 0
+
+
+class TestResponseJsonTable:
+    def test_holds_the_table_and_the_parts(self):
+        import json
+
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["response", "--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n",
+                                           "--c2", "10n", "--c3", "20n", "--json"])
+        payload = json.loads(result.output)
+        assert payload["parts"]["R3"] == "5k" and payload["parts"]["C3"] == "20n"
+        assert len(payload["table"]) == 13 and sum(row["notch"] for row in payload["table"]) == 1
+        assert payload["exact_null"] is True
+
+    def test_unknown_plot_suffix_is_one_line(self, tmp_path):
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["response", "--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n",
+                                           "--c2", "10n", "--c3", "20n", "--plot", str(tmp_path / "r.jpg")])
+        assert result.exit_code != 0 and ".png or .svg" in result.output and "Traceback" not in result.output
+
+
+class TestDesignHum:
+    def test_narrow_hum_miss_is_said_with_the_fix(self):
+        # regression: design --notch 50 --q 20 built at 49.12 Hz, cut 50 Hz by about 5 dB, said nothing
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["design", "--notch", "50", "--q", "20"])
+        assert result.exit_code == 0, result.output
+        assert "dB of cut at 50.00 Hz" in result.output
+        assert "nearest fix" in result.output or "hum        cut at the hum frequency" in result.output
+
+    def test_passive_quarter_q_designs(self):
+        # regression: design --notch 1k --q 0.25 failed with "resistance 0.0"
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        result = CliRunner().invoke(main, ["design", "--notch", "1k", "--q", "0.25"])
+        assert result.exit_code == 0 and "passive (Q 0.25)" in result.output

@@ -97,3 +97,36 @@ class TestPlotSweep:
     def test_refuses_bad_rows(self, tmp_path, rows, match):
         with pytest.raises(BadValueError, match=match):
             plots.plot_sweep(rows, tmp_path / "w.png")
+
+
+class TestPictureFormats:
+    def test_svg_is_svg(self, tmp_path):
+        # regression: --plot x.svg wrote PNG bytes
+        from emulate.analog.networks import TwinT
+
+        out = plots.plot_response(TwinT.balanced(1000.0, r_ohms=10e3), tmp_path / "r.svg")
+        assert out.read_text()[:200].lstrip().startswith("<?xml") and "<svg" in out.read_text()[:2000]
+
+    @pytest.mark.parametrize("name", ["r.jpg", "r", "r.pdf"])
+    def test_other_suffixes_are_refused(self, tmp_path, name):
+        from emulate.analog.networks import TwinT
+
+        with pytest.raises(BadValueError, match=r"\.png or \.svg"):
+            plots.plot_response(TwinT.balanced(1000.0, r_ohms=10e3), tmp_path / name)
+        assert list(tmp_path.iterdir()) == []
+
+
+class TestShallowFloor:
+    @pytest.mark.parametrize("depth, bottom", [(7.9, -13.9), (3.0, -12.0), (300.0, plots.FLOOR_DB)])
+    def test_fits_the_dip(self, depth, bottom):
+        # the y range shows a shallow dip with 6 dB below it (common practice, no source)
+        assert plots._shallow_floor(depth) == pytest.approx(bottom)
+
+
+class TestCircuitWords:
+    def test_names_circuit_and_mix(self):
+        from emulate.analog.networks import TwinT
+
+        net = TwinT.balanced(1000.0, r_ohms=10e3)
+        assert plots.circuit_words(net) == "passive twin-T, full notch"
+        assert plots.circuit_words(net.replace(bootstrap=0.75, mix=0.6)) == "active twin-T (K 0.75), mix 0.60"

@@ -164,7 +164,13 @@ class TestCheckTwinT:
         assert "keep the load above 200k" in found
 
     def test_buffered_load_is_not_heavy(self):
-        assert warnings_of(TwinT.balanced(1000.0, r_ohms=10e3, load_ohms=1e3, bootstrap=0.5)) == []
+        (found,) = warnings_of(TwinT.balanced(1000.0, r_ohms=10e3, load_ohms=1e3, bootstrap=0.5))
+        assert "heavy" not in found
+
+    def test_load_on_an_active_network_is_said_to_do_nothing(self):
+        # regression: --load was ignored for an active network without a word
+        (found,) = warnings_of(TwinT.balanced(1000.0, r_ohms=10e3, load_ohms=1e3, bootstrap=0.5))
+        assert "driven by the active network's output follower" in found
 
     def test_source_resistance(self):
         (found,) = warnings_of(TwinT.balanced(1000.0, r_ohms=10e3, source_ohms=600.0))

@@ -22,6 +22,7 @@ import numpy as np
 from emulate.errors import EmulateWarning
 
 AUDIO_BAND_HZ = (20.0, 20000.0)
+EXACT_NULL_DB = 200.0  # a notch deeper than this below the passband is an exact null in float64 (the one threshold)
 _GOLDEN = (math.sqrt(5) - 1) / 2
 _EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
 _PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
@@ -60,6 +61,17 @@ class NotchMetrics:
     def as_dict(self) -> dict[str, float]:
         return {name: (bool if name == "in_range" else float)(getattr(self, name))
                 for name in self.__dataclass_fields__}
+
+
+def is_exact_null(depth_below_passband_db) -> bool:
+    """True where the notch is deeper than ``EXACT_NULL_DB`` below the passband (text, sheet, plots).
+
+    Example
+    -------
+    >>> is_exact_null(250.0), is_exact_null(80.0)
+    (True, False)
+    """
+    return bool(depth_below_passband_db >= EXACT_NULL_DB)
 
 
 def db(magnitude):
@@ -171,6 +183,8 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
       (a deeper nominal notch is more than 1 % parts hold anyway, MT-225):
       states the nearest balanced set;
     * a passive network driving a load under 10 x (R1 + R2);
+    * an active network given a load: its output follower drives the load, so
+      the load does not change the response (said, so it is not silently ignored);
     * a source resistance over 5 % of R3: it does not move the null (the null is
       between the network's input node and its output) but reshapes Q and the
       passband;
@@ -191,6 +205,10 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
             f"load {_ohms(network.load_ohms)} is heavy for a network of R1+R2 = {_ohms(series)}: "
             f"passband {metrics.passband_low_db:.1f} dB low / {metrics.passband_high_db:.1f} dB high; "
             f"buffer the output or keep the load above {_ohms(LOAD_FACTOR * series)}"))
+    if network.is_active and np.all(np.isfinite(network.load_ohms)):
+        found.append(EmulateWarning(
+            f"load {_ohms(network.load_ohms)} is driven by the active network's output follower: it does not "
+            "change the response here (an ideal follower; the op-amp's own output limits are not modelled)"))
     if network.source_ohms > SOURCE_FACTOR * network.r3:
         found.append(EmulateWarning(
             f"source {_ohms(network.source_ohms)} is over {SOURCE_FACTOR:.0%} of R3 = {_ohms(network.r3)}: "

@@ -24,6 +24,7 @@ preset files, so a preset is also a valid ``--circuit`` file::
     cap_series = "E12"        # optional
     impedance = "10k"         # optional
     capacitor = "10n"         # optional
+    parts_per_position = 2    # optional: 1 (default) or 2 parts at each position
 
 Given both, ``[circuit]`` is what is analysed and ``[target]`` is kept as the
 record of how it was designed.
@@ -42,7 +43,7 @@ from emulate.analog.networks import PART_NAMES, TwinT, part_kind
 from emulate.validate import check_range
 
 CIRCUIT_KEYS = PART_NAMES + ("source", "load", "bootstrap", "depth_pot")
-TARGET_KEYS = ("notch", "q", "series", "cap_series", "impedance", "capacitor")
+TARGET_KEYS = ("notch", "q", "series", "cap_series", "impedance", "capacitor", "parts_per_position")
 
 
 def network_from_table(table: dict, *, mix: float = 1.0, where: str = "circuit") -> TwinT:
@@ -107,6 +108,11 @@ def target_arguments(table: dict, *, where: str = "target") -> tuple[float, dict
     if table.get("impedance") is not None:
         options["impedance_ohms"] = _value(table["impedance"], "resistance", _field(where, "impedance"))
         check_range(_field(where, "impedance"), options["impedance_ohms"], *IMPEDANCE_RANGE_OHMS)
+    if table.get("parts_per_position") is not None:
+        options["parts_per_position"] = _number(table["parts_per_position"], _field(where, "parts_per_position"))
+        if options["parts_per_position"] not in (1, 2):
+            raise BadValueError(f"{_field(where, 'parts_per_position')}: {table['parts_per_position']!r}; allowed 1 or 2")
+        options["parts_per_position"] = int(options["parts_per_position"])
     if table.get("capacitor") is not None:
         options["capacitor_farads"] = _value(table["capacitor"], "capacitance", _field(where, "capacitor"))
     notch = _value(table["notch"], None, _field(where, "notch"))

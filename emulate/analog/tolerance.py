@@ -1,8 +1,9 @@
-"""Tolerance analysis of a twin-T: Monte Carlo builds, worst-case corners, a trim.
+"""Tolerance analysis of a twin-T: Monte Carlo builds and worst-case corners (the trim: :mod:`emulate.analog.trim`).
 
 The pipeline, top to bottom:
 
-1. tolerances  one per part class (R1..R3, C1..C3) as a fraction, and a
+1. tolerances  one per part class (R1..R5, C1..C3; R4/R5 the bootstrap divider),
+               with per-part overrides, as a fraction, and a
                distribution: ``"uniform"`` within +-tolerance, or ``"normal"`` with
                the tolerance as 3 sigma (untruncated but for a cut at 5.9 sigma that
                keeps every value positive up to a 50 % tolerance, so about 0.27 % of
@@ -10,8 +11,9 @@ The pipeline, top to bottom:
 2. draws       draw i of seed s is a pure function of (s, i): six numbers from the
                SplitMix64 stream (Steele, Lea & Flood, "Fast splittable pseudorandom
                number generators", OOPSLA 2014) at counter 6 i .. 6 i + 5 under a
-               key mixed from s.  So ``build_at(..., which=37)`` rebuilds build 37
-               alone, and 10,000 draws are one vectorised expression.
+               key mixed from s, and two (the divider) from a second key.  So
+               ``build_at(..., which=37)`` rebuilds build 37 alone, and the draws
+               are measured in chunks of ``CHUNK_DRAWS`` (bounded memory, linear time).
 3. rational    every build's exact H(s) = N(s) / D(s) as polynomials
                (:class:`emulate.analog.circuit.Rational`, ``TwinT.rational``): evaluating a
                cubic is ~100x cheaper than solving the nodal equations at each
@@ -30,7 +32,7 @@ The pipeline, top to bottom:
 5. report      percentiles, yield against a depth spec, a sensitivity ranking
                (Spearman rank correlation of each part's deviation with the notch
                shift, and of its size |deviation| with the depth), the 2^6 worst-case
-               corners, and a trim of R3 (:func:`suggest_trim`).
+               corners (2^8 with the divider of an active network).
 
 Why the depth depends on the null condition only: for every member of the
 family (passive, loaded, driven from a resistance, bootstrapped) the null is a
@@ -38,8 +40,7 @@ zero of the transfer from the network's input node to its output node; at a
 j-axis zero the output is 0 V, so neither the load, the source nor the
 bootstrap follower (driven from K x 0 V) carries signal.  The j-axis zeros exist
 exactly when R1 R2 C3 = R3 (R1 + R2)(C1 + C2) (derived symbolically in
-tests/test_networks.py), so R3 alone can restore the null of any build; the C
-mismatch then only moves the null frequency, w0^2 = 1 / (R3 (R1 + R2) C1 C2).
+tests/test_networks.py); the divider moves K, so Q, never the null.
 """
 
 from __future__ import annotations
@@ -55,77 +56,116 @@ from emulate.analog import parts
 from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.analog.stability import batch_stability
-from emulate.analog.response import measure_batch
+from emulate.analog.response import EXACT_NULL_DB, measure_batch
 from emulate.validate import check_range
+
+__all__ = ["Tolerances", "ToleranceResult", "Corners", "PartSensitivity", "BatchMetrics", "monte_carlo",
+           "worst_corners", "build_at", "builds", "deviations", "unit_draws", "divider_k", "varied_parts",
+           "measure_builds", "search_band_hz", "check_seed", "TOL_PARTS", "DISTRIBUTIONS", "CHUNK_DRAWS"]
 
 DISTRIBUTIONS = ("uniform", "normal")
 DEFAULT_DRAWS = 10_000
 DEFAULT_SPEC_DB = 30.0
-DEFAULT_TRIM_SHARE = 0.95
-DEPTH_CAP_DB = 200.0  # deeper than this below the passband is an exact null in float64
+DEPTH_CAP_DB = EXACT_NULL_DB  # deeper than this below the passband is an exact null in float64
 PERCENTILES = (5.0, 50.0, 95.0)
 NORMAL_SIGMAS = 3.0  # the tolerance is 3 sigma for "normal"
 _NORMAL_CUT = 5.9  # sigmas: keeps 1 - 0.5 * 5.9 / 3 > 0 at the 50 % tolerance limit
 _MAX_DRAWS = 1_000_000
+CHUNK_DRAWS = 2048  # draws measured at once: bounds the nodal and search arrays (about 30 MB)
 _SEARCH_POINTS = 48
 _SEARCH_SPAN = 4.0  # the band is nominal notch x exp(+-(SPAN x (r_tol + c_tol) + 2 %))
-_CORNER_SIGNS = np.array(list(itertools.product((-1.0, 1.0), repeat=len(PART_NAMES))))
-# Standard single-turn and multi-turn trimmer values (common practice, no source).
-TRIMMER_OHMS = (100.0, 200.0, 500.0, 1e3, 2e3, 5e3, 10e3, 20e3, 50e3, 100e3, 200e3, 500e3, 1e6)
-TRIMMER_TRACK_TOLERANCE = 0.20  # cermet trimmer track, +-20 % (common practice, no source)
-TRIMMER_RESOLUTION = 0.001  # settable to 0.1 % of the track, a multi-turn cermet (common practice)
 
 
 # --- 1. tolerances ------------------------------------------------------------
 
+TOL_PARTS = PART_NAMES + ("r4", "r5")  # R4, R5: the bootstrap divider, top and bottom
+PART_LABELS = {"r4": "R4 (bootstrap divider top)", "r5": "R5 (bootstrap divider bottom)"}
+
+
 @dataclass(frozen=True)
 class Tolerances:
-    """Part tolerances per class and the distribution of a build's deviations.
+    """Part tolerances (per class, with per-part overrides) and the distribution of a build's deviations.
 
     Parameters
     ----------
     resistors, capacitors : float
-        Tolerance of R1..R3 and of C1..C3 as a fraction (0.01 = 1 %), 0 to 0.5.
+        Tolerance of every resistor (R1..R3 and the bootstrap divider R4, R5) and
+        of C1..C3 as a fraction (0.01 = 1 %), 0 to 0.5.
     distribution : {"uniform", "normal"}
         ``"uniform"``: each part uniform within +-tolerance; ``"normal"``: the
         tolerance is 3 sigma (cut at 5.9 sigma).
+    overrides : tuple of (designator, fraction)
+        Per-part tolerances, e.g. ``(("r3", 0.001),)``; designators R1..R5, C1..C3.
 
     Does not model drift, temperature or ageing.
 
     Raises
     ------
-    BadValueError : a tolerance outside 0..50 % or an unknown distribution.
+    BadValueError : a tolerance outside 0..50 %, an unknown designator or distribution.
 
     Example
     -------
     >>> Tolerances.parse("F", "5%").fractions().tolist()
     [0.01, 0.01, 0.01, 0.05, 0.05, 0.05]
+    >>> Tolerances.parse("1%", "5%", per_part=["R3=0.1%"]).of("r3")
+    0.001
     """
 
     resistors: float
     capacitors: float
     distribution: str = "uniform"
+    overrides: tuple = ()
 
     def __post_init__(self):
         check_range("resistor tolerance (fraction)", self.resistors, 0.0, 0.5)
         check_range("capacitor tolerance (fraction)", self.capacitors, 0.0, 0.5)
         if self.distribution not in DISTRIBUTIONS:
             raise BadValueError(f"distribution {self.distribution!r}: allowed {', '.join(DISTRIBUTIONS)}")
+        for name, fraction in self.overrides:
+            if name not in TOL_PARTS:
+                raise BadValueError(f"part {name.upper()!r}: allowed {', '.join(n.upper() for n in TOL_PARTS)} "
+                                    "(R4, R5: the bootstrap divider)")
+            check_range(f"{name.upper()} tolerance (fraction)", fraction, 0.0, 0.5)
 
     @classmethod
-    def parse(cls, resistors="1%", capacitors="5%", distribution: str = "uniform") -> "Tolerances":
-        """Read tolerances as written ("1%", "F", 0.01) by :func:`emulate.analog.parts.parse_tolerance`."""
-        return cls(parts.parse_tolerance(resistors), parts.parse_tolerance(capacitors),
-                   str(distribution).strip().lower())
+    def parse(cls, resistors="1%", capacitors="5%", distribution: str = "uniform", per_part=()) -> "Tolerances":
+        """Read tolerances as written ("1%", "F", 0.01) and per-part ones ("R3=0.1%").
 
-    def fractions(self) -> np.ndarray:
-        """The tolerance of each part in ``PART_NAMES`` order, fractions."""
-        return np.array([self.resistors if name.startswith("r") else self.capacitors for name in PART_NAMES])
+        Raises
+        ------
+        BadValueError : a bad tolerance, or a per-part entry not written NAME=TOL.
+        """
+        overrides = []
+        for item in per_part:
+            name, sep, text = str(item).partition("=")
+            if not sep:
+                raise BadValueError(f"per-part tolerance {item!r}: write NAME=TOL, e.g. R3=0.1%")
+            overrides.append((name.strip().lower(), parts.parse_tolerance(text)))
+        return cls(parts.parse_tolerance(resistors), parts.parse_tolerance(capacitors),
+                   str(distribution).strip().lower(), tuple(overrides))
+
+    def of(self, name: str) -> float:
+        """The tolerance of one part (designator, any case), fraction."""
+        name = name.lower()
+        found = dict(self.overrides)
+        if name in found:
+            return found[name]
+        return self.resistors if name.startswith("r") else self.capacitors
+
+    def fractions(self, names=PART_NAMES) -> np.ndarray:
+        """The tolerance of each part in ``names`` order (default R1..C3), fractions."""
+        return np.array([self.of(name) for name in names])
 
     def describe(self) -> str:
-        """e.g. ``"R 1 %, C 5 %, uniform"``."""
+        """e.g. ``"R 1 %, C 5 %, R3 0.1 %, uniform"``."""
         how = "uniform" if self.distribution == "uniform" else "normal, tolerance = 3 sigma"
-        return f"R {parts.format_tolerance(self.resistors)}, C {parts.format_tolerance(self.capacitors)}, {how}"
+        extra = "".join(f", {name.upper()} {parts.format_tolerance(f)}" for name, f in self.overrides)
+        return f"R {parts.format_tolerance(self.resistors)}, C {parts.format_tolerance(self.capacitors)}{extra}, {how}"
+
+
+def varied_parts(nominal: TwinT) -> tuple[str, ...]:
+    """The parts a build varies: R1..C3, and the divider R4, R5 of an active network."""
+    return TOL_PARTS if nominal.is_active else PART_NAMES
 
 
 # --- 2. reproducible draws ------------------------------------------------------
@@ -133,6 +173,7 @@ class Tolerances:
 _GAMMA = np.uint64(0x9E3779B97F4A7C15)
 _MIX1 = np.uint64(0xBF58476D1CE4E5B9)
 _MIX2 = np.uint64(0x94D049BB133111EB)
+_DIVIDER_STREAM = np.uint64(0xD1B54A32D192ED03)  # a second key for the divider's two numbers
 
 
 def _mix64(x: np.ndarray) -> np.ndarray:
@@ -155,9 +196,12 @@ def check_seed(seed) -> int:
 
 
 def unit_draws(seed: int, which) -> np.ndarray:
-    """Uniform numbers in (0, 1), shape (len(which), 6), for draw numbers ``which``.
+    """Uniform numbers in (0, 1), shape (len(which), 8), for draw numbers ``which``.
 
-    Row j depends only on ``seed`` and ``which[j]``.
+    Row j depends only on ``seed`` and ``which[j]``; columns 0-5 (R1..C3) are the
+    SplitMix64 stream at counters 6 i + 1 .. 6 i + 6, columns 6-7 (the divider)
+    a second stream under another key, so adding the divider left every
+    R1..C3 draw as it was.
 
     Example
     -------
@@ -169,20 +213,22 @@ def unit_draws(seed: int, which) -> np.ndarray:
         raise BadValueError(f"draw numbers {which[which < 0][:3].tolist()}: allowed integers >= 0")
     with np.errstate(over="ignore"):
         key = _mix64(np.array([check_seed(seed)], dtype=np.uint64) * _GAMMA + _GAMMA)
-        counter = which.astype(np.uint64)[:, None] * np.uint64(len(PART_NAMES)) + np.arange(
-            1, len(PART_NAMES) + 1, dtype=np.uint64)
-        bits = _mix64(key + counter * _GAMMA)
+        columns = []
+        for stream_key, width in ((key, len(PART_NAMES)), (_mix64(key ^ _DIVIDER_STREAM), 2)):
+            counter = which.astype(np.uint64)[:, None] * np.uint64(width) + np.arange(1, width + 1, dtype=np.uint64)
+            columns.append(_mix64(stream_key + counter * _GAMMA))
+        bits = np.concatenate(columns, axis=1)
     return ((bits >> np.uint64(11)).astype(np.float64) + 0.5) * 2.0**-53
 
 
 def deviations(tolerances: Tolerances, seed: int, which) -> np.ndarray:
-    """Relative deviation of each part, shape (len(which), 6): value = nominal x (1 + deviation)."""
+    """Relative deviation of each part, shape (len(which), 8) in ``TOL_PARTS`` order."""
     u = unit_draws(seed, which)
     if tolerances.distribution == "uniform":
         unit = 2.0 * u - 1.0
     else:
         unit = np.clip(special.ndtri(u), -_NORMAL_CUT, _NORMAL_CUT) / NORMAL_SIGMAS
-    return unit * tolerances.fractions()
+    return unit * tolerances.fractions(TOL_PARTS)
 
 
 def _check_nominal(nominal: TwinT) -> None:
@@ -190,11 +236,30 @@ def _check_nominal(nominal: TwinT) -> None:
         raise BadValueError("the nominal network must have one value per part, not a batch")
 
 
+def divider_k(k, top_deviation, bottom_deviation):
+    """K of a divider whose nominal ratio is ``k`` with its parts off by the deviations.
+
+    K = Rb / (Rt + Rb) and Rt / Rb = (1 - K) / K nominally, so only the ratio matters.
+
+    Example
+    -------
+    >>> round(float(divider_k(0.75, 0.01, -0.01)), 5)
+    0.74623
+    """
+    bottom = k * (1.0 + bottom_deviation)
+    return bottom / (bottom + (1.0 - k) * (1.0 + top_deviation))
+
+
 def builds(nominal: TwinT, deviation: np.ndarray) -> TwinT:
-    """The batch of networks ``nominal`` x (1 + deviation), one row of ``deviation`` a build."""
+    """The batch of networks ``nominal`` x (1 + deviation), one row of ``deviation`` a build.
+
+    Columns in ``TOL_PARTS`` order; columns 6-7 (the divider) move K of an active network.
+    """
     deviation = np.atleast_2d(deviation)
-    return nominal.replace(**{name: value * (1.0 + deviation[:, i])
-                              for i, (name, value) in enumerate(nominal.parts().items())})
+    changes = {name: value * (1.0 + deviation[:, i]) for i, (name, value) in enumerate(nominal.parts().items())}
+    if nominal.is_active and deviation.shape[1] > len(PART_NAMES):
+        changes["bootstrap"] = divider_k(nominal.bootstrap, deviation[:, 6], deviation[:, 7])
+    return nominal.replace(**changes)
 
 
 # --- 3. the exact rational form of a batch ----------------------------------------
@@ -222,7 +287,8 @@ class BatchMetrics:
 def search_band_hz(notch_hz: float, tolerances: Tolerances) -> tuple[float, float]:
     """The band searched for the notch of every build, Hz (module note 4)."""
     reach = 1.0 if tolerances.distribution == "uniform" else _NORMAL_CUT / NORMAL_SIGMAS
-    span = _SEARCH_SPAN * reach * (tolerances.resistors + tolerances.capacitors) + 0.02
+    widest = tolerances.fractions(TOL_PARTS)
+    span = _SEARCH_SPAN * reach * (widest[:3].max() + widest[3:6].max()) + 0.02
     return notch_hz * math.exp(-span), notch_hz * math.exp(span)
 
 
@@ -260,13 +326,14 @@ class PartSensitivity:
 
 @dataclass(frozen=True)
 class Corners:
-    """All 2^6 worst-case corners: each part at +-tolerance, measured exactly."""
+    """All worst-case corners (2^6, or 2^8 with a divider): each part at +-tolerance, measured exactly."""
 
     signs: np.ndarray
     notch_hz: np.ndarray
     depth_db: np.ndarray
     oscillation_hz: np.ndarray = None
     in_range: np.ndarray = None
+    names: tuple = PART_NAMES
 
     def __post_init__(self):
         if self.oscillation_hz is None:
@@ -297,8 +364,9 @@ class Corners:
 
     def as_dict(self) -> dict:
         worst = self.signs[self.worst_index]
-        return {"worst_depth_db": self.worst_depth_db,
-                "worst_signs": {name.upper(): "+" if s > 0 else "-" for name, s in zip(PART_NAMES, worst)},
+        return {"worst_depth_below_passband_db": self.worst_depth_db,
+                "corners": len(self.signs),
+                "worst_signs": {name.upper(): "+" if s > 0 else "-" for name, s in zip(self.names, worst)},
                 "notch_low_hz": self.notch_range_hz[0], "notch_high_hz": self.notch_range_hz[1],
                 "oscillating_corners": self.oscillating,
                 "worst_oscillation_hz": float(self.oscillation_hz[self.worst_index]) if self.oscillating else None,
@@ -374,7 +442,7 @@ class ToleranceResult:
         """Every part, the one that matters most for the depth first."""
         shift = np.log(self.notch_hz / self.nominal_notch_hz)
         found = []
-        for i, name in enumerate(PART_NAMES):
+        for i, name in enumerate(varied_parts(self.nominal)):
             d = self.deviation[:, i]
             flat = np.ptp(d) == 0
             found.append(PartSensitivity(
@@ -399,9 +467,9 @@ class ToleranceResult:
         return {
             "draws": self.draws, "seed": self.seed, "tolerances": self.tolerances.describe(),
             "distribution": self.tolerances.distribution,
-            "nominal_notch_hz": self.nominal_notch_hz, "nominal_depth_db": self.nominal_depth_db,
+            "nominal_notch_hz": self.nominal_notch_hz, "nominal_depth_below_passband_db": self.nominal_depth_db,
             **{f"notch_hz_{k}": v for k, v in self.percentiles(self.notch_hz).items()},
-            **{f"depth_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
+            **{f"depth_below_passband_db_{k}": v for k, v in self.percentiles(self.depth_db).items()},
             "spec_db": self.spec_db, "yield": self.yield_fraction,
             "oscillating_share": float(np.mean(self.oscillating)),
             "oscillation_hz_range": ([float(np.nanmin(self.oscillation_hz)), float(np.nanmax(self.oscillation_hz))]
@@ -415,8 +483,12 @@ class ToleranceResult:
 
 
 def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_DRAWS, seed: int = 0,
-                spec_db: float = DEFAULT_SPEC_DB) -> ToleranceResult:
-    """Measure ``draws`` builds of ``nominal`` and its 64 worst-case corners.
+                spec_db: float = DEFAULT_SPEC_DB, progress=None) -> ToleranceResult:
+    """Measure ``draws`` builds of ``nominal`` and its worst-case corners.
+
+    The draws are measured ``CHUNK_DRAWS`` at a time, so the working memory stays
+    bounded for any count and the time grows linearly with it; only the
+    deviations (8 bytes a part a draw) and the two results a draw are kept.
 
     Parameters
     ----------
@@ -431,8 +503,10 @@ def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_
         0 <= seed < 2**63; build i of a seed is always the same network.
     spec_db : float
         Depth spec below the passband, dB (> 0), for the yield.
+    progress : callable, optional
+        Called with the number of draws just measured after each chunk (a progress bar's update).
 
-    Does not model the trim; see :func:`suggest_trim`.
+    Does not model the trim; see :func:`emulate.analog.trim.suggest_trim`.
 
     Raises
     ------
@@ -452,13 +526,23 @@ def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_
     seed = check_seed(seed)
     f_nominal = _nominal_notch_hz(nominal)
     band = search_band_hz(f_nominal, tolerances)
-    deviation = deviations(tolerances, seed, np.arange(int(draws)))
-    measured = measure_builds(builds(nominal, deviation), band, f_nominal)
+    draws = int(draws)
+    columns = len(varied_parts(nominal))
+    deviation = np.empty((draws, columns))
+    notch, depth, oscillation = np.empty(draws), np.empty(draws), np.empty(draws)
+    in_range = np.empty(draws, bool)
+    for start in range(0, draws, CHUNK_DRAWS):
+        chunk = np.arange(start, min(start + CHUNK_DRAWS, draws))
+        deviation[chunk] = deviations(tolerances, seed, chunk)[:, :columns]
+        measured = measure_builds(builds(nominal, deviation[chunk]), band, f_nominal)
+        notch[chunk], depth[chunk] = measured.notch_hz, measured.depth_db
+        oscillation[chunk], in_range[chunk] = measured.oscillation_hz, measured.in_range
+        if progress is not None:
+            progress(len(chunk))
     corners = worst_corners(nominal, tolerances, f_nominal)
     nominal_depth = measure_builds(nominal, band, f_nominal).depth_db[0]
-    return ToleranceResult(nominal, tolerances, seed, float(spec_db), deviation, measured.notch_hz,
-                           measured.depth_db, f_nominal, float(nominal_depth), corners,
-                           measured.oscillation_hz, measured.in_range)
+    return ToleranceResult(nominal, tolerances, seed, float(spec_db), deviation, notch, depth,
+                           f_nominal, float(nominal_depth), corners, oscillation, in_range)
 
 
 def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None = None) -> Corners:
@@ -473,9 +557,11 @@ def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None
     _check_nominal(nominal)
     f_nominal = _nominal_notch_hz(nominal) if notch_hz is None else notch_hz
     band = search_band_hz(f_nominal, Tolerances(tolerances.resistors, tolerances.capacitors))
-    measured = measure_builds(builds(nominal, _CORNER_SIGNS * tolerances.fractions()), band, f_nominal)
-    return Corners(_CORNER_SIGNS.copy(), measured.notch_hz, measured.depth_db, measured.oscillation_hz,
-                   measured.in_range)
+    names = varied_parts(nominal)
+    signs = np.array(list(itertools.product((-1.0, 1.0), repeat=len(names))))
+    measured = measure_builds(builds(nominal, signs * tolerances.fractions(names)), band, f_nominal)
+    return Corners(signs, measured.notch_hz, measured.depth_db, measured.oscillation_hz,
+                   measured.in_range, names)
 
 
 MAX_DRAW_NUMBER = 2**62  # draw numbers index a 64-bit counter stream
@@ -508,7 +594,7 @@ def build_at(nominal: TwinT, tolerances: Tolerances, which, seed: int = 0, *,
         return result.draw(result.typical_index)
     if choice == "worst":
         corners = worst_corners(nominal, tolerances)
-        return _single(builds(nominal, corners.signs[corners.worst_index] * tolerances.fractions()))
+        return _single(builds(nominal, corners.signs[corners.worst_index] * tolerances.fractions(corners.names)))
     if not choice.isdigit() or int(choice) > MAX_DRAW_NUMBER:
         raise BadValueError(f"build {which!r}: allowed typical, worst, nominal or a draw number "
                             f"0 to {MAX_DRAW_NUMBER}")
@@ -516,118 +602,7 @@ def build_at(nominal: TwinT, tolerances: Tolerances, which, seed: int = 0, *,
 
 
 def _single(batch: TwinT) -> TwinT:
-    return batch.replace(**{name: float(np.asarray(v).reshape(-1)[0]) for name, v in batch.parts().items()})
-
-
-# --- trim ---------------------------------------------------------------------------
-
-@dataclass(frozen=True)
-class TrimSuggestion:
-    """R3 as a fixed resistor in series with a trimmer, and what it achieves (measured).
-
-    Attributes
-    ----------
-    fixed_ohms, trimmer_ohms : the fixed part (preferred value) and the trimmer track.
-    share : share of the draws whose null the trimmer can reach (measured);
-        ``target_share`` as asked.
-    setting_range_ohms : (lo, hi) trimmer settings needed by the middle
-        ``target_share`` of the draws.
-    depth_db : percentiles of the depth after trimming each build to its best
-        setting within ``resolution`` of the track (unreachable builds at the end stop).
-    notch_hz : percentiles of the notch after trimming (R3 cannot restore the
-        frequency: the C mismatch still moves it).
-    """
-
-    fixed_ohms: float
-    trimmer_ohms: float
-    target_share: float
-    share: float
-    setting_range_ohms: tuple[float, float]
-    resolution: float
-    depth_db: dict
-    notch_hz: dict
-    where: str = "R3 = fixed resistor in series with the trimmer (wiper tied to one end: a variable resistor)"
-
-    def as_dict(self) -> dict:
-        return {"part": "R3", "fixed_ohms": self.fixed_ohms, "trimmer_ohms": self.trimmer_ohms,
-                "fixed": parts.format_value(self.fixed_ohms, "resistance"),
-                "trimmer": parts.format_value(self.trimmer_ohms, "resistance"),
-                "target_share": self.target_share, "share": self.share,
-                "setting_range_ohms": list(self.setting_range_ohms), "resolution": self.resolution,
-                **{f"depth_db_{k}": v for k, v in self.depth_db.items()},
-                **{f"notch_hz_{k}": v for k, v in self.notch_hz.items()}, "where": self.where}
-
-    def describe(self) -> str:
-        return (f"R3 = {parts.format_value(self.fixed_ohms, 'resistance')} + "
-                f"{parts.format_value(self.trimmer_ohms, 'resistance')} trimmer: reaches the null in "
-                f"{self.share:.1%} of builds; trimmed depth {self.depth_db['p5']:.0f}-{self.depth_db['p95']:.0f} dB "
-                f"(p5-p95, set to {self.resolution:.1%} of the track)")
-
-
-def r3_for_null(r1, r2, c1, c2, c3):
-    """R3 (ohms) meeting the null condition R1 R2 C3 = R3 (R1 + R2)(C1 + C2)."""
-    return r1 * r2 * c3 / ((r1 + r2) * (c1 + c2))
-
-
-def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, series: str = "E24",
-                 resolution: float = TRIMMER_RESOLUTION) -> TrimSuggestion:
-    """Size a fixed resistor plus trimmer for R3 that restores the null in ``share`` of the builds.
-
-    The needed R3 of each build follows from its own R1, R2, C1..C3
-    (:func:`r3_for_null`); the fixed part carries that build's R3 deviation;
-    the trimmer's guaranteed range is its track x (1 - 20 %).  The smallest
-    standard trimmer (finest setting) for which some preferred fixed value
-    covers ``share`` of the builds wins; if none does, the best coverage found.
-    Each build is then set to its needed R3 plus half a resolution step of the
-    track (clamped to the trimmer's range) and measured.
-
-    Parameters
-    ----------
-    result : a Monte Carlo run.
-    share : 0.5 to 1, share of builds to cover.
-    series : IEC 60063 series of the fixed part.
-    resolution : fraction of the track a setting can be trusted to (0 < r <= 0.1).
-
-    Raises
-    ------
-    BadValueError : ``share`` or ``resolution`` out of range, unknown series.
-
-    Example
-    -------
-    >>> r = monte_carlo(TwinT.balanced(1000.0, r_ohms=10e3), Tolerances(0.01, 0.05), draws=500)
-    >>> suggest_trim(r).share >= 0.95
-    True
-    """
-    check_range("trim share", share, 0.5, 1.0)
-    check_range("trimmer resolution (fraction of track)", resolution, 0.0, 0.1, low_open=True)
-    batch = builds(result.nominal, result.deviation)
-    needed = r3_for_null(batch.r1, batch.r2, batch.c1, batch.c2, batch.c3)
-    r3_scale = 1.0 + result.deviation[:, PART_NAMES.index("r3")]
-    fixed, trimmer, covered = _size_trim(needed, r3_scale, share, series)
-    setting = np.clip(needed - fixed * r3_scale, 0.0, trimmer * (1 - TRIMMER_TRACK_TOLERANCE))
-    trimmed = batch.replace(r3=fixed * r3_scale + setting + 0.5 * resolution * trimmer)
-    measured = measure_builds(trimmed, search_band_hz(result.nominal_notch_hz, result.tolerances),
-                              result.nominal_notch_hz)
-    kept = measured.in_range & ~measured.oscillating
-    tail = (1 - share) / 2
-    need = needed - fixed * r3_scale
-    return TrimSuggestion(fixed, trimmer, float(share), covered,
-                          (float(np.quantile(need, tail)), float(np.quantile(need, 1 - tail))), float(resolution),
-                          result.percentiles(measured.depth_db, where=kept),
-                          result.percentiles(measured.notch_hz, where=kept))
-
-
-def _size_trim(needed, r3_scale, share, series):
-    """(fixed ohms, trimmer ohms, covered share): the smallest trimmer that covers ``share``."""
-    fixed_values = np.array(parts.series_values(series, needed.min() / 4, needed.max()))
-    best = None
-    for trimmer in TRIMMER_OHMS:
-        reach = trimmer * (1 - TRIMMER_TRACK_TOLERANCE)
-        setting = needed[None, :] - fixed_values[:, None] * r3_scale[None, :]
-        coverage = np.mean((setting >= 0) & (setting <= reach), axis=1)
-        i = int(np.argmax(coverage))
-        if best is None or coverage[i] > best[2] + 1e-12:
-            best = (float(fixed_values[i]), trimmer, float(coverage[i]))
-        if coverage[i] >= share:
-            return float(fixed_values[i]), trimmer, float(coverage[i])
-    return best
+    single = {name: float(np.asarray(v).reshape(-1)[0]) for name, v in batch.parts().items()}
+    if batch.is_active:
+        single["bootstrap"] = float(np.asarray(batch.bootstrap).reshape(-1)[0])
+    return batch.replace(**single)

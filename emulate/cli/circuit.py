@@ -15,7 +15,7 @@ from emulate.analog.stability import check_stability
 @main.command()
 @circuit_options
 @click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (.png or .svg)")
 @force_option("an existing --plot file")
 @json_option
 def response(rate, plot_path, force, as_json, **options):
@@ -36,7 +36,8 @@ def response(rate, plot_path, force, as_json, **options):
     if plot_path:
         from emulate.report import plots
 
-        text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0)}"
+        label = options.get("preset") or options.get("circuit_file")
+        text += f"\nwrote {plots.plot_response(network, plot_path, fs=rate or 48000.0, label=label)}"
     emit(as_json, payload, text)
 
 
@@ -49,11 +50,13 @@ def response(rate, plot_path, force, as_json, **options):
 @click.option("--capacitor", help="design around this C1 = C2, farads (e.g. 10n)")
 @click.option("--source", help="source resistance driving the network, ohms; default 0")
 @click.option("--load", help="load resistance on the output, ohms; default none")
+@click.option("--parts-per-position", type=click.IntRange(1, 2), default=1, show_default=True,
+              help="1: one part a position (R3/C3 may be two equal parts); 2: any two parts in series or parallel")
 @json_option
-def design(notch, q, series, cap_series, impedance, capacitor, source, load, as_json):
-    """Design a balanced twin-T for a target notch and snap it to preferred values."""
+def design(notch, q, series, cap_series, impedance, capacitor, source, load, parts_per_position, as_json):
+    """Design a balanced twin-T for a target notch and build it from preferred values."""
     target = {"notch": notch, "q": q, "series": series, "cap_series": cap_series,
-              "impedance": impedance, "capacitor": capacitor}
+              "impedance": impedance, "capacitor": capacitor, "parts_per_position": parts_per_position}
     surroundings = spec.network_surroundings({"source": source, "load": load})
     result = spec.design_from_table(target, where="", **surroundings)
     found = check_twin_t(result.built, result.built_metrics)

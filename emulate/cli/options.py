@@ -41,14 +41,14 @@ COMMAND_MODULES = {
 # command modules (tests/test_cli.py checks that each line matches its command)
 COMMAND_SUMMARY = {
     "response": "Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table.",
-    "design": "Design a balanced twin-T for a target notch and snap it to preferred values.",
+    "design": "Design a balanced twin-T for a target notch and build it from preferred values.",
     "render": "Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).",
     "demo": "Invented two-host podcast: takes, sibilance, presets, renders and pictures.",
     "sibilance": "Find where one speaker's sibilance sits, over one or more takes.",
     "sweep": "Render every take at every notch setting; reels, a summary table and a pick.",
     "preset": "Keep notch settings per speaker: save, list, show, delete.",
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
-    "sheet": "Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions.",
+    "sheet": "Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.",
 }
 
 
@@ -225,9 +225,11 @@ def force_option(what: str):
 
 
 def check_plot(plot_path, force: bool) -> None:
-    """Refuse a --plot path before any work (exists without --force, folder missing, not a file)."""
+    """Refuse a --plot path before any work (exists without --force, folder missing, not a
+    file, a suffix other than .png or .svg)."""
     if plot_path:
         files.check_new_output(plot_path, force=force, what="--plot")
+        files.check_picture_suffix(plot_path)  # its folder may be one the command makes (sweep --out)
 
 
 def json_option(command):

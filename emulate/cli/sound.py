@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import click
 
 from emulate.audio import stream as audio
@@ -26,7 +28,7 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
 @click.option("--distribution", type=click.Choice(["uniform", "normal"]), default="uniform",
               show_default=True, help="with --build: how parts spread within tolerance")
 @click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (.png or .svg)")
 @force_option("an existing OUT (never IN, a folder, a FIFO or a device) and an existing --plot file")
 @json_option
 @run_quietly
@@ -64,7 +66,10 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
 
         try:
             (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
-            text += f"\n  wrote {plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz)}"
+            label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
+            drawn = plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz,
+                                             label=label)
+            text += f"\n  wrote {drawn}"
         except BaseException:  # the command failed as a whole: a new OUT goes too
             files.discard(out_path)
             raise

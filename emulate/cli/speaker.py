@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from pathlib import Path
+
 import click
 
 from emulate.audio import stream as audio
@@ -24,7 +26,7 @@ takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=T
 @takes_argument
 @click.option("--band", nargs=2, type=float, metavar="LO HI",
               help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (.png or .svg)")
 @force_option("an existing --plot file")
 @json_option
 def sibilance(takes, band, plot_path, force, as_json):
@@ -44,7 +46,8 @@ def sibilance(takes, band, plot_path, force, as_json):
         x, fs = audio.read_all(takes[0])
         notch = combined.suggested_notch_hz if combined.usable else None
         band = combined.band_hz if combined.usable else None
-        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band)}"
+        label = f"{Path(takes[0]).name}, dry (suggested notch marked)"
+        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band, label=label)}"
     emit(as_json, payload, text)
 
 
@@ -79,7 +82,7 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @presets_option
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
-              help="draw the summary: reduction, loudness and speech cost against the notch (PNG)")
+              help="draw the summary: reduction, loudness and speech cost against the notch (.png or .svg)")
 @force_option("a non-empty --out folder (as a whole, once the new sweep is complete) and an existing "
               "--plot file")
 @json_option

@@ -1,4 +1,4 @@
-"""Pictures: PNG charts for the build sheet and the command line.
+"""Pictures: PNG or SVG charts (by the file's suffix) for the build sheet and the command line.
 
 Every chart is drawn on a bare :class:`matplotlib.figure.Figure` with the Agg
 canvas (headless, no global pyplot state), in one house style: white ground,
@@ -19,9 +19,9 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from emulate.errors import BadValueError
-from emulate.files import atomic_path
+from emulate.files import PICTURE_FORMATS as FORMATS, atomic_path, check_picture_path
 from emulate.analog.parts import format_value
-from emulate.analog.response import db, measure
+from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -65,15 +65,32 @@ def _hz_label(value: float, _position=None) -> str:
 
 
 def _save(figure: Figure, path) -> Path:
-    """Write the PNG atomically; refuses a folder that does not exist."""
+    """Write the picture atomically as PNG or SVG (by the suffix); refuses anything else."""
     import matplotlib
 
-    path = Path(path)
-    if not path.parent.is_dir():
-        raise BadValueError(f"{path}: folder {path.parent} does not exist")
+    path = check_picture_path(path)
     with atomic_path(path, mode=0o644) as temporary, matplotlib.rc_context(_STYLE):  # for reading by all
-        figure.savefig(temporary, format="png", dpi=DPI, facecolor="white")
+        figure.savefig(temporary, format=path.suffix.lower().lstrip("."), dpi=DPI, facecolor="white")
     return path
+
+
+def circuit_words(network) -> str:
+    """e.g. ``passive twin-T, full notch`` or ``active twin-T (K 0.75), mix 0.60``."""
+    kind = "passive twin-T" if not network.is_active else f"active twin-T (K {network.bootstrap:.4g})"
+    if network.depth_pot_ohms is not None:
+        return f"{kind}, depth pot at {network.mix:.2f}"
+    return f"{kind}, " + ("full notch" if network.mix >= 1.0 else f"mix {network.mix:.2f}")
+
+
+def _shallow_floor(depth_db: float) -> float:
+    """The y axis bottom: 6 dB under the dip, at least 12 dB down, at most the chart floor."""
+    return max(FLOOR_DB, min(-12.0, -depth_db - 6.0))
+
+
+def _legend_away_from(ax, notch_hz: float, band_hz) -> None:
+    """Legend in the lower corner away from the notch marker."""
+    centre = math.sqrt(band_hz[0] * band_hz[1])
+    ax.legend(loc="lower left" if notch_hz > centre else "lower right")
 
 
 def _level_db(h) -> np.ndarray:
@@ -103,17 +120,22 @@ def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
     return float(np.max(np.abs(db(h_digital)[keep] - level[keep]))) if np.any(keep) else 0.0
 
 
-def plot_response(network, path, fs: float | None = None) -> Path:
+def plot_response(network, path, fs: float | None = None, label: str | None = None) -> Path:
     """Analog magnitude and phase of ``network``, with the digital emulation at ``fs`` overlaid.
+
+    The title names the circuit (``label``, e.g. a preset) and its mix; the
+    fidelity caption sits under the chart, clear of the legend and the notch marker.
 
     Parameters
     ----------
     network : TwinT
         The network (one value per part).
     path : str or Path
-        PNG to write (its folder must exist).
+        PNG or SVG to write (by the suffix; its folder must exist).
     fs : float, optional
         Sample rate, Hz; None draws the analog response alone.
+    label : str, optional
+        What the circuit is (a preset or circuit name) for the title.
 
     Raises
     ------
@@ -127,6 +149,7 @@ def plot_response(network, path, fs: float | None = None) -> Path:
     >>> plot_response(TwinT.balanced(1000.0, r_ohms=10e3), out).stat().st_size > 10000
     True
     """
+    check_picture_path(path)
     metrics = measure(network.response)
     top = 20000.0 if fs is None else min(20000.0, 0.49 * fs)
     f = np.unique(np.concatenate([np.geomspace(10.0, top, 1500),
@@ -136,19 +159,20 @@ def plot_response(network, path, fs: float | None = None) -> Path:
     figure, (mag, phase) = _figure(2)
     mag.plot(f, _level_db(h), color=_ANALOG, label="analog (exact)")
     phase.plot(f, np.degrees(np.angle(h)), color=_ANALOG)
-    title = f"twin-T response: notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}"
+    title = (f"{label + ': ' if label else ''}{circuit_words(network)}\n"
+             f"notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}")
     if fs is not None:
         h_d, fidelity = digital_response(network, fs, f)
         mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
         phase.plot(f, np.degrees(np.angle(h_d)), color=_DIGITAL, linestyle="--")
-        mag.text(0.02, 0.06, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
-                 f"where analog above -30 dB); wet path {fidelity:.3f} dB",
-                 transform=mag.transAxes, color=_DIGITAL, fontsize=11)
+        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
+                    f"where analog above -30 dB); wet path {fidelity:.3f} dB", color=_DIGITAL, fontsize=11,
+                    va="bottom")
     mag.axvline(metrics.notch_hz, color=_MARK, linewidth=1.0, linestyle=":")
     mag.set_ylabel("gain (dB)")
-    mag.set_ylim(max(FLOOR_DB, min(-60.0, -metrics.depth_below_passband_db - 10)), 6.0)
+    mag.set_ylim(_shallow_floor(metrics.depth_below_passband_db), 3.0)
     mag.set_title(title)
-    mag.legend(loc="lower right")
+    _legend_away_from(mag, metrics.notch_hz, (10.0, top))
     phase.set_ylabel("phase (degrees)")
     phase.set_ylim(-100, 100)
     _frequency_axis(phase, (10.0, top))
@@ -156,13 +180,13 @@ def plot_response(network, path, fs: float | None = None) -> Path:
 
 
 def _depth_words(depth_db: float) -> str:
-    return (f"deeper than {-FLOOR_DB:.0f} dB (exact null)" if depth_db >= -FLOOR_DB
-            else f"{depth_db:.1f} dB deep")
+    return (f"exact null (deeper than {EXACT_NULL_DB:.0f} dB)" if is_exact_null(depth_db)
+            else f"{depth_db:.1f} dB below the passband")
 
 
 # --- tolerance ----------------------------------------------------------------------
 
-def plot_tolerance(result, path) -> Path:
+def plot_tolerance(result, path, label: str | None = None) -> Path:
     """Percentile envelope (5-95 %, median) of the built responses around the nominal.
 
     Parameters
@@ -184,6 +208,7 @@ def plot_tolerance(result, path) -> Path:
     >>> plot_tolerance(r, pathlib.Path(tempfile.mkdtemp()) / "t.png").suffix
     '.png'
     """
+    check_picture_path(path)
     f0 = result.nominal_notch_hz
     f = np.unique(np.concatenate([np.geomspace(f0 / 8, f0 * 8, 900), f0 * np.geomspace(0.9, 1.1, 300)]))
     envelope = result.envelope(f)
@@ -193,11 +218,12 @@ def plot_tolerance(result, path) -> Path:
     ax.plot(f, envelope["p50"], color=_ANALOG, label="median (per frequency)")
     ax.plot(f, _level_db(nominal), color=_INK, linewidth=1.0, linestyle="--", label="nominal parts")
     depth = result.percentiles(result.depth_db)
-    ax.set_title(f"{result.draws} builds, {result.tolerances.describe()}: depth {depth['p5']:.0f} / "
-                 f"{depth['p50']:.0f} / {depth['p95']:.0f} dB (5/50/95 %), yield {result.yield_fraction:.1%} "
-                 f"at {result.spec_db:g} dB", fontsize=12)
+    ax.set_title(f"{label + ': ' if label else ''}{circuit_words(result.nominal)}, {result.draws} builds, "
+                 f"{result.tolerances.describe()}\ndepth {depth['p5']:.0f} / {depth['p50']:.0f} / "
+                 f"{depth['p95']:.0f} dB of cut (5/50/95 %), yield {result.yield_fraction:.1%} at "
+                 f"{result.spec_db:g} dB", fontsize=12)
     ax.set_ylabel("gain (dB)")
-    ax.set_ylim(max(FLOOR_DB, -depth["p95"] - 10), 3.0)
+    ax.set_ylim(_shallow_floor(depth["p95"]), 3.0)
     ax.legend(loc="lower left")
     _frequency_axis(ax, (f[0], f[-1]))
     return _save(figure, path)
@@ -218,7 +244,7 @@ def _average_spectrum_db(x, fs: float):
     return f[1:], 10 * np.log10(np.maximum(np.mean(power, axis=1)[1:] * fs / 2, 1e-20))
 
 
-def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -> Path:
+def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, label: str | None = None) -> Path:
     """A take's averaged spectrum before (dry) and after (wet) the notch.
 
     Parameters
@@ -234,6 +260,8 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -
         Marked with a line.
     band_hz : (lo, hi), optional
         A band (the sibilance band) shaded, Hz.
+    label : str, optional
+        The take and the circuit and mix it went through, for the title.
 
     Raises
     ------
@@ -248,6 +276,7 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -
     """
     if not (isinstance(fs, (int, float)) and math.isfinite(fs) and fs > 0):
         raise BadValueError(f"sample rate {fs!r} Hz: allowed a finite rate > 0")
+    check_picture_path(path)
     f, before = _average_spectrum_db(dry, fs)
     figure, (ax,) = _figure(1)
     if band_hz is not None:
@@ -258,7 +287,7 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None) -
     if notch_hz is not None:
         ax.axvline(notch_hz, color=_MARK, linewidth=1.2, linestyle=":", label=f"notch {notch_hz:.0f} Hz")
     ax.set_ylabel("level (dB re full scale, per band)")
-    ax.set_title("averaged spectrum of the take")
+    ax.set_title(f"averaged spectrum: {label}" if label else "averaged spectrum of the take")
     ax.legend(loc="lower left")
     _frequency_axis(ax, (max(20.0, f[0]), min(20000.0, fs / 2)))
     return _save(figure, path)
@@ -302,11 +331,13 @@ def plot_sweep(rows, path) -> Path:
     '.png'
     """
     rows = _check_rows(rows)
+    check_picture_path(path)
     f = np.array([float(row["notch_hz"]) for row in rows])
     figure, (levels, cost) = _figure(2)
     levels.plot(f, [row["sibilance_reduction_db"] for row in rows], "o-", color=_ANALOG,
-                label="sibilance-band reduction")
-    levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL, label="loudness change")
+                label="sibilance-band cut (dB, positive = quieter)")
+    levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL,
+                label="loudness change (gain, dB)")
     cost.plot(f, [row["intelligibility_cost"] for row in rows], "d-", color=_INK, label="intelligibility cost")
     for row in rows:
         if row.get("pick"):
@@ -315,7 +346,7 @@ def plot_sweep(rows, path) -> Path:
             levels.annotate(f"pick: {float(row['notch_hz']):.0f} Hz", (float(row["notch_hz"]),
                             row["sibilance_reduction_db"]), textcoords="offset points", xytext=(8, 8),
                             color=_MARK)
-    levels.set_ylabel("change (dB)")
+    levels.set_ylabel("dB")
     levels.set_title("notch sweep: what each setting does to the take")
     levels.legend(loc="best")
     cost.set_ylabel("intelligibility cost (SII-weighted)")

@@ -10,13 +10,14 @@ import math
 
 import numpy as np
 
+from emulate.analog.design import HUM_MIN_CUT_DB
 from emulate.analog.networks import part_kind
 from emulate.analog.parts import format_value
-from emulate.analog.response import db
+from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null
 
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
-IDEAL_NULL_DB = -200.0  # deeper than this is an exact null in floating point
+IDEAL_NULL_DB = -EXACT_NULL_DB  # table floor: deeper is an exact null
 
 
 def finite_or_null(value):
@@ -60,8 +61,8 @@ SEARCH_TEXT = "1 Hz - 200 kHz"  # the band response.measure searches by default
 
 
 def depth_text(metrics) -> str:
-    if metrics.depth_db < IDEAL_NULL_DB:
-        return f"below {IDEAL_NULL_DB:.0f} dB (an exact null)"
+    if is_exact_null(metrics.depth_below_passband_db):
+        return f"more than {EXACT_NULL_DB:.0f} dB below the passband (an exact null)"
     return f"{metrics.depth_db:.1f} dB ({metrics.depth_below_passband_db:.1f} dB below the passband)"
 
 
@@ -90,13 +91,10 @@ def warning_lines(found) -> list[str]:
 
 
 def table_lines(network, notch_hz) -> list[str]:
-    """The response at the table frequencies and at ``notch_hz`` (None: no notch row)."""
-    f = np.array(sorted({*TABLE_HZ, *([] if notch_hz is None else [notch_hz])}))
-    h = network.response(f)
     rows = ["  f (Hz)      gain (dB)   phase (deg)"]
-    for fi, hi in zip(f, h):
-        mark = "  <- notch" if fi == notch_hz else ""
-        rows.append(f"  {fi:>9.1f}   {max(db(hi), IDEAL_NULL_DB):>9.2f}   {np.degrees(np.angle(hi)):>9.1f}{mark}")
+    for row in table_rows(network, notch_hz):
+        mark = "  <- notch" if row["notch"] else ""
+        rows.append(f"  {row['f_hz']:>9.1f}   {row['gain_db']:>9.2f}   {row['phase_deg']:>9.1f}{mark}")
     return rows
 
 
@@ -120,7 +118,22 @@ def metrics_payload(network, metrics, found, stability=None) -> dict:
     payload["active"] = network.is_active
     payload["bootstrap"] = network.bootstrap
     payload["mix"] = network.mix
+    payload["parts"] = {name.upper(): format_value(v, part_kind(name), 4) for name, v in network.parts().items()}
+    payload["source_ohms"] = float(network.source_ohms)
+    payload["load_ohms"] = float(network.load_ohms)  # inf (no load) becomes null
+    payload["depth_pot_ohms"] = network.depth_pot_ohms
+    payload["exact_null"] = is_exact_null(metrics.depth_below_passband_db)
+    payload["table"] = table_rows(network, metrics.notch_hz if metrics.in_range else None)
     return payload
+
+
+def table_rows(network, notch_hz) -> list[dict]:
+    """The response at the ISO 266 octave centres and the notch (None: no notch row): Hz, gain dB
+    (floored), phase degrees."""
+    f = np.array(sorted({*TABLE_HZ, *([] if notch_hz is None else [notch_hz])}))
+    h = network.response(f)
+    return [{"f_hz": float(fi), "gain_db": float(max(db(hi), IDEAL_NULL_DB)),
+             "phase_deg": float(np.degrees(np.angle(hi))), "notch": bool(fi == notch_hz)} for fi, hi in zip(f, h)]
 
 
 def design_payload(design, found) -> dict:
@@ -129,7 +142,11 @@ def design_payload(design, found) -> dict:
         target_hz=design.target_hz, target_q=design.target_q, series=design.series,
         cap_series=design.cap_series, parts=design.parts_as_written(),
         r3_build=design.r3_build, c3_build=design.c3_build,
-        notch_error_percent=100 * design.notch_error,
+        notch_error_percent=100 * design.notch_error, target_cut_db=design.target_cut_db,
+        parts_per_position=design.parts_per_position, part_count=design.part_count,
+        impedance_range_ohms=list(design.impedance_ohms),
+        hum_target=design.is_hum, meets_hum_cut=design.meets_hum_cut,
+        fix=None if design.fix is None else design.fix.lines(),
         ideal={"parts": {k.upper(): v for k, v in design.ideal.parts().items()},
                "notch_hz": design.ideal_metrics.notch_hz, "q": design.ideal_metrics.q})
     return payload
@@ -137,13 +154,13 @@ def design_payload(design, found) -> dict:
 
 def design_text(design, found) -> str:
     built, ideal = design.built_metrics, design.ideal_metrics
-    q = "passive (Q 0.25)" if design.target_q is None else f"Q {design.target_q:g}"
+    q = "passive (Q 0.25)" if design.built.bootstrap is None else f"Q {design.target_q:g}"
     lines = [f"design for a {design.target_hz:.1f} Hz notch, {q}, resistors {design.series}, "
              f"capacitors {design.cap_series}",
              "  part   ideal        as built"]
     written = design.parts_as_written()
     for name, value in design.ideal.parts().items():
-        build = {"r3": design.r3_build, "c3": design.c3_build}.get(name, written[name.upper()])
+        build = written[name.upper()]
         lines.append(f"  {name.upper():<5}  {format_value(value, part_kind(name), 4):<12} {build}")
     if design.divider is not None:
         top, bottom = (format_value(v, "resistance") for v in design.divider)
@@ -151,8 +168,11 @@ def design_text(design, found) -> str:
         lines.append(f"  bootstrap divider: {top} over {bottom} from the output buffer, K = {k:.4f} "
                      f"(ideal {1 - 1 / (4 * design.target_q):.4f})")
     lines += ["as built", *metrics_lines(built),
-              f"  error      notch {100 * design.notch_error:+.2f} % from target "
+              f"  error      notch {100 * design.notch_error:+.3f} % from target "
               f"(ideal parts: {ideal.notch_hz:.2f} Hz, Q {ideal.q:.3f})",
+              f"  at target  {design.target_cut_db:.1f} dB of cut at {design.target_hz:.2f} Hz "
+              f"(nominal parts, {design.part_count} parts in the network)",
+              *_hum_lines(design),
               "warnings", *warning_lines(found)]
     return "\n".join(lines)
 
@@ -171,12 +191,22 @@ def unmeasured_lines(d) -> list[str]:
 
 
 def corner_line(corner) -> str:
-    """Tolerance run: the worst of the 64 corners (from ``Corners.as_dict``)."""
+    """Tolerance run: the worst corner (of 2^6, or 2^8 with a divider; from ``Corners.as_dict``)."""
     if corner.get("oscillating_corners"):
         return (f"  worst corner oscillates at {corner['worst_oscillation_hz']:.4g} Hz "
-                f"({corner['oscillating_corners']} of 64 corners oscillate)")
-    return (f"  worst corner {corner['worst_depth_db']:.1f} dB; notch {corner['notch_low_hz']:.1f}-"
-            f"{corner['notch_high_hz']:.1f} Hz over 64 corners")
+                f"({corner['oscillating_corners']} of {corner['corners']} corners oscillate)")
+    return (f"  worst corner {corner['worst_depth_below_passband_db']:.1f} dB of cut; notch "
+            f"{corner['notch_low_hz']:.1f}-{corner['notch_high_hz']:.1f} Hz over {corner['corners']} corners")
+
+
+def _hum_lines(design) -> list[str]:
+    if not design.is_hum:
+        return []
+    if design.meets_hum_cut:
+        return [f"  hum        cut at the hum frequency is at least {HUM_MIN_CUT_DB:g} dB: met"]
+    return [f"  ! hum      only {design.target_cut_db:.1f} dB of cut at {design.target_hz:g} Hz (a hum notch "
+            f"needs {HUM_MIN_CUT_DB:g} dB): no combination of {design.parts_per_position} part(s) a position reaches it",
+            "    nearest fix:", *(f"      {line}" for line in design.fix.lines())]
 
 
 def render_text(report, processor) -> str:
@@ -270,11 +300,13 @@ def sibilance_text(takes, reports, combined) -> str:
 
 
 def sweep_text(result, csv_path, json_path) -> str:
-    rows = ["  setting                      as built  sibilance  loudness  relative  speech cost"]
+    """The sweep table; cuts are positive dB (quieter), the loudness change a signed gain."""
+    rows = ["  setting                      asked      as built   sibilance cut  loudness  relative cut  speech cost"]
     for row in result.rows:
         mark = "  <- pick" if row["setting"] == result.pick["setting"] else ""
-        rows.append(f"  {row['setting']:<28} {row['notch_hz']:>6.0f} Hz {-row['sibilance_reduction_db']:>+6.1f} dB"
-                    f" {row['loudness_change_db']:>+6.1f} dB {-row['relative_reduction_db']:>+6.1f} dB"
+        rows.append(f"  {row['setting']:<28} {row['notch_target_hz']:>6.0f} Hz  {row['notch_hz']:>6.0f} Hz "
+                    f"({row.get('notch_error_percent', 0.0):+.2f} %) {row['sibilance_reduction_db']:>6.1f} dB"
+                    f" {row['loudness_change_db']:>+6.1f} dB {row['relative_reduction_db']:>8.1f} dB"
                     f" {row['intelligibility_cost']:>9.1%}{mark}")
     reels = [f"  {reel}" for reel in result.reels.values()]
     return "\n".join([f"swept {len(result.plan.notches_hz)} settings x {len(result.reels)} takes "

@@ -293,12 +293,14 @@ MEASURES = ("sibilance_reduction_db", "loudness_change_db", "intelligibility_cos
 
 
 def summarise(results: list[JobResult], plan: SweepPlan) -> list[dict]:
-    """One row per setting: the as-built notch and the means of each measure over takes."""
+    """One row per setting: the asked and the as-built notch (designed by the same search as
+    ``design``) and the means of each measure over takes."""
     rows = []
     for target in plan.notches_hz:
         mine = [r for r in results if r.notch_target_hz == target]
         row = {"setting": setting_label(target, plan), "notch_target_hz": target,
-               "notch_hz": mine[0].notch_hz, "q": 0.25 if plan.q is None else plan.q, "mix": plan.mix}
+               "notch_hz": mine[0].notch_hz, "notch_error_percent": 100 * (mine[0].notch_hz / target - 1),
+               "q": 0.25 if plan.q is None else plan.q, "mix": plan.mix}
         row |= {name: float(np.mean([getattr(r, name) for r in mine])) for name in MEASURES}
         row["relative_reduction_db"] = row["sibilance_reduction_db"] + row["loudness_change_db"]
         rows.append(row)
