@@ -124,6 +124,10 @@ class Circuit:
         """Return MNA ``(G, C, b, l)``; ``G`` and ``C`` have shape ``(builds, n, n)``."""
         return _Assembly(self).matrices(output)
 
+    def node_rows(self) -> dict[str, int]:
+        """Row of each node (and op-amp pole node) in the matrices of :meth:`matrices`."""
+        return dict(_Assembly(self).index)
+
     def compile(self, output: str) -> "Compiled":
         """The MNA matrices for ``output``, stamped once, ready to evaluate many times."""
         return Compiled(*self.matrices(output))
@@ -188,6 +192,20 @@ class Compiled:
             raise CircuitError("the network equations are singular: a node floats") from None
         h = x @ self.l
         return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
+
+    def adjoint(self, f_hz) -> np.ndarray:
+        """Transfer to the output from a unit current pushed into each row, shape (frequencies, rows).
+
+        Solves ``(G + sC)^T y = l`` once per frequency: ``y[n]`` is the output
+        voltage per ampere injected into node ``n`` (row ``n`` of the equations:
+        for an op-amp pole node, per volt added at its input). Scalar parts only.
+        """
+        s = 2j * np.pi * np.asarray(f_hz, float)
+        system = np.swapaxes(self.g[0][None] + s[:, None, None] * self.c[0][None], -1, -2)
+        try:
+            return np.linalg.solve(system, np.broadcast_to(self.l, system.shape[:-1])[..., None])[..., 0]
+        except np.linalg.LinAlgError:
+            raise CircuitError("the network equations are singular: a node floats") from None
 
     def rational(self, f_ref_hz: float) -> "Rational":
         """The same responses as polynomials N(s)/D(s) per build (fast to evaluate)."""

@@ -185,10 +185,10 @@ class TwinT:
     def opamp_outputs(self) -> dict[str, str]:
         """The nodes an op-amp drives in the real box, with what each one does.
 
-        ``"in"`` is the stage that drives the network (counted as an op-amp
+        ``"src"`` is the stage that drives the network (counted as an op-amp
         output of the same class; its own output resistance is ``source_ohms``).
         """
-        nodes = {"in": "driving stage"}
+        nodes = {SOURCE: "driving stage"}
         if self.is_active:
             nodes |= {"buf": "output follower", "foot": "bootstrap follower"}
         if self.depth_pot_ohms is not None:
