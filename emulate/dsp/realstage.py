@@ -126,8 +126,8 @@ class RealBoxProcessor:
         """Samples held at a rail (input and output stage) and slowed by the slew limit."""
         return {"rail_hits": int(self._hits_in[0] + self._hits_out[0]),
                 "input_rail_hits": int(self._hits_in[0]), "output_rail_hits": int(self._hits_out[0]),
-                "slew_limited": int(self._hits_out[1]), "full_scale_dbu": 20 * math.log10(
-                    self.volts_per_unit / math.sqrt(2) / dbu_to_volts_rms(0.0)),
+                "slew_limited": int(self._hits_out[1]), "full_scale_dbu": round(20 * math.log10(
+                    self.volts_per_unit / math.sqrt(2) / dbu_to_volts_rms(0.0)), 3),
                 "opamp": self.opamp.name, "noise_added": self._fir is not None}
 
     # --- noise -------------------------------------------------------------------------
