@@ -7,6 +7,7 @@ import click
 from emulate.report import plots, sheet
 from emulate.analog import spec, tolerance
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
+from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
 
 def tolerance_options(command):
@@ -56,14 +57,26 @@ def _text(result, trim) -> str:
 @circuit_options
 @tolerance_options
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (PNG)")
+@click.option("--temperature", help="also report drift over this range, degrees C (e.g. 0..50)")
+@click.option("--resistor-type", default="metal-film", show_default=True,
+              help="with --temperature: metal-film or thick-film")
+@click.option("--capacitor-type", default="polypropylene", show_default=True,
+              help="with --temperature: c0g, polypropylene, polyester or x7r")
 @json_option
-def tolerance_command(plot_path, as_json, **options):
+def tolerance_command(plot_path, temperature, resistor_type, capacitor_type, as_json, **options):
     """Monte Carlo builds and worst-case corners of a circuit, with an R3 trim."""
     network = network_from_options(options)
     _, result, trim = _analyse(network, options)
     if plot_path:
         plots.plot_tolerance(result, plot_path)
-    emit(as_json, result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim))
+    payload, text = result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim)
+    if temperature is not None:
+        from emulate.analog import drift
+
+        found = drift.temperature_drift(network, drift.parse_temperature_range(temperature),
+                                        resistor_type=resistor_type, capacitor_type=capacitor_type)
+        payload, text = payload | {"drift": found.as_dict()}, text + "\n" + found.text()
+    emit(as_json, payload, text)
 
 
 @main.command(name="sheet")
@@ -75,6 +88,7 @@ def tolerance_command(plot_path, as_json, **options):
 @tolerance_options
 @click.option("--title", default=sheet.DEFAULT_TITLE, show_default=True, help="heading of the sheet")
 @click.option("--force", is_flag=True, help="replace a non-empty --out folder")
+@realbox_options
 @json_option
 def sheet_command(out_dir, notch, q, series, title, force, as_json, **options):
     """Write a build sheet folder: parts, responses, tolerances, trim, wiring, cautions."""
@@ -86,8 +100,25 @@ def sheet_command(out_dir, notch, q, series, title, force, as_json, **options):
     else:
         network = network_from_options(options)
     tolerances, result, trim = _analyse(network, options)
+    extra, notes = _real_parts(network, options)
     path = sheet.write_sheet(out_dir, network, tolerances=tolerances, design=design, tolerance_result=result,
-                             trim=trim, title=title, force=force)
-    payload = {"out": str(path), "files": sorted(p.name for p in path.iterdir())} | result.as_dict()
+                             trim=trim, title=title, force=force, notes=notes)
+    payload = {"out": str(path), "files": sorted(p.name for p in path.iterdir())} | result.as_dict() | extra
     emit(as_json, payload, f"wrote {path}/sheet.md and sheet.html\n{_text(result, trim)}\n"
-                           f"cautions: {sheet.CAUTION_LINE}")
+                           + "".join(f"{line}\n" for lines in notes.values() for line in lines)
+                           + f"cautions: {sheet.CAUTION_LINE}")
+
+
+def _real_parts(network, options) -> tuple[dict, dict]:
+    """The sheet's real-box sections: dielectrics always; level plan and noise with a level."""
+    from emulate.analog import drift
+
+    warned = drift.dielectric_warnings(network)
+    notes = {"Dielectrics": warned or ["no common dielectric moves this notch further than its -3 dB width "
+                                       "over 0..50 C (typical tempcos, from memory)"]}
+    extra = {"dielectric_warnings": warned}
+    if wants_levels(options):
+        payload, text = realbox_report(real_network(network, options), options)
+        notes["Level and noise"] = text.splitlines()
+        extra |= payload
+    return extra, notes

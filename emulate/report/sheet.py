@@ -151,8 +151,8 @@ def depth_control_text(network: TwinT) -> list[str]:
 
 
 def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
-            title: str = DEFAULT_TITLE) -> list[Block]:
-    """The sheet as blocks (pictures named as in ``PICTURES``)."""
+            title: str = DEFAULT_TITLE, notes=None) -> list[Block]:
+    """The sheet as blocks (pictures named as in ``PICTURES``); ``notes`` maps a heading to lines."""
     metrics = measure(network.response)
     q = "no -3 dB band" if math.isnan(metrics.q) else f"{metrics.q:.3f}"
     depth = metrics.depth_below_passband_db
@@ -181,6 +181,8 @@ def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, t
                               "with a test tone. R3 restores the depth only: the notch frequency still "
                               f"spreads {trim.notch_hz['p5']:.0f}-{trim.notch_hz['p95']:.0f} Hz (p5-p95) "
                               "with the capacitor mismatch; re-centring it needs R1 and R2 trimmed together.")]
+    for heading, lines in (notes or {}).items():  # level plan, noise, drift (emulate.cli.build)
+        blocks += [Block("h2", heading), Block("list", tuple(lines))]
     blocks += [Block("h2", "Depth control"), Block("list", depth_control_text(network)),
                Block("h2", "Cautions"), Block("list", CAUTIONS)]
     return blocks
@@ -268,7 +270,7 @@ def _check_out_dir(out_dir: Path, force: bool) -> None:
 
 
 def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
-                title: str = DEFAULT_TITLE, fs: float = 48000.0, force: bool = False) -> Path:
+                title: str = DEFAULT_TITLE, fs: float = 48000.0, force: bool = False, notes=None) -> Path:
     """Write the build sheet folder: sheet.md, sheet.html and the pictures.
 
     Parameters
@@ -292,6 +294,8 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
         Sample rate of the digital overlay, Hz.
     force : bool
         Replace a non-empty ``out_dir`` (only after the new sheet is complete).
+    notes : dict, optional
+        Heading -> lines of further sections (the real box: levels, noise, drift).
 
     Returns
     -------
@@ -313,7 +317,7 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     out_dir = Path(out_dir)
     _check_out_dir(out_dir, force)
     blocks = compose(network, tolerances=tolerances, design=design, tolerance_result=tolerance_result,
-                     trim=trim, title=title)
+                     trim=trim, title=title, notes=notes)
     # the whole folder is written beside out_dir, then swapped in (an old one removed after)
     with atomic_path(out_dir, mode=0o755) as temporary:  # a sheet is for sharing
         temporary.mkdir()
