@@ -8,9 +8,11 @@ Deconvolution, top to bottom (A. Farina, AES 108th Convention, preprint 5093, 20
              (:meth:`emulate.measure.stimulus.SweepPlan.inverse`), by FFT;
 3. window    the linear impulse response around time zero, half-Hann faded at
              both ends, clear of the harmonic responses at negative times;
-4. transform its spectrum, zero-padded to a fine frequency grid, is the response
-             divided by the stimulus level, so it is the box's gain (any
-             playback/record gain included); only the band the sweep covered
+4. transform its spectrum, zero-padded to a fine frequency grid;
+5. reference divided by the spectrum the same steps give for the stimulus itself
+             (a perfect wire at the stimulus level): what remains is the box's
+             gain (any playback/record gain included), without the ripple the
+             band limits and the window leave; only the band the sweep covered
              with full energy, ``USABLE`` of it, is kept.
 
 A CSV table (frequency in Hz, gain in dB, optional phase in degrees; a header
@@ -95,24 +97,27 @@ def deconvolve(recording: np.ndarray, plan: SweepPlan, *, source: str = "") -> M
     if start - pre < 0 or start + plan.sweep_frames > len(x):
         raise BadValueError(f"{source or 'recording'}: it ends before the sweep does; record the whole "
                             f"stimulus ({plan.total_frames / plan.fs:.1f} s) and the box's ring-out")
-    segment = x[start - pre:]
+    f, h = _windowed_spectrum(x[start - pre:], plan, pre)
+    # the same steps on the stimulus itself: what the band limits and the window do to a
+    # perfect wire, divided out (their ripple at the band's low end, mostly)
+    _, reference = _windowed_spectrum(plan.signal()[plan.sweep_start - pre:], plan, pre)
+    h = h / reference
+    return MeasuredResponse(f, 20 * np.log10(np.maximum(np.abs(h), 1e-12)), np.degrees(np.angle(h)),
+                            int(latency), source)
+
+
+def _windowed_spectrum(segment, plan: SweepPlan, pre: int):
+    """Deconvolve, window the linear response around time zero, transform; keep the usable band."""
     n = _fft_size(len(segment) + plan.sweep_frames)
     ir = np.fft.irfft(np.fft.rfft(segment, n) * np.fft.rfft(plan.inverse(), n), n)
     zero = plan.sweep_frames - 1 + pre  # time zero of the linear response
     post = min(round(_IR_SECONDS * plan.fs), len(ir) - zero)
     window = ir[zero - pre:zero + post] * _window(pre, post)
-    return _spectrum(window, pre, plan, latency, source)
-
-
-def _spectrum(window, pre, plan, latency, source) -> MeasuredResponse:
     n = _fft_size(max(len(window), round(plan.fs / _FINE_HZ)))
     f = np.fft.rfftfreq(n, 1 / plan.fs)
-    h = np.fft.rfft(window, n) * np.exp(2j * np.pi * f * pre / plan.fs) / plan.amplitude
-    lo, hi = plan.f1_hz * USABLE[0], plan.f2_hz * USABLE[1]
-    keep = (f >= lo) & (f <= hi)
-    h = h[keep]
-    return MeasuredResponse(f[keep], 20 * np.log10(np.maximum(np.abs(h), 1e-12)),
-                            np.degrees(np.angle(h)), int(latency), source)
+    h = np.fft.rfft(window, n) * np.exp(2j * np.pi * f * pre / plan.fs)
+    keep = (f >= plan.f1_hz * USABLE[0]) & (f <= plan.f2_hz * USABLE[1])
+    return f[keep], h[keep]
 
 
 def _pre_samples(plan: SweepPlan) -> int:
