@@ -36,7 +36,7 @@ COMMAND_MODULES = {
     "response": "circuit", "design": "circuit",
     "render": "sound", "demo": "demo",
     "sibilance": "speaker", "sweep": "speaker", "preset": "speaker",
-    "tolerance": "build", "sheet": "build",
+    "tolerance": "build", "sheet": "build", "measure": "measure",
 }
 
 

@@ -97,6 +97,8 @@ def deconvolve(recording: np.ndarray, plan: SweepPlan, *, source: str = "") -> M
     if start - pre < 0 or start + plan.sweep_frames > len(x):
         raise BadValueError(f"{source or 'recording'}: it ends before the sweep does; record the whole "
                             f"stimulus ({plan.total_frames / plan.fs:.1f} s) and the box's ring-out")
+    latency += _ir_offset(x[start - pre:], plan, pre)
+    start = plan.sweep_start + latency
     f, h = _windowed_spectrum(x[start - pre:], plan, pre)
     # the same steps on the stimulus itself: what the band limits and the window do to a
     # perfect wire, divided out (their ripple at the band's low end, mostly)
@@ -106,11 +108,28 @@ def deconvolve(recording: np.ndarray, plan: SweepPlan, *, source: str = "") -> M
                             int(latency), source)
 
 
-def _windowed_spectrum(segment, plan: SweepPlan, pre: int):
-    """Deconvolve, window the linear response around time zero, transform; keep the usable band."""
+def _impulse_response(segment, plan: SweepPlan, pre: int):
+    """The deconvolved response and the index of its time zero (the sweep started ``pre`` in)."""
     n = _fft_size(len(segment) + plan.sweep_frames)
     ir = np.fft.irfft(np.fft.rfft(segment, n) * np.fft.rfft(plan.inverse(), n), n)
-    zero = plan.sweep_frames - 1 + pre  # time zero of the linear response
+    return ir, plan.sweep_frames - 1 + pre
+
+
+def _ir_offset(segment, plan: SweepPlan, pre: int) -> int:
+    """How far the response's largest peak lies from where the marker put time zero, samples.
+
+    The marker's own path through the box (a notch across its band) can shift its
+    correlation peak by a few samples; a twin-T's impulse response peaks at its
+    direct path, so the peak is the better time zero (searched within +-pre/4).
+    """
+    ir, zero = _impulse_response(segment, plan, pre)
+    reach = max(pre // 4, 1)
+    return int(np.argmax(np.abs(ir[zero - reach:zero + reach + 1]))) - reach
+
+
+def _windowed_spectrum(segment, plan: SweepPlan, pre: int):
+    """Deconvolve, window the linear response around time zero, transform; keep the usable band."""
+    ir, zero = _impulse_response(segment, plan, pre)
     post = min(round(_IR_SECONDS * plan.fs), len(ir) - zero)
     window = ir[zero - pre:zero + post] * _window(pre, post)
     n = _fft_size(max(len(window), round(plan.fs / _FINE_HZ)))

@@ -31,6 +31,7 @@ __all__ = ["Diagnosis", "diagnose", "PAIR_GAIN", "FLOOR_DB", "DEPTH_FLOOR_DB", "
 
 PAIR_GAIN = 2.0
 FLOOR_DB = 0.02
+MISMATCH_DB = 0.5  # a misfit above this means the model is not the circuit measured
 DEPTH_FLOOR_DB = 50.0
 FULL_WEIGHT_DB = 20.0
 _POINTS = 160
@@ -65,8 +66,12 @@ class Diagnosis:
     alternatives: tuple = ()
 
     def text(self) -> str:
+        if not self.parts_off and self.rms_db > MISMATCH_DB:
+            return (f"no one or two parts within tolerance explain the measurement ({self.rms_db:.2f} dB RMS "
+                    "left): check the wiring, the source and load, the depth setting, and that the model "
+                    "given is the circuit built")
         if not self.parts_off:
-            return (f"the build matches the model within {self.rms_db:.2f} dB RMS: no part stands out")
+            return (f"the build matches the model within {self.rms_db:.3f} dB RMS: no part stands out")
         said = "; ".join(f"{name.upper()} reads about {abs(100 * e):.0f} % {'high' if e > 0 else 'low'}"
                          for name, e in self.parts_off.items())
         text = (f"{said}; set the R3 trimmer to {format_value(self.trim_r3_ohms, 'resistance')} "
