@@ -102,6 +102,7 @@ class RealBoxProcessor:
         self._step = self.opamp.slew_v_per_s / self._fs / self.volts_per_unit
         self.reset_stages()
         self._fir = None if self.noise_density is None else self._noise_fir()
+        self._fir_spectra = {}
 
     def reset_stages(self) -> None:
         """Clear the stages' state, the counters and the noise generator."""
@@ -140,21 +141,17 @@ class RealBoxProcessor:
         f_hz = np.fft.rfftfreq(NOISE_TAPS, 1 / self._fs)
         density = self.noise_density(np.maximum(f_hz, _LOWEST_NOISE_HZ))
         gain = density * math.sqrt(self._fs / 2) / self.volts_per_unit
-        fir = np.roll(np.fft.irfft(gain, NOISE_TAPS), NOISE_TAPS // 2) * np.hanning(NOISE_TAPS)
-        return np.fft.rfft(fir, _fft_size(NOISE_TAPS))
+        return np.roll(np.fft.irfft(gain, NOISE_TAPS), NOISE_TAPS // 2) * np.hanning(NOISE_TAPS)
 
     def _noise(self, frames: int) -> np.ndarray:
         white = np.concatenate([self._white_tail, self._rng.standard_normal((frames, self._channels))])
         self._white_tail = white[frames:]
         n = _fft_size(len(white))
         spectrum = np.fft.rfft(white, n, axis=0)
-        fir = self._fir if len(self._fir) == n // 2 + 1 else self._resized_fir(n)
-        self._fir = fir
+        if n not in self._fir_spectra:
+            self._fir_spectra[n] = np.fft.rfft(self._fir, n)
+        fir = self._fir_spectra[n]
         return np.fft.irfft(spectrum * fir[:, None], n, axis=0)[NOISE_TAPS - 1:NOISE_TAPS - 1 + frames]
-
-    def _resized_fir(self, n: int) -> np.ndarray:
-        fir = np.fft.irfft(self._fir, _fft_size(NOISE_TAPS))[:NOISE_TAPS]
-        return np.fft.rfft(fir, n)
 
 
 def _fft_size(n: int) -> int:
