@@ -9,6 +9,8 @@ import numpy as np
 
 from emulate.errors import BadValueError
 
+__all__ = ["check_range", "check_count"]
+
 
 def check_range(what: str, value, low: float, high: float, *,
                 low_open: bool = False, high_open: bool = False) -> None:
@@ -29,7 +31,8 @@ def check_range(what: str, value, low: float, high: float, *,
     above = array >= high if high_open else array > high
     if np.any(np.isnan(array)) or np.any(below) or np.any(above):
         left, right = "(" if low_open else "[", ")" if high_open else "]"
-        raise BadValueError(f"{what} {value!r}: allowed {left}{low:g}, {high:g}{right}")
+        raise BadValueError(f"{what} {value!r}: allowed {left}{low:g}, {high:g}{right}",
+                            what=what, value=value, allowed=(low, high))
 
 
 def check_count(what: str, value, low: int = 1, high: float = math.inf) -> int:
@@ -68,5 +71,6 @@ def check_count(what: str, value, low: int = 1, high: float = math.inf) -> int:
              and math.isfinite(value) and value % 1 == 0)
     if not whole or not low <= value <= high:
         allowed = f"from {low} to {high}" if math.isfinite(high) else f">= {low}"
-        raise BadValueError(f"{what} {value!r}: allowed a whole number {allowed}")
+        raise BadValueError(f"{what} {value!r}: allowed a whole number {allowed}",
+                            what=what, value=value, allowed=(low, high))
     return int(value)

@@ -9,8 +9,6 @@ from __future__ import annotations
 
 import functools
 import importlib
-import json
-import math
 import warnings
 
 import click
@@ -150,17 +148,11 @@ def json_option(command):
 
 def emit(as_json: bool, payload: dict, text: str) -> None:
     """Print ``text``, or ``payload`` as strict JSON (non-finite numbers become null)."""
-    click.echo(json.dumps(_finite_json(payload), indent=2, allow_nan=False, default=str) if as_json else text)
+    if as_json:
+        from emulate.report.summary import json_text
 
-
-def _finite_json(value):
-    if isinstance(value, float):
-        return value if math.isfinite(value) else None
-    if isinstance(value, dict):
-        return {key: _finite_json(item) for key, item in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_finite_json(item) for item in value]
-    return value
+        text = json_text(payload)
+    click.echo(text)
 
 
 def run_quietly(function):

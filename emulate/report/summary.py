@@ -5,6 +5,7 @@ Only formatting lives here: every number comes from the analysis modules.
 
 from __future__ import annotations
 
+import json
 import math
 
 import numpy as np
@@ -16,6 +17,31 @@ from emulate.analog.response import db
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
 IDEAL_NULL_DB = -200.0  # deeper than this is an exact null in floating point
+
+
+def finite_or_null(value):
+    """``value`` with every non-finite float (nan, +-inf) made ``None``, recursively.
+
+    JSON has no nan or inf; an open load or an exact null gives them, so they are
+    written as null (``json_text``), never as invalid JSON.
+
+    Example
+    -------
+    >>> finite_or_null({"depth_db": float("-inf"), "rows": [1.0, float("nan")]})
+    {'depth_db': None, 'rows': [1.0, None]}
+    """
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {key: finite_or_null(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [finite_or_null(item) for item in value]
+    return value
+
+
+def json_text(payload) -> str:
+    """The one JSON writer: indented, non-finite numbers as null, other objects as text."""
+    return json.dumps(finite_or_null(payload), indent=2, allow_nan=False, default=str)
 
 
 def network_line(network) -> str:

@@ -42,6 +42,7 @@ from emulate.voice import speech
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.response import measure
+from emulate.report.summary import json_text
 from emulate.validate import check_count, check_range
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
@@ -359,5 +360,5 @@ def write_summary(result: SweepResult, out_dir) -> tuple[Path, Path]:
     out_dir = Path(out_dir)
     csv_path, json_path = out_dir / "summary.csv", out_dir / "summary.json"
     files.write_text(csv_path, rows_as_csv(result.rows))
-    files.write_text(json_path, json.dumps(result.as_dict(), indent=2, allow_nan=False, default=str))
+    files.write_text(json_path, json_text(result.as_dict()))
     return csv_path, json_path
