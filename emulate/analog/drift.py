@@ -168,8 +168,8 @@ def temperature_drift(network, range_c=(0.0, 50.0), *, resistor_type: str = "met
     -------
     >>> from emulate.analog.networks import TwinT
     >>> d = temperature_drift(TwinT.balanced(1000.0, r_ohms=10e3), (0, 50), capacitor_type="polyester")
-    >>> round(d.nominal_notch_hz[1] / d.notch_hz, 4)
-    0.99
+    >>> round(d.nominal_notch_hz[1] / d.notch_hz, 4)  # 1 / (1 + 400e-6 * 25)
+    0.9901
     """
     types = {"resistor": (resistor_type, RESISTOR_TYPES), "capacitor": (capacitor_type, CAPACITOR_TYPES)}
     for what, (name, allowed) in types.items():

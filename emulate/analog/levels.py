@@ -137,7 +137,7 @@ def level_plan(network, opamp: OpAmp, level_dbu: float, *, band_hz=AUDIO_BAND_HZ
     >>> from emulate.analog.opamp import OpAmp
     >>> plan = level_plan(TwinT.balanced(1000.0, r_ohms=10e3), OpAmp.parse("jfet"), 4.0)
     >>> plan.limiting.node, round(plan.headroom_db, 1)
-    ('src', 18.8)
+    ('src', 17.8)
     """
     check_range("level (dBu)", level_dbu, -60.0, 40.0)
     network = network.replace(opamp=opamp)

@@ -143,7 +143,7 @@ def output_noise(network, opamp: OpAmp | None, *, kelvin: float = ROOM_KELVIN,
     >>> from emulate.analog.networks import TwinT
     >>> report = output_noise(TwinT.balanced(1000.0, r_ohms=10e3), None)
     >>> round(report.dbu_a, 1)
-    -118.7
+    -122.1
     """
     network = network.replace(opamp=opamp)
     circuit, output = network.circuit()

@@ -59,8 +59,8 @@ def volts_rms_to_dbu(volts) -> np.ndarray | float:
 
     Example
     -------
-    >>> round(volts_rms_to_dbu(0.7746), 2)
-    -0.0
+    >>> round(volts_rms_to_dbu(1.2277), 2)
+    4.0
     """
     value = 20 * np.log10(np.maximum(np.asarray(volts, float), 1e-300) / DBU_REFERENCE_V)
     return value if np.ndim(value) else float(value)

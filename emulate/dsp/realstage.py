@@ -44,7 +44,7 @@ def volts_per_unit(full_scale_dbu: float) -> float:
     Example
     -------
     >>> round(volts_per_unit(22.0), 3)
-    13.818
+    13.791
     """
     return math.sqrt(2) * dbu_to_volts_rms(full_scale_dbu)
 

@@ -139,14 +139,14 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diag
 
 
 def _fit_data(measured):
-    """Fit frequencies, the measurement there (power-averaged over +-1/96 octave), and weights.
+    """Fit frequencies, the measurement there (interpolated in log frequency), and weights.
 
     The weights fall below ``FULL_WEIGHT_DB`` under the peak in proportion to
     the gain, as the noise in a dB reading grows there in inverse proportion.
     """
     band = measured.band_hz
     f = np.geomspace(band[0], band[1], _POINTS)
-    target = _smoothed(measured, f)
+    target = measured.on(f)
     keep = target >= np.max(target) - DEPTH_FLOOR_DB
     if keep.sum() < 20:
         raise BadValueError(f"the measurement holds {keep.sum()} usable points: allowed at least 20 "
@@ -154,15 +154,6 @@ def _fit_data(measured):
     below = np.max(target) - target[keep]
     weight = 10 ** (-np.maximum(below - FULL_WEIGHT_DB, 0.0) / 20)
     return f[keep], target[keep], weight
-
-
-def _smoothed(measured, f) -> np.ndarray:
-    power = np.concatenate([[0.0], np.cumsum(10 ** (measured.gain_db / 10))])
-    lo = np.searchsorted(measured.f_hz, f * 2 ** (-1 / 96))
-    hi = np.searchsorted(measured.f_hz, f * 2 ** (1 / 96))
-    count = hi - lo
-    mean = (power[hi] - power[lo]) / np.maximum(count, 1)
-    return np.where(count > 0, 10 * np.log10(np.maximum(mean, 1e-30)), measured.on(f))
 
 
 def _choose(nominal_rms: float, ranking) -> tuple:
