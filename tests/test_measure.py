@@ -1,8 +1,8 @@
-"""Tests of emulate.measure: stimulus, deconvolution, CSV input, band metrics, the part fit.
+"""Tests of emulate.measuring: stimulus, deconvolution, CSV input, band metrics, the part fit.
 
 References: Farina's exponential sweep and inverse filter (AES 108th Convention,
 preprint 5093, 2000): the instantaneous frequency f1 exp(t/L), L = T/ln(f2/f1);
-synthetic builds through the exact analog response (emulate.measure.synthetic);
+synthetic builds through the exact analog response (emulate.measuring.synthetic);
 the twin-T null condition R1 R2 C3 = R3 (R1+R2)(C1+C2) (derived in test_networks.py).
 The issue's targets: response within 0.2 dB where above -40 dB, notch within 0.5 %,
 the perturbed part(s) named in at least 9 of 10 cases (the full table is in
@@ -16,10 +16,10 @@ import pytest
 
 from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.errors import AudioFileError, BadValueError
-from emulate.measure.analyse import band_metrics, deconvolve, read_csv
-from emulate.measure.fit import diagnose
-from emulate.measure.stimulus import SweepPlan
-from emulate.measure.synthetic import perturbed, synthetic_recording
+from emulate.measuring.analyse import band_metrics, deconvolve, read_csv
+from emulate.measuring.fit import diagnose
+from emulate.measuring.stimulus import SweepPlan
+from emulate.measuring.synthetic import perturbed, synthetic_recording
 
 PLAN = SweepPlan(48000.0, seconds=2.0)
 PASSIVE = TwinT.balanced(4800.0, r_ohms=3300.0, source_ohms=47.0)

@@ -1,7 +1,7 @@
 """The real-box options and the measure commands as a user meets them (CliRunner).
 
 References: the level plan's peak of a sine is sqrt(2) V_rms (by definition); the
-sweep layout of emulate.measure.stimulus; the issue's cautions (hearing).
+sweep layout of emulate.measuring.stimulus; the issue's cautions (hearing).
 """
 
 import json
@@ -12,8 +12,8 @@ import soundfile as sf
 from click.testing import CliRunner
 
 from emulate.cli import main
-from emulate.measure.stimulus import SweepPlan
-from emulate.measure.synthetic import synthetic_recording
+from emulate.measuring.stimulus import SweepPlan
+from emulate.measuring.synthetic import synthetic_recording
 from emulate.analog.networks import TwinT
 
 BALANCED = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n", "--c2", "10n", "--c3", "20n"]

@@ -29,7 +29,7 @@ def sweep_options(command):
 
 def _plan(fs, f1_hz, f2_hz, seconds, level_dbfs=None):
     from emulate.analog.parts import parse_value
-    from emulate.measure.stimulus import DEFAULT_LEVEL_DBFS, SweepPlan
+    from emulate.measuring.stimulus import DEFAULT_LEVEL_DBFS, SweepPlan
 
     level = DEFAULT_LEVEL_DBFS if level_dbfs is None else level_dbfs
     return SweepPlan(float(fs), parse_value(f1_hz), parse_value(f2_hz), seconds, level)
@@ -80,7 +80,7 @@ def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path
     """Analyse RECORDING (a WAV of the stimulus through the box, or a CSV: Hz, dB[, deg]) against the model."""
     from emulate.analog.tolerance import Tolerances
     from emulate.analog.networks import PART_NAMES
-    from emulate.measure import analyse as analysis, fit
+    from emulate.measuring import analyse as analysis, fit
 
     network = network_from_options(options)
     measured = _measured(recording, f1_hz, f2_hz, seconds, analysis)

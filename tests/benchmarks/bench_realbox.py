@@ -35,10 +35,10 @@ import numpy as np
 from emulate.analog import levels, noise, spec
 from emulate.analog.networks import PART_NAMES
 from emulate.analog.opamp import CLASSES, OpAmp
-from emulate.measure.analyse import band_metrics, deconvolve
-from emulate.measure.fit import diagnose
-from emulate.measure.stimulus import SweepPlan
-from emulate.measure.synthetic import perturbed, synthetic_recording
+from emulate.measuring.analyse import band_metrics, deconvolve
+from emulate.measuring.fit import diagnose
+from emulate.measuring.stimulus import SweepPlan
+from emulate.measuring.synthetic import perturbed, synthetic_recording
 
 ROOT = Path(__file__).resolve().parents[2]
 PRESETS = ("orrin-passive", "tamsin-active")

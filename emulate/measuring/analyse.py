@@ -5,7 +5,7 @@ Deconvolution, top to bottom (A. Farina, AES 108th Convention, preprint 5093, 20
 1. sync      find the marker by cross-correlation: the loop latency in samples
              (any latency up to the recording's length);
 2. convolve  the recording from the sweep's start with the inverse filter
-             (:meth:`emulate.measure.stimulus.SweepPlan.inverse`), by FFT;
+             (:meth:`emulate.measuring.stimulus.SweepPlan.inverse`), by FFT;
 3. window    the linear impulse response around time zero, half-Hann faded at
              both ends, clear of the harmonic responses at negative times;
 4. transform its spectrum, zero-padded to a fine frequency grid;
@@ -33,7 +33,7 @@ from pathlib import Path
 import numpy as np
 
 from emulate.errors import AudioFileError, BadValueError
-from emulate.measure.stimulus import SweepPlan
+from emulate.measuring.stimulus import SweepPlan
 
 __all__ = ["MeasuredResponse", "deconvolve", "read_csv", "band_metrics", "BandMetrics", "USABLE",
            "POINTS_PER_OCTAVE"]

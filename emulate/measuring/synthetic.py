@@ -1,7 +1,7 @@
 """Synthetic builds: the stimulus played through a model of a box with known faults.
 
 For the tests, the benchmark and anyone checking the analysis before a real
-measurement: the stimulus of a :class:`~emulate.measure.stimulus.SweepPlan` is
+measurement: the stimulus of a :class:`~emulate.measuring.stimulus.SweepPlan` is
 played through a network (parts as built), then delayed by a latency, scaled by
 a gain, and white Gaussian noise is added.
 
@@ -58,7 +58,7 @@ def synthetic_recording(plan, network, *, latency_samples: int = 0, gain_db: flo
     Example
     -------
     >>> from emulate.analog.networks import TwinT
-    >>> from emulate.measure.stimulus import SweepPlan
+    >>> from emulate.measuring.stimulus import SweepPlan
     >>> plan = SweepPlan(48000.0, seconds=1.0)
     >>> len(synthetic_recording(plan, TwinT.balanced(1000.0, r_ohms=10e3), latency_samples=100)) - plan.total_frames
     100

@@ -97,7 +97,7 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diag
     network : TwinT
         The model of the build (nominal values, source, load, depth control as built).
     measured : MeasuredResponse
-        The measurement (:mod:`emulate.measure.analyse`).
+        The measurement (:mod:`emulate.measuring.analyse`).
     tolerances : dict
         Part name (``"r1"`` .. ``"c3"``) -> tolerance fraction; a fit stays within it.
     max_parts : int
@@ -111,7 +111,7 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diag
     Example
     -------
     >>> from emulate.analog.networks import TwinT
-    >>> from emulate.measure.analyse import MeasuredResponse
+    >>> from emulate.measuring.analyse import MeasuredResponse
     >>> net = TwinT.balanced(1000.0, r_ohms=10e3)
     >>> f = np.geomspace(50, 15000, 400)
     >>> built = net.replace(c3=net.c3 * 1.04)
