@@ -9,8 +9,13 @@ from __future__ import annotations
 
 import pytest
 
-from emulate.analog.drift import (TEMPCOS, dielectric_warnings, parse_temperature_range, temperature_drift,
-                                  x7r_voltage_shift)
+from emulate.analog.drift import (
+    TEMPCOS,
+    dielectric_warnings,
+    parse_temperature_range,
+    temperature_drift,
+    x7r_voltage_shift,
+)
 from emulate.analog.networks import TwinT
 from emulate.errors import BadValueError
 

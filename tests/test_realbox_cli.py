@@ -11,10 +11,10 @@ import pytest
 import soundfile as sf
 from click.testing import CliRunner
 
+from emulate.analog.networks import TwinT
 from emulate.cli import main
 from emulate.measuring.stimulus import SweepPlan
 from emulate.measuring.synthetic import synthetic_recording
-from emulate.analog.networks import TwinT
 
 BALANCED = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "10n", "--c2", "10n", "--c3", "20n"]
 ACTIVE = BALANCED + ["--bootstrap", "0.75"]

@@ -90,7 +90,7 @@ class TestAudioBandZpk:
     def test_far_pole_folded(self):
         # 1 - s/r at |s| << |r| is about 1: the reduced and the full responses agree in the band
         z, p, k = [], [-2e3, -2 * np.pi * 5e6], 2 * np.pi * 5e6 * 2e3
-        zr, pr, kr = audio_band_zpk(z, p, k)
+        _, pr, kr = audio_band_zpk(z, p, k)
         s = 2j * np.pi * np.geomspace(20, 20e3, 20)
         full = k / ((s - p[0]) * (s - p[1]))
         reduced = kr / (s - pr[0])

@@ -39,8 +39,18 @@ from emulate.analog.networks import PART_NAMES, part_kind
 from emulate.analog.response import measure_batch
 from emulate.errors import BadValueError
 
-__all__ = ["Tempco", "TEMPCOS", "RESISTOR_TYPES", "CAPACITOR_TYPES", "DriftResult", "temperature_drift",
-           "parse_temperature_range", "dielectric_warnings", "x7r_voltage_shift", "REFERENCE_C"]
+__all__ = [
+    "CAPACITOR_TYPES",
+    "REFERENCE_C",
+    "RESISTOR_TYPES",
+    "TEMPCOS",
+    "DriftResult",
+    "Tempco",
+    "dielectric_warnings",
+    "parse_temperature_range",
+    "temperature_drift",
+    "x7r_voltage_shift",
+]
 
 REFERENCE_C = 25.0
 X7R_LOSS_AT_RATED = 0.3  # typical capacitance loss at rated DC voltage (from memory: 10-50 %)

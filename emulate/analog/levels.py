@@ -26,8 +26,15 @@ from emulate.analog.response import AUDIO_BAND_HZ
 from emulate.errors import BadValueError, EmulateWarning
 from emulate.validate import check_range
 
-__all__ = ["StageLevel", "LevelPlan", "level_plan", "warn_plan", "full_scale_dbu", "ALIGNMENT_BELOW_FS_DB",
-           "INNER_NODES"]
+__all__ = [
+    "ALIGNMENT_BELOW_FS_DB",
+    "INNER_NODES",
+    "LevelPlan",
+    "StageLevel",
+    "full_scale_dbu",
+    "level_plan",
+    "warn_plan",
+]
 
 ALIGNMENT_BELOW_FS_DB = 18.0  # EBU R68: alignment level -18 dBFS (from memory)
 INNER_NODES = {"rc": "R-R-C junction", "cr": "C-C-R junction", "net": "network output"}
@@ -173,6 +180,10 @@ def warn_plan(plan: LevelPlan) -> list[EmulateWarning]:
     if plan.headroom_db >= 0:
         return []
     s = plan.limiting
-    return [EmulateWarning(f"{s.node} ({s.role}) clips at {plan.level_dbu:+.1f} dBu: {s.peak_v:.2f} V peak at "
-                           f"{s.worst_hz:.0f} Hz against {plan.opamp.peak_v:.2f} V swing "
-                           f"({plan.headroom_db:+.1f} dB)")]
+    if s.headroom_db <= s.slew_headroom_db:
+        return [EmulateWarning(f"{s.node} ({s.role}) clips at {plan.level_dbu:+.1f} dBu: {s.peak_v:.2f} V peak "
+                               f"at {s.worst_hz:.0f} Hz against {plan.opamp.peak_v:.2f} V swing "
+                               f"({plan.headroom_db:+.1f} dB)")]
+    return [EmulateWarning(f"{s.node} ({s.role}) slew-limits at {plan.level_dbu:+.1f} dBu: it needs "
+                           f"{-s.slew_headroom_db:.1f} dB more than the {plan.opamp.slew_v_per_s / 1e6:g} V/us "
+                           "it has at the top of the band; choose a faster op-amp class")]

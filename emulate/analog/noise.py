@@ -33,8 +33,15 @@ from emulate.analog.circuit import SOURCE
 from emulate.analog.opamp import OpAmp, volts_rms_to_dbu
 from emulate.analog.response import AUDIO_BAND_HZ
 
-__all__ = ["BOLTZMANN", "ROOM_KELVIN", "a_weighting", "NoiseReport", "output_noise", "circuit_noise_power",
-           "resistor_names"]
+__all__ = [
+    "BOLTZMANN",
+    "ROOM_KELVIN",
+    "NoiseReport",
+    "a_weighting",
+    "circuit_noise_power",
+    "output_noise",
+    "resistor_names",
+]
 
 BOLTZMANN = 1.380649e-23  # J/K, exact in the 2019 SI
 ROOM_KELVIN = 298.15  # 25 C

@@ -37,7 +37,7 @@ from emulate.analog.parts import parse_value
 from emulate.errors import BadValueError
 from emulate.validate import check_range
 
-__all__ = ["OpAmp", "CLASSES", "DEFAULT_CLASS", "dbu_to_volts_rms", "volts_rms_to_dbu"]
+__all__ = ["CLASSES", "DEFAULT_CLASS", "OpAmp", "dbu_to_volts_rms", "volts_rms_to_dbu"]
 
 DBU_REFERENCE_V = math.sqrt(0.6)  # 0 dBu: 0.7746 V rms (1 mW in 600 ohms)
 
@@ -171,7 +171,7 @@ class OpAmp:
 
     # --- parsing -------------------------------------------------------------------
     @classmethod
-    def parse(cls, text: str) -> "OpAmp":
+    def parse(cls, text: str) -> OpAmp:
         """A class name, optionally followed by ``,key=value`` overrides.
 
         Keys: ``gbw`` (Hz), ``a0`` (V/V, or dB with a ``dB`` suffix), ``slew``

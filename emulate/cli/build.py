@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import click
 
-from emulate.report import plots, sheet
 from emulate.analog import spec, tolerance
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options
 from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
+from emulate.report import plots, sheet
 
 
 def tolerance_options(command):

@@ -78,9 +78,10 @@ def stimulus(out_path, rate, f1_hz, f2_hz, seconds, level_dbfs, subtype, force, 
 @run_quietly
 def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path, as_json, **options):
     """Analyse RECORDING (a WAV of the stimulus through the box, or a CSV: Hz, dB[, deg]) against the model."""
-    from emulate.analog.tolerance import Tolerances
     from emulate.analog.networks import PART_NAMES
-    from emulate.measuring import analyse as analysis, fit
+    from emulate.analog.tolerance import Tolerances
+    from emulate.measuring import analyse as analysis
+    from emulate.measuring import fit
 
     network = network_from_options(options)
     measured = _measured(recording, f1_hz, f2_hz, seconds, analysis)

@@ -13,8 +13,15 @@ import click
 
 from emulate.analog.opamp import CLASSES, DEFAULT_CLASS, OpAmp
 
-__all__ = ["realbox_options", "opamp_from_options", "real_network", "wants_levels", "plan_level_dbu", "realbox_report",
-           "HEARING_CAUTION"]
+__all__ = [
+    "HEARING_CAUTION",
+    "opamp_from_options",
+    "plan_level_dbu",
+    "real_network",
+    "realbox_options",
+    "realbox_report",
+    "wants_levels",
+]
 
 HEARING_CAUTION = ("protect your hearing: start monitoring low; a take rendered at a studio level "
                    "with --with-noise or clipping can be loud")

@@ -4,12 +4,12 @@ from __future__ import annotations
 
 import click
 
-from emulate.audio import stream as audio
-from emulate.dsp import emulation
 from emulate.analog import spec
-from emulate.report import summary
+from emulate.audio import stream as audio
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
 from emulate.cli.realbox import HEARING_CAUTION, real_network, realbox_options, wants_levels
+from emulate.dsp import emulation
+from emulate.report import summary
 
 
 @main.command()
@@ -60,8 +60,8 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
     if plot_path:
-        from emulate.report import plots
         from emulate.analog.response import measure
+        from emulate.report import plots
 
         (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
         text += f"\n  wrote {plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz)}"
@@ -70,14 +70,15 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
 
 def _real_box(processor, network, options, with_noise: bool, seed: int):
     """The emulation inside the real stage's rails and slew rate (and its noise)."""
+    import numpy as np
+
     from emulate.analog import levels, noise
     from emulate.dsp.realstage import RealBoxProcessor
-    import numpy as np
 
     density = None
     if with_noise:
         hiss = noise.output_noise(network, network.opamp)
-        density = lambda f_hz: np.interp(f_hz, hiss.f_hz, hiss.total)  # noqa: E731 (flat beyond the band)
+        density = lambda f_hz: np.interp(f_hz, hiss.f_hz, hiss.total)
     full = levels.full_scale_dbu(options.get("level_dbu"), options.get("full_scale_dbu"))
     return RealBoxProcessor(processor, network.opamp, full, noise_density=density, seed=seed)
 

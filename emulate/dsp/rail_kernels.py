@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np  # noqa: F401  (the docstring example uses it)
 from numba import njit
 
-__all__ = ["rail_stage", "HIT_RAIL", "HIT_SLEW"]
+__all__ = ["HIT_RAIL", "HIT_SLEW", "rail_stage"]
 
 # Layout of the hit counter array (int64[2]).
 HIT_RAIL = 0

@@ -32,7 +32,7 @@ from emulate.analog.opamp import OpAmp, dbu_to_volts_rms
 from emulate.dsp import rail_kernels
 from emulate.validate import check_count
 
-__all__ = ["RealBoxProcessor", "volts_per_unit", "NOISE_TAPS"]
+__all__ = ["NOISE_TAPS", "RealBoxProcessor", "volts_per_unit"]
 
 NOISE_TAPS = 4096
 _LOWEST_NOISE_HZ = 20.0  # the density is held flat below this (its 1/f part would not converge)

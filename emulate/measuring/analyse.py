@@ -34,9 +34,17 @@ import numpy as np
 
 from emulate.errors import AudioFileError, BadValueError
 from emulate.measuring.stimulus import SweepPlan
+from emulate.measuring.stimulus import fft_size as _fft_size
 
-__all__ = ["MeasuredResponse", "deconvolve", "read_csv", "band_metrics", "BandMetrics", "USABLE",
-           "POINTS_PER_OCTAVE"]
+__all__ = [
+    "POINTS_PER_OCTAVE",
+    "USABLE",
+    "BandMetrics",
+    "MeasuredResponse",
+    "band_metrics",
+    "deconvolve",
+    "read_csv",
+]
 
 USABLE = (2.0, 1 / 1.25)  # keep f1*2 .. f2/1.25: the sweep's fades leave its ends short of energy
 POINTS_PER_OCTAVE = 96
@@ -292,6 +300,3 @@ def _crossing(f, g, level) -> float:
     t = (level - g[j - 1]) / (g[j] - g[j - 1])
     return float(np.exp(np.log(f[j - 1]) + t * (np.log(f[j]) - np.log(f[j - 1]))))
 
-
-def _fft_size(n: int) -> int:
-    return 1 << max(int(n - 1).bit_length(), 1)

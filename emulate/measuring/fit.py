@@ -18,16 +18,15 @@ network too: at the null the output, and so the foot, is at rest).
 from __future__ import annotations
 
 import itertools
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from emulate.analog.networks import PART_NAMES, part_kind
+from emulate.analog.networks import PART_NAMES
 from emulate.analog.parts import format_value
 from emulate.errors import BadValueError
 
-__all__ = ["Diagnosis", "diagnose", "PAIR_GAIN", "FLOOR_DB", "DEPTH_FLOOR_DB", "FULL_WEIGHT_DB"]
+__all__ = ["DEPTH_FLOOR_DB", "FLOOR_DB", "FULL_WEIGHT_DB", "PAIR_GAIN", "Diagnosis", "diagnose"]
 
 PAIR_GAIN = 2.0
 FLOOR_DB = 0.02

@@ -31,7 +31,7 @@ import numpy as np
 from emulate.errors import BadValueError
 from emulate.validate import check_range
 
-__all__ = ["SweepPlan", "DEFAULT_LEVEL_DBFS", "MARKER_HZ"]
+__all__ = ["DEFAULT_LEVEL_DBFS", "MARKER_HZ", "SweepPlan", "fft_size"]
 
 DEFAULT_LEVEL_DBFS = -18.0
 LEAD_S, MARKER_S, GAP_S, FADE_S, TAIL_S = 0.25, 0.03, 0.5, 0.01, 1.0
@@ -137,7 +137,7 @@ class SweepPlan:
         """
         t = np.arange(self.sweep_frames) / self.fs
         inverse = self.sweep()[::-1] * np.exp(-t / self.rate_l)
-        n = _fft_size(2 * self.sweep_frames)
+        n = fft_size(2 * self.sweep_frames)
         centre = math.sqrt(self.f1_hz * self.f2_hz)
         k = round(centre * n / self.fs)
         gain = np.abs(np.fft.rfft(self.sweep(), n)[k] * np.fft.rfft(inverse, n)[k])
@@ -157,5 +157,12 @@ def _fades(frames: int, fade: int) -> np.ndarray:
     return envelope
 
 
-def _fft_size(n: int) -> int:
+def fft_size(n: int) -> int:
+    """The smallest power of two >= ``n`` (at least 2).
+
+    Example
+    -------
+    >>> fft_size(1000)
+    1024
+    """
     return 1 << max(int(n - 1).bit_length(), 1)

@@ -21,7 +21,7 @@ from emulate.dsp.emulation import processor_for
 from emulate.errors import BadValueError
 from emulate.validate import check_count, check_range
 
-__all__ = ["synthetic_recording", "perturbed"]
+__all__ = ["perturbed", "synthetic_recording"]
 
 
 def perturbed(network, errors: dict):
