@@ -7,7 +7,7 @@ import os
 
 import click
 
-from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, run_quietly
+from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
 from emulate.errors import BadValueError
 
 HEARING = ("protect your hearing: the sweep climbs to 20 kHz at a steady level; keep monitors low or off "
@@ -86,7 +86,9 @@ def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path
     network = network_from_options(options)
     measured = _measured(recording, f1_hz, f2_hz, seconds, analysis)
     tolerances = dict(zip(PART_NAMES, Tolerances.parse(r_tol, c_tol).fractions().tolist()))
-    diagnosis = fit.diagnose(network, measured, tolerances, max_parts=max_parts)
+    sets = 6 if max_parts == 1 else 21  # every one part, and every pair, of six
+    with progress(sets, "fitting part values") as bar:
+        diagnosis = fit.diagnose(network, measured, tolerances, max_parts=max_parts, progress=bar.update)
     payload, text = _compare(network, measured, diagnosis, analysis)
     if plot_path:
         text += f"\n  wrote {_plot(network, measured, diagnosis, plot_path)}"

@@ -88,7 +88,7 @@ class Diagnosis:
                 "ranking": [{"parts": [p.upper() for p in parts], "rms_db": r} for parts, r in self.ranking[:6]]}
 
 
-def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diagnosis:
+def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2, progress=None) -> Diagnosis:
     """Fit one or two part values of ``network`` to ``measured`` and name the likely culprit(s).
 
     Parameters
@@ -101,6 +101,8 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diag
         Part name (``"r1"`` .. ``"c3"``) -> tolerance fraction; a fit stays within it.
     max_parts : int
         1 or 2: the largest set of parts moved together.
+    progress : callable or None
+        Called with 1 after each set of parts is fitted (a progress bar's ``update``).
 
     Raises
     ------
@@ -125,8 +127,12 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2) -> Diag
             raise BadValueError(f"tolerance of {name.upper()} {tolerances.get(name)!r}: allowed (0, 1)")
     model = _Model(network, f, target, weight, tolerances)
     nominal = model.fit(())
-    fits = {parts: model.fit(parts) for size in range(1, max_parts + 1)
-            for parts in itertools.combinations(PART_NAMES, size)}
+    fits = {}
+    for size in range(1, max_parts + 1):
+        for parts in itertools.combinations(PART_NAMES, size):
+            fits[parts] = model.fit(parts)
+            if progress is not None:
+                progress(1)
     ranking = sorted(((parts, fit[1]) for parts, fit in fits.items()), key=lambda item: item[1])
     parts = _choose(nominal[1], ranking)
     errors, rms = (fits[parts][0], fits[parts][1]) if parts else ({}, nominal[1])
