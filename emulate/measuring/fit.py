@@ -29,7 +29,7 @@ from emulate.errors import BadValueError
 __all__ = ["DEPTH_FLOOR_DB", "FLOOR_DB", "FULL_WEIGHT_DB", "PAIR_GAIN", "Diagnosis", "diagnose"]
 
 PAIR_GAIN = 2.0
-FLOOR_DB = 0.02
+FLOOR_DB = 0.005  # dB RMS: below this two fits are equally good (noise of a -80 dBFS floor)
 MISMATCH_DB = 0.5  # a misfit above this means the model is not the circuit measured
 DEPTH_FLOOR_DB = 50.0
 FULL_WEIGHT_DB = 20.0
