@@ -89,6 +89,21 @@ class Circuit:
         """Add an ideal buffer: ``V(out) = gain * V(inp)``, infinite input impedance."""
         self.vcvs(out, GROUND, inp, GROUND, gain)
 
+    def opamp(self, plus: str, minus: str, out: str, a0, gbw_hz) -> None:
+        """Add a single-pole op-amp: ``V(out) = A(s) (V(plus) - V(minus))``, ``A(s) = A0 / (1 + s/w_p)``.
+
+        ``gbw_hz = A0 * w_p / (2 pi)`` is the gain-bandwidth product. The inputs
+        draw no current and the output is stiff; the pole is held on an internal
+        node ``out + "#pole"`` whose state is ``V(out) / A0``.
+        """
+        a0 = _positive(a0, "open-loop gain")
+        gbw_hz = _positive(gbw_hz, "gain-bandwidth (Hz)")
+        self.elements.append(_Element("A", (plus, minus, out, out + "#pole"), (a0, gbw_hz)))
+
+    def opamp_follower(self, inp: str, out: str, a0, gbw_hz) -> None:
+        """Add a unity-gain follower made of a single-pole op-amp: ``A/(1+A)`` from ``inp`` to ``out``."""
+        self.opamp(inp, out, out, a0, gbw_hz)
+
     def potentiometer(self, end_a: str, end_b: str, wiper: str, ohms, position) -> None:
         """Add a linear potentiometer of track ``ohms`` with its wiper at ``position``.
 
@@ -108,6 +123,10 @@ class Circuit:
     def matrices(self, output: str):
         """Return MNA ``(G, C, b, l)``; ``G`` and ``C`` have shape ``(builds, n, n)``."""
         return _Assembly(self).matrices(output)
+
+    def node_rows(self) -> dict[str, int]:
+        """Row of each node (and op-amp pole node) in the matrices of :meth:`matrices`."""
+        return dict(_Assembly(self).index)
 
     def compile(self, output: str) -> "Compiled":
         """The MNA matrices for ``output``, stamped once, ready to evaluate many times."""
@@ -174,6 +193,20 @@ class Compiled:
         h = x @ self.l
         return h[0] if h.shape[0] == 1 and f_hz.ndim < 2 else h
 
+    def adjoint(self, f_hz) -> np.ndarray:
+        """Transfer to the output from a unit current pushed into each row, shape (frequencies, rows).
+
+        Solves ``(G + sC)^T y = l`` once per frequency: ``y[n]`` is the output
+        voltage per ampere injected into node ``n`` (row ``n`` of the equations:
+        for an op-amp pole node, per volt added at its input). Scalar parts only.
+        """
+        s = 2j * np.pi * np.asarray(f_hz, float)
+        system = np.swapaxes(self.g[0][None] + s[:, None, None] * self.c[0][None], -1, -2)
+        try:
+            return np.linalg.solve(system, np.broadcast_to(self.l, system.shape[:-1])[..., None])[..., 0]
+        except np.linalg.LinAlgError:
+            raise CircuitError("the network equations are singular: a node floats") from None
+
     def rational(self, f_ref_hz: float) -> "Rational":
         """The same responses as polynomials N(s)/D(s) per build (fast to evaluate)."""
         return Rational(self, f_ref_hz)
@@ -239,7 +272,7 @@ class _Assembly:
     def __init__(self, circuit: Circuit):
         self.circuit = circuit
         self.index = self._number_nodes()
-        self.sources = [e for e in circuit.elements if e.kind in ("E", "short")]
+        self.sources = [e for e in circuit.elements if e.kind in ("E", "short", "A")]
         self.builds = self._batch_length()
 
     def _number_nodes(self) -> dict[str, int]:
@@ -253,7 +286,8 @@ class _Assembly:
         return index
 
     def _batch_length(self) -> int:
-        lengths = {np.size(e.value) for e in self.circuit.elements if e.value is not None}
+        lengths = {np.size(v) for e in self.circuit.elements if e.value is not None
+                   for v in (e.value if e.kind == "A" else (e.value,))}
         lengths.discard(1)
         if len(lengths) > 1:
             raise CircuitError(f"batched part values have different lengths {sorted(lengths)}")
@@ -271,6 +305,8 @@ class _Assembly:
                 self._stamp_admittance(g, element.nodes, 1.0 / _batch(element.value))
             elif element.kind == "C":
                 self._stamp_admittance(c, element.nodes, _batch(element.value))
+            elif element.kind == "A":
+                self._stamp_pole(g, c, element)
         self._stamp_sources(g, nodes)
         b = np.zeros(size)
         b[nodes] = 1.0  # the input source row: V(src) = u
@@ -284,11 +320,25 @@ class _Assembly:
             if i is not None and j is not None:
                 m[:, i, j] += sign * y
 
+    def _stamp_pole(self, g, c, element) -> None:
+        """The op-amp's internal node x: x (1 + s/w_p) = V+ - V-, so V(out) = A0 x = A(s) (V+ - V-)."""
+        plus, minus, _, pole = (self.index.get(node) for node in element.nodes)
+        a0, gbw_hz = (_batch(v) for v in element.value)
+        w_p = 2 * np.pi * gbw_hz / a0
+        g[:, pole, pole] += 1.0
+        c[:, pole, pole] += 1.0 / w_p
+        for node, sign in ((plus, -1.0), (minus, 1.0)):
+            if node is not None:
+                g[:, pole, node] += sign
+
     def _stamp_sources(self, g, nodes: int) -> None:
         self._stamp_branch(g, nodes, SOURCE, GROUND, ())
         for row, element in enumerate(self.sources, start=nodes + 1):
             if element.kind == "short":
                 self._stamp_branch(g, row, *element.nodes, ())
+            elif element.kind == "A":
+                _, _, out, pole = element.nodes
+                self._stamp_branch(g, row, out, GROUND, ((pole, -_batch(element.value[0])),))
             else:
                 out, ref, ctrl, ctrl_ref = element.nodes
                 gain = _batch(element.value)

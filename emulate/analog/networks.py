@@ -66,6 +66,10 @@ class TwinT:
     depth_pot_ohms : float or None
         None for an ideal wet/dry mix; else the track of a real depth
         potentiometer, ohms, with its wiper at position ``mix``.
+    opamp : OpAmp or None
+        None for ideal followers; else every follower is this op-amp with its
+        finite gain-bandwidth (:class:`emulate.analog.opamp.OpAmp`). The ideal
+        wet/dry mixer stays ideal.
 
     Does not check that the values are preferred values or that the network
     is balanced; :mod:`emulate.analog.response` reports that.
@@ -88,6 +92,7 @@ class TwinT:
     bootstrap: float | None = None
     mix: float = 1.0
     depth_pot_ohms: float | None = None
+    opamp: object = None
 
     def __post_init__(self):
         check_range("source resistance (ohms)", self.source_ohms, 0.0, math.inf, high_open=True)
@@ -145,8 +150,12 @@ class TwinT:
         c.resistor("cr", foot, self.r3)
         wet = "net"
         if self.is_active:
-            c.follower("net", "buf")
-            c.follower("buf", "foot", self.bootstrap)
+            self._follower(c, "net", "buf")
+            if self.opamp is None:
+                c.follower("buf", "foot", self.bootstrap)
+            else:  # an ideal divider K feeding a real follower
+                c.follower("buf", "tap", self.bootstrap)
+                self._follower(c, "tap", "foot")
             wet = "buf"
         if np.all(np.isfinite(self.load_ohms)):
             c.resistor(wet, GROUND, self.load_ohms)
@@ -155,16 +164,38 @@ class TwinT:
     def _depth_control(self, c: Circuit, wet: str) -> str:
         if self.depth_pot_ohms is not None:
             if not self.is_active:  # a pot across the bare network would bridge it
-                c.follower(wet, "wetbuf")
+                self._follower(c, wet, "wetbuf")
                 wet = "wetbuf"
             c.potentiometer("in", wet, "wiper", self.depth_pot_ohms, self.mix)
-            c.follower("wiper", "out")
+            self._follower(c, "wiper", "out")
             return "out"
         if self.mix == 1.0:
             return wet
         c.follower(SOURCE, "dry", 1.0 - self.mix)
         c.vcvs("out", "dry", wet, GROUND, self.mix)
         return "out"
+
+    def _follower(self, c: Circuit, inp: str, out: str) -> None:
+        """An ideal follower, or the op-amp's when one is given."""
+        if self.opamp is None:
+            c.follower(inp, out)
+        else:
+            c.opamp_follower(inp, out, self.opamp.a0, self.opamp.gbw_hz)
+
+    def opamp_outputs(self) -> dict[str, str]:
+        """The nodes an op-amp drives in the real box, with what each one does.
+
+        ``"src"`` is the stage that drives the network (counted as an op-amp
+        output of the same class; its own output resistance is ``source_ohms``).
+        """
+        nodes = {SOURCE: "driving stage"}
+        if self.is_active:
+            nodes |= {"buf": "output follower", "foot": "bootstrap follower"}
+        if self.depth_pot_ohms is not None:
+            nodes |= ({} if self.is_active else {"wetbuf": "wet buffer"}) | {"out": "wiper buffer"}
+        elif self.mix != 1.0:
+            nodes["out"] = "wet/dry mixer"
+        return nodes
 
     # --- analysis -----------------------------------------------------------
     def zpk(self):

@@ -79,7 +79,8 @@ def db(magnitude):
     return 20 * np.log10(np.maximum(np.abs(magnitude), 1e-300))
 
 
-def measure(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) -> NotchMetrics:
+def measure(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600,
+            passband: str = "far") -> NotchMetrics:
     """Measure the notch of ``response(f_hz) -> complex`` between ``search_hz``.
 
     Example
@@ -89,16 +90,28 @@ def measure(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) ->
     >>> round(m.notch_hz, 3), round(m.q, 4)
     (1000.0, 0.25)
     """
-    return measure_batch(lambda f: np.atleast_2d(response(f)), search_hz=search_hz, points=points)[0]
+    return measure_batch(lambda f: np.atleast_2d(response(f)), search_hz=search_hz, points=points,
+                         passband=passband)[0]
 
 
-def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) -> list[NotchMetrics]:
-    """Measure many builds at once; ``response(f_hz)`` maps (builds, m) Hz to complex."""
+def measure_network(network) -> NotchMetrics:
+    """:func:`measure` of a :class:`~emulate.analog.networks.TwinT`; with real op-amps the
+    passband is the peak each side (the response falls again beyond their gain-bandwidth)."""
+    return measure(network.response, passband="far" if network.opamp is None else "peak")
+
+
+def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600,
+                  passband: str = "far") -> list[NotchMetrics]:
+    """Measure many builds at once; ``response(f_hz)`` maps (builds, m) Hz to complex.
+
+    ``passband="far"`` reads the passband 1e6 times below and above the notch
+    (ideal networks); ``"peak"`` takes the largest gain on a grid out to there
+    (networks whose response falls again far from the notch, as with real op-amps).
+    """
     notch, depth = find_notch(response, search_hz, points)
-    low = np.abs(_column(response, notch / _PASSBAND_SPAN))
-    high = np.abs(_column(response, notch * _PASSBAND_SPAN))
-    lower = _edge(response, notch, notch / _PASSBAND_SPAN, low)
-    upper = _edge(response, notch, notch * _PASSBAND_SPAN, high)
+    low, high, far_low, far_high = _passband(response, notch, passband)
+    lower = _edge(response, notch, far_low, low)
+    upper = _edge(response, notch, far_high, high)
     with np.errstate(invalid="ignore", divide="ignore"):
         q = notch / (upper - lower)
     below = np.minimum(db(low), db(high)) - depth
@@ -124,6 +137,19 @@ def notch_in_range(notch_hz, search_hz, points: int = 600) -> np.ndarray:
     step = (hi / lo) ** (1.0 / (points - 1))
     notch = np.asarray(notch_hz, float)
     return (notch > lo * step * (1 + 1e-9)) & (notch < hi / step / (1 + 1e-9))
+
+
+def _passband(response, notch, how: str):
+    """Passband gain below and above the notch, and where it was read (Hz)."""
+    far_low, far_high = notch / _PASSBAND_SPAN, notch * _PASSBAND_SPAN
+    if how == "far":
+        return np.abs(_column(response, far_low)), np.abs(_column(response, far_high)), far_low, far_high
+    steps = np.geomspace(1.05, _PASSBAND_SPAN, 96)
+    below = np.abs(response(notch[:, None] / steps[None, :]))
+    above = np.abs(response(notch[:, None] * steps[None, :]))
+    i, j = np.argmax(below, axis=1), np.argmax(above, axis=1)
+    rows = np.arange(len(notch))
+    return below[rows, i], above[rows, j], notch / steps[i], notch * steps[j]
 
 
 def find_notch(response: Callable, search_hz, points: int):

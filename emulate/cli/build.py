@@ -11,6 +11,7 @@ from emulate.report import sheet, summary
 from emulate.analog import spec, tolerance, trim as trims
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options)
+from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
 
 def tolerance_options(command):
@@ -79,8 +80,13 @@ def _text(result, trim) -> str:
 @tolerance_options
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the envelope chart (.png or .svg)")
 @force_option("an existing --plot file")
+@click.option("--temperature", help="also report drift over this range, degrees C (e.g. 0..50)")
+@click.option("--resistor-type", default="metal-film", show_default=True,
+              help="with --temperature: metal-film or thick-film")
+@click.option("--capacitor-type", default="polypropylene", show_default=True,
+              help="with --temperature: c0g, polypropylene, polyester or x7r")
 @json_option
-def tolerance_command(plot_path, force, as_json, **options):
+def tolerance_command(plot_path, force, temperature, resistor_type, capacitor_type, as_json, **options):
     """Monte Carlo builds and worst-case corners of a circuit, with an R3 trim."""
     network = network_from_options(options)
     check_plot(plot_path, force)
@@ -89,7 +95,14 @@ def tolerance_command(plot_path, force, as_json, **options):
         from emulate.report import plots  # matplotlib: loaded only for --plot
 
         plots.plot_tolerance(result, plot_path, label=options.get("preset") or options.get("circuit_file"))
-    emit(as_json, result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim))
+    payload, text = result.as_dict() | {"trim": trim.as_dict()}, _text(result, trim)
+    if temperature is not None:
+        from emulate.analog import drift
+
+        found = drift.temperature_drift(network, drift.parse_temperature_range(temperature),
+                                        resistor_type=resistor_type, capacitor_type=capacitor_type)
+        payload, text = payload | {"drift": found.as_dict()}, text + "\n" + found.text()
+    emit(as_json, payload, text)
 
 
 @main.command(name="sheet")
@@ -103,6 +116,7 @@ def tolerance_command(plot_path, force, as_json, **options):
 @tolerance_options
 @click.option("--title", default=sheet.DEFAULT_TITLE, show_default=True, help="heading of the sheet")
 @force_option("a non-empty --out folder (as a whole, once the new sheet is complete)")
+@realbox_options
 @json_option
 def sheet_command(out_dir, notch, q, series, parts_per_position, title, force, as_json, **options):
     """Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.
@@ -120,15 +134,18 @@ def sheet_command(out_dir, notch, q, series, parts_per_position, title, force, a
         network = network_from_options(options)
     tolerances, result, trim = _analyse(network, options)
     block = _title_block(options, notch)
+    extra, notes = _real_parts(network, options)
     path = sheet.write_sheet(out_dir, network, tolerances=tolerances, design=design, tolerance_result=result,
-                             trim=trim, title=title, force=force, title_block=block)
+                             trim=trim, title=title, force=force, title_block=block, notes=notes)
     header = sheet.PARTS_HEADER
     payload = ({"out": str(path), "files": sorted(p.name for p in path.iterdir()), "title_block": block,
                 "parts": [dict(zip(header, row)) for row in sheet.parts_rows(network, tolerances, design)],
                 "assumed": dict(sheet.assumed_rows(network)), "trim": trim.as_dict()}
-               | result.as_dict())
+               | result.as_dict() | extra)
     emit(as_json, payload, f"wrote {path}/sheet.md, sheet.html, schematic.svg/.png and circuit.cir\n"
-                           f"{_text(result, trim)}\ncautions: {sheet.CAUTION_LINE}")
+                           f"{_text(result, trim)}\n"
+                           + "".join(f"{line}\n" for lines in notes.values() for line in lines)
+                           + f"cautions: {sheet.CAUTION_LINE}")
 
 
 def _title_block(options, notch) -> dict:
@@ -143,3 +160,18 @@ def _title_block(options, notch) -> dict:
     if notch is not None:
         return {"circuit": f"designed for {notch} Hz"}
     return {}
+
+
+def _real_parts(network, options) -> tuple[dict, dict]:
+    """The sheet's real-box sections: dielectrics always; level plan and noise with a level."""
+    from emulate.analog import drift
+
+    warned = drift.dielectric_warnings(network)
+    notes = {"Dielectrics": warned or ["no common dielectric moves this notch further than its -3 dB width "
+                                       "over 0..50 C (typical tempcos, from memory)"]}
+    extra = {"dielectric_warnings": warned}
+    if wants_levels(options):
+        payload, text = realbox_report(real_network(network, options), options)
+        notes["Level and noise"] = text.splitlines()
+        extra |= payload
+    return extra, notes

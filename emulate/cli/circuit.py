@@ -8,8 +8,9 @@ from emulate.analog import spec
 from emulate.report import summary
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options)
-from emulate.analog.response import check_twin_t, measure
+from emulate.analog.response import check_twin_t, measure_network
 from emulate.analog.stability import check_stability
+from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
 
 @main.command()
@@ -17,12 +18,13 @@ from emulate.analog.stability import check_stability
 @click.option("--rate", type=float, help="also report the digital emulation at this sample rate, Hz")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the analog response, with the digital one at --rate (default 48000 Hz) (.png or .svg)")
 @force_option("an existing --plot file")
+@realbox_options
 @json_option
 def response(rate, plot_path, force, as_json, **options):
     """Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table."""
-    network = network_from_options(options)
+    network = real_network(network_from_options(options), options)
     check_plot(plot_path, force)
-    metrics = measure(network.response)
+    metrics = measure_network(network)
     found = check_twin_t(network, metrics)
     stable = check_stability(network)
     payload = summary.metrics_payload(network, metrics, found, stable)
@@ -33,6 +35,10 @@ def response(rate, plot_path, force, as_json, **options):
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
         text += "\n" + summary.digital_text(digital)
+    if wants_levels(options):
+        extra, extra_text = realbox_report(network, options)
+        payload |= extra
+        text += "\n" + extra_text
     if plot_path:
         from emulate.report import plots
 

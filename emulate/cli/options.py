@@ -34,7 +34,7 @@ COMMAND_MODULES = {
     "response": "circuit", "design": "circuit",
     "render": "sound", "demo": "demo",
     "sibilance": "speaker", "sweep": "speaker", "preset": "speaker",
-    "tolerance": "build", "sheet": "build",
+    "tolerance": "build", "sheet": "build", "measure": "measure",
 }
 
 # the first line of each command's help, for ``emulate --help`` without importing the
@@ -49,6 +49,7 @@ COMMAND_SUMMARY = {
     "preset": "Keep notch settings per speaker: save, list, show, delete.",
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
     "sheet": "Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.",
+    "measure": "Measure the built box: write a sweep, record it through the box, analyse the recording.",
 }
 
 

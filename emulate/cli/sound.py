@@ -6,13 +6,14 @@ from pathlib import Path
 
 import click
 
-from emulate.audio import stream as audio
-from emulate.dsp import emulation
 from emulate.analog import spec
-from emulate.report import summary
-from emulate import files
+from emulate.audio import stream as audio
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options, progress, run_quietly)
+from emulate.cli.realbox import HEARING_CAUTION, real_network, realbox_options, wants_levels
+from emulate.dsp import emulation
+from emulate import files
+from emulate.report import summary
 
 
 @main.command()
@@ -30,10 +31,13 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
 @click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (.png or .svg)")
 @force_option("an existing OUT (never IN, a folder, a FIFO or a device) and an existing --plot file")
+@realbox_options
+@click.option("--with-noise", is_flag=True, help="add the box's own noise (resistors, op-amps) at the "
+                                                  "studio level; needs --level or --full-scale")
 @json_option
 @run_quietly
-def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path, force,
-           as_json, **options):
+def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path, with_noise,
+           force, as_json, **options):
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).
 
     OUT appears complete or not at all. An existing OUT is refused without --force;
@@ -45,12 +49,17 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
 
         tolerances = tolerance.Tolerances.parse(r_tol, c_tol, distribution)
         network = tolerance.build_at(network, tolerances, build, seed)
+    network = real_network(network, options)
+    if with_noise and not wants_levels(options):
+        raise click.UsageError("--with-noise needs --level DBU or --full-scale DBU (the noise is in volts)")
     info = audio.read_info(in_path)
     audio.check_out_path(in_path, out_path)
     files.check_new_output(out_path, force=force, what="OUT")
     audio.output_format(out_path)
     check_plot(plot_path, force)
     processor = emulation.processor_for(network)
+    if wants_levels(options):
+        processor = _real_box(processor, network, options, with_noise, seed)
     with progress(info.frames, f"rendering {in_path}") as bar:
         report = audio.render_file(in_path, out_path, processor, progress=bar.update,
                                    subtype="FLOAT" if as_float else subtype)
@@ -58,11 +67,14 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
                                   "digital_method": processor.design.method,
                                   "build": build, "parts": spec.table_from_network(network)}
     text = summary.render_text(report, processor)
+    if wants_levels(options):
+        payload["real_box"] = processor.hits()
+        text += "\n" + _hits_text(processor.hits()) + f"\n  {HEARING_CAUTION}"
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
     if plot_path:
-        from emulate.report import plots
         from emulate.analog.response import measure
+        from emulate.report import plots
 
         try:
             (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
@@ -74,3 +86,25 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
             files.discard(out_path)
             raise
     emit(as_json, payload, text)
+
+
+def _real_box(processor, network, options, with_noise: bool, seed: int):
+    """The emulation inside the real stage's rails and slew rate (and its noise)."""
+    import numpy as np
+
+    from emulate.analog import levels, noise
+    from emulate.dsp.realstage import RealBoxProcessor
+
+    density = None
+    if with_noise:
+        hiss = noise.output_noise(network, network.opamp)
+        density = lambda f_hz: np.interp(f_hz, hiss.f_hz, hiss.total)
+    full = levels.full_scale_dbu(options.get("level_dbu"), options.get("full_scale_dbu"))
+    return RealBoxProcessor(processor, network.opamp, full, noise_density=density, seed=seed)
+
+
+def _hits_text(hits: dict) -> str:
+    noise = ", the box's noise added" if hits["noise_added"] else ""
+    return (f"  real box ({hits['opamp']}, 0 dBFS = {hits['full_scale_dbu']:+.1f} dBu{noise}): "
+            f"{hits['rail_hits']} samples at the rails ({hits['input_rail_hits']} at the input stage, "
+            f"{hits['output_rail_hits']} at the output), {hits['slew_limited']} slew-limited")

@@ -15,9 +15,17 @@ mixed dry with the emulated wet path at mix 0.7. The processor's own smoothed
 mix (``set_mix``) stays available for live changes, with that caveat.
 
 The digital notch is prewarped at the analog network's measured notch.
+
+With real op-amps (``network.opamp``) the network has poles near each op-amp's
+gain-bandwidth, megahertz away from the audio band; those beyond
+``FAR_ROOT_HZ`` are folded into the gain (a root r contributes ``1 - s/r``, about
+1 in the band: at most 0.007 dB at 20 kHz), so the digital design sees only what
+the audio band can hear.
 """
 
 from __future__ import annotations
+
+import numpy as np
 
 from emulate.analog.networks import TwinT
 from emulate.dsp.processor import NotchProcessor
@@ -27,6 +35,7 @@ from emulate.errors import CircuitError
 
 
 DESIGN_TOLERANCE_DB = 0.05  # half the 0.1 dB fidelity target: margin for the worst grid cases
+FAR_ROOT_HZ = 500e3
 
 
 def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
@@ -51,7 +60,7 @@ def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
     stability = check_stability(network)
     if not stability.stable:
         raise CircuitError(f"the network is {stability.describe()}; there is no steady response to emulate")
-    z, p, k = network.zpk()
+    z, p, k = audio_band_zpk(*network.zpk())
     return NotchProcessor(z, p, k, notch_hz=notch_hz, mix=1.0,
                           tolerance_db=tolerance_db, smoothing_ms=smoothing_ms)
 
@@ -61,3 +70,24 @@ def digital_for(network: TwinT, fs: float, *, tolerance_db: float = DESIGN_TOLER
     processor = processor_for(network, tolerance_db=tolerance_db)
     processor.prepare(fs, 1)
     return processor.design
+
+
+def audio_band_zpk(z, p, k, far_hz: float = FAR_ROOT_HZ):
+    """``(z, p, k)`` without roots beyond ``far_hz``, each folded into the gain as ``1 - s/r``.
+
+    Example
+    -------
+    >>> z, p, k = audio_band_zpk([], [-1e3, -2 * np.pi * 10e6], 2 * np.pi * 10e6)
+    >>> p.tolist(), round(k, 6)
+    ([(-1000+0j)], 1.0)
+    """
+    z, p = np.asarray(z, complex), np.asarray(p, complex)
+    limit = 2 * np.pi * far_hz
+    far_z, far_p = np.abs(z) > limit, np.abs(p) > limit
+    # keep H(s) proper: the nearest far poles stay while the near zeros outnumber the near poles
+    for i in np.argsort(np.abs(p)):
+        if np.sum(~far_z) <= np.sum(~far_p):
+            break
+        far_p[i] = False
+    k = float((k * np.prod(-z[far_z]) / np.prod(-p[far_p])).real)
+    return z[~far_z], p[~far_p], k

@@ -355,3 +355,40 @@ def plot_sweep(rows, path) -> Path:
     _frequency_axis(cost, span)
     cost.set_xlabel("notch frequency (Hz)")
     return _save(figure, path)
+
+
+def plot_measured(f_hz, measured_db, model_db, fitted_db, path, *, title: str = "measured and model") -> Path:
+    """Overlay of a measured response (gain fitted out), the model and the fitted build, in dB.
+
+    Parameters
+    ----------
+    f_hz : array_like
+        Frequencies, Hz (rising).
+    measured_db, model_db, fitted_db : array_like
+        The measurement, the model of the build as designed, and the model with
+        the fitted part values (None to leave it out), dB at ``f_hz``.
+    path : str or Path
+        PNG to write (its folder must exist).
+
+    Raises
+    ------
+    BadValueError : the folder does not exist.
+
+    Example
+    -------
+    >>> import tempfile, pathlib
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "m.png"
+    >>> f = np.geomspace(50, 15000, 50)
+    >>> plot_measured(f, -f / 1e3, -f / 1e3, None, out).stat().st_size > 10000
+    True
+    """
+    figure, (ax,) = _figure(1)
+    ax.plot(f_hz, np.maximum(measured_db, FLOOR_DB), color=_INK, label="measured")
+    ax.plot(f_hz, np.maximum(model_db, FLOOR_DB), color=_ANALOG, linestyle="--", label="model as designed")
+    if fitted_db is not None:
+        ax.plot(f_hz, np.maximum(fitted_db, FLOOR_DB), color=_DIGITAL, linestyle=":", label="model, fitted parts")
+    _frequency_axis(ax, (float(f_hz[0]), float(f_hz[-1])))
+    ax.set_ylabel("gain (dB)")
+    ax.set_title(title)
+    ax.legend(loc="lower left")
+    return _save(figure, path)

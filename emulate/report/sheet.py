@@ -283,8 +283,8 @@ def title_rows(title_block: dict | None) -> list[list[str]]:
 
 
 def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
-            title: str = DEFAULT_TITLE, title_block: dict | None = None) -> list[Block]:
-    """The sheet as blocks (pictures named as in ``PICTURES``)."""
+            title: str = DEFAULT_TITLE, title_block: dict | None = None, notes=None) -> list[Block]:
+    """The sheet as blocks (pictures named as in ``PICTURES``); ``notes`` maps a heading to lines."""
     blocks = [Block("h1", title),
               Block("table", (["", ""], title_rows(title_block))),
               Block("caution", CAUTIONS),
@@ -320,6 +320,8 @@ def compose(network: TwinT, *, tolerances, design=None, tolerance_result=None, t
                               "with a test tone. R3 restores the depth only: the notch frequency still "
                               f"spreads {trim.notch_hz['p5']:.0f}-{trim.notch_hz['p95']:.0f} Hz (p5-p95) "
                               "with the capacitor mismatch; re-centring it needs R1 and R2 trimmed together.")]
+    for heading, lines in (notes or {}).items():  # level plan, noise, drift (emulate.cli.build)
+        blocks += [Block("h2", heading), Block("list", tuple(lines))]
     blocks += [Block("h2", "Depth control"), Block("list", depth_control_text(network)),
                Block("h2", "Netlist"),
                Block("p", "One element a line (designator, nodes, value); op-amps as voltage-controlled "
@@ -433,7 +435,7 @@ def check_out_dir(out_dir, force: bool) -> None:
 
 def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_result=None, trim=None,
                 title: str = DEFAULT_TITLE, fs: float = 48000.0, force: bool = False,
-                title_block: dict | None = None) -> Path:
+                title_block: dict | None = None, notes=None) -> Path:
     """Write the build sheet folder: sheet.md, sheet.html and the pictures.
 
     Parameters
@@ -460,6 +462,8 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     title_block : dict, optional
         ``circuit`` (preset or circuit name), ``speaker``; the date and the
         emulate version are added.
+    notes : dict, optional
+        Heading -> lines of further sections (the real box: levels, noise, drift).
 
     Returns
     -------
@@ -481,7 +485,7 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
     out_dir = Path(out_dir)
     check_out_dir(out_dir, force)
     blocks = compose(network, tolerances=tolerances, design=design, tolerance_result=tolerance_result,
-                     trim=trim, title=title, title_block=title_block)
+                     trim=trim, title=title, title_block=title_block, notes=notes)
     # the whole folder is written beside out_dir, then swapped in (an old one removed after)
     from emulate.report import plots, schematic  # matplotlib: loaded only when the pictures are drawn
 
