@@ -32,8 +32,8 @@ _PUBLIC = {
     # files
     "render_file": "emulate.audio.stream",
     # voices
-    "find_sibilance": "emulate.voice.speech",
-    "combine_reports": "emulate.voice.speech",
+    "find_sibilance": "emulate.voice.sibilance",
+    "combine_reports": "emulate.voice.sibilance",
     # presets per speaker
     "Preset": "emulate.work.presets",
     "PresetStore": "emulate.work.presets",

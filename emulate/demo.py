@@ -24,7 +24,7 @@ from emulate import files
 from emulate.audio import stream as audio
 from emulate.dsp import emulation
 from emulate.report import plots
-from emulate.voice import speech, synth
+from emulate.voice import bands, loudness, sibilance, synth
 from emulate.analog import spec
 from emulate.errors import PresetError
 from emulate.validate import check_range
@@ -66,7 +66,7 @@ class DemoRender:
 class DemoTake:
     speaker: DemoSpeaker
     path: Path
-    report: speech.SibilanceReport
+    report: sibilance.SibilanceReport
     preset_path: Path
     notch_hz: float
     renders: tuple[DemoRender, ...]
@@ -128,7 +128,7 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
                               sibilance_hz=speaker.sibilance_hz, seed=speaker.seed)
     take_path = out_dir / "takes" / f"{speaker.key}-take1.wav"
     audio.write_array(take_path, x, DEMO_RATE_HZ, subtype="PCM_24")
-    report = speech.find_sibilance(x, DEMO_RATE_HZ)
+    report = sibilance.find_sibilance(x, DEMO_RATE_HZ)
     preset = store.load(speaker.preset)
     network = spec.network_from_preset(preset)
     renders = tuple(_render(out_dir, take_path, x, network.replace(mix=mix), report, preset.name, progress)
@@ -170,6 +170,6 @@ def _render(out_dir, take_path, dry, network, report, preset_name, progress) -> 
     dry = np.asarray(dry, float).reshape(len(dry), -1)
     return DemoRender(
         path=out, mix=network.mix,
-        sibilance_reduction_db=speech.sibilance_reduction_db(dry, wet, DEMO_RATE_HZ, report.band_hz),
-        loudness_change_db=speech.loudness_change_db(dry, wet, DEMO_RATE_HZ),
+        sibilance_reduction_db=bands.sibilance_reduction_db(dry, wet, DEMO_RATE_HZ, report.band_hz),
+        loudness_change_db=loudness.loudness_change_db(dry, wet, DEMO_RATE_HZ),
         fidelity_db=processor.fidelity_db, method=processor.design.method)

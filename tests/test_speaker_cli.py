@@ -92,7 +92,7 @@ class TestSibilance:
         take = write_take(tmp_path / "vowels.wav", sibilance_hz=None)
         result = run("sibilance", take)
         assert result.exit_code == 0, result.output
-        assert "no usable sibilance" in result.output and "no suggestion" in result.output
+        assert "/s/ none" in result.output and "no suggestion" in result.output
         payload = json.loads(run("sibilance", take, "--json").output)
         assert payload["usable"] is False and payload["suggested_notch_hz"] is None
 

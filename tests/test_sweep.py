@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from emulate.audio import stream as audio
-from emulate.voice import speech, synth
+from emulate.voice import bands, sibilance, synth
 from emulate.work import sweep
 from emulate.errors import BadValueError
 
@@ -124,7 +124,7 @@ class TestRunSweep:
         dry, _ = audio.read_all(take)
         n, gap = FS, int(sweep.REEL_GAP_S * FS)
         assert len(reel) == 3 * n + 2 * gap
-        start, stop = speech.most_sibilant_excerpt(dry, FS, seconds=1.0)
+        start, stop = sibilance.most_sibilant_excerpt(dry, FS, seconds=1.0)
         np.testing.assert_array_equal(reel[:n], dry[start:stop])
         for i, target in enumerate(sorted(plan.notches_hz)):
             wet, _ = audio.read_all(tmp_path / "out" / f"host--{sweep.setting_label(target, plan)}.wav")
@@ -209,14 +209,14 @@ class TestRunSweep:
     def test_take_without_sibilance_sweeps_over_the_search_band(self, tmp_path):
         take = write_take(tmp_path / "vowels.wav", 2.0, sibilance_hz=None, channels=1)
         dry, _ = audio.read_all(take)
-        assert not speech.find_sibilance(dry, FS).usable
+        assert not sibilance.find_sibilance(dry, FS).usable
         result = sweep.run_sweep([take], sweep.SweepPlan(notches_hz=(4000.0, 8000.0)), tmp_path / "out",
                                  workers=1)
         for job in result.jobs:
             wet, _ = audio.read_all(job.path)
-            # the measure falls back to the finder's search band (2-12 kHz, speech.DEFAULT_SEARCH_BAND_HZ)
+            # the measure falls back to the finder's search band (2-12 kHz, sibilance.DEFAULT_SEARCH_BAND_HZ)
             assert job.sibilance_reduction_db == pytest.approx(
-                speech.sibilance_reduction_db(dry, wet, FS, speech.DEFAULT_SEARCH_BAND_HZ), abs=1e-12)
+                bands.sibilance_reduction_db(dry, wet, FS, sibilance.DEFAULT_SEARCH_BAND_HZ), abs=1e-12)
         assert "reason" in result.pick and len(result.reels) == 1
 
 

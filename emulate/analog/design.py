@@ -33,8 +33,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from emulate.analog import parts
-from emulate.analog.makeup import Makeup, ValueTable, value_table
-from emulate.analog.networks import PART_NAMES, TwinT, part_kind
+from emulate.analog.makeup import ValueTable, value_table
+from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.analog.response import NotchMetrics, db, measure, measure_batch
 from emulate.errors import BadValueError
 from emulate.validate import check_range

@@ -57,7 +57,7 @@ import soundfile as sf
 
 from emulate.audio import pipeline
 from emulate.audio.encode import PCM_BITS, Encoder, container_bits
-from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning
+from emulate.errors import AudioFileError, BadValueError, EmulateWarning
 from emulate.files import atomic_path
 from emulate.validate import check_count
 

@@ -33,7 +33,8 @@ PART_HELP = {
 COMMAND_MODULES = {
     "response": "circuit", "design": "circuit",
     "render": "sound", "demo": "demo",
-    "sibilance": "speaker", "sweep": "speaker", "preset": "speaker",
+    "sibilance": "finders", "hum": "finders", "resonance": "finders",
+    "sweep": "speaker", "preset": "speaker",
     "tolerance": "build", "sheet": "build", "measure": "measure",
 }
 
@@ -44,7 +45,9 @@ COMMAND_SUMMARY = {
     "design": "Design a balanced twin-T for a target notch and build it from preferred values.",
     "render": "Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).",
     "demo": "Invented two-host podcast: takes, sibilance, presets, renders and pictures.",
-    "sibilance": "Find where one speaker's sibilance sits, over one or more takes.",
+    "sibilance": "Find where one speaker's /s/ and /sh/ sit, over one or more takes.",
+    "hum": "Find mains hum: exact frequency, drift, harmonics and notches with their circuits.",
+    "resonance": "Find one narrow, persistent spectral peak (a ringing room mode, a stand or capsule).",
     "sweep": "Render every take at every notch setting; reels, a summary table and a pick.",
     "preset": "Keep notch settings per speaker: save, list, show, delete.",
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",

@@ -1,8 +1,6 @@
-"""Commands about a speaker: ``sibilance``, ``sweep`` and the ``preset`` group."""
+"""Commands about a speaker: ``sweep`` and the ``preset`` group (``sibilance`` is in :mod:`emulate.cli.finders`)."""
 
 from __future__ import annotations
-
-from pathlib import Path
 
 from pathlib import Path
 
@@ -16,39 +14,9 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
                                  network_from_options, presets_option, progress, run_quietly, store_from)
 from emulate.analog.parts import parse_value
 from emulate.analog.response import measure
-from emulate.voice.speech import combine_reports, find_sibilance
 
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
-
-
-@main.command()
-@takes_argument
-@click.option("--band", nargs=2, type=float, metavar="LO HI",
-              help="search band, Hz (default 2000 12000: covers /sh/ and /s/)")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the first take's spectrum with the sibilant band and the suggested notch (.png or .svg)")
-@force_option("an existing --plot file")
-@json_option
-def sibilance(takes, band, plot_path, force, as_json):
-    """Find where one speaker's sibilance sits, over one or more takes."""
-    options = {} if not band else {"search_band_hz": tuple(band)}
-    check_plot(plot_path, force)
-    reports = []
-    for take in takes:
-        x, fs = audio.read_all(take)
-        reports.append(find_sibilance(x, fs, **options))
-    combined = combine_reports(reports) if len(reports) > 1 else reports[0]
-    payload = summary.sibilance_payload(takes, reports, combined)
-    text = summary.sibilance_text(takes, reports, combined)
-    if plot_path:
-        from emulate.report import plots
-
-        x, fs = audio.read_all(takes[0])
-        notch = combined.suggested_notch_hz if combined.usable else None
-        band = combined.band_hz if combined.usable else None
-        label = f"{Path(takes[0]).name}, dry (suggested notch marked)"
-        text += f"\nwrote {plots.plot_take_spectrum(x, None, fs, plot_path, notch_hz=notch, band_hz=band, label=label)}"
-    emit(as_json, payload, text)
 
 
 def _sweep_notches(from_hz, to_hz, steps, at):

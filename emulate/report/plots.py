@@ -19,7 +19,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from emulate.errors import BadValueError
-from emulate.files import PICTURE_FORMATS as FORMATS, atomic_path, check_picture_path
+from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
 from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
 
@@ -391,4 +391,58 @@ def plot_measured(f_hz, measured_db, model_db, fitted_db, path, *, title: str = 
     ax.set_ylabel("gain (dB)")
     ax.set_title(title)
     ax.legend(loc="lower left")
+    return _save(figure, path)
+
+
+# --- finders ------------------------------------------------------------------------------
+
+def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(), f_range_hz=None) -> Path:
+    """What a finder saw: spectra (or lines) against frequency, the band and the notches marked.
+
+    Parameters
+    ----------
+    curves : dict
+        ``label -> (f_hz, values)``; a label starting with ``"*"`` is drawn as points.
+    path : str or Path
+        PNG to write.
+    title, ylabel : str
+    band_hz : (lo, hi), optional
+        Shaded.
+    marks : iterable of (float, str)
+        Frequencies (Hz) marked with a dotted line and a legend entry.
+    f_range_hz : (lo, hi), optional
+        Frequency axis range; default the curves' positive range.
+
+    Raises
+    ------
+    BadValueError : a bad folder, or no curve to draw.
+
+    Example
+    -------
+    >>> import tempfile, pathlib
+    >>> f = np.geomspace(100, 10000, 50)
+    >>> plot_finding({"take": (f, -f / 1000)}, pathlib.Path(tempfile.mkdtemp()) / "f.png",
+    ...              title="t", ylabel="dB", marks=[(1000.0, "notch")]).suffix
+    '.png'
+    """
+    curves = {label: (np.asarray(f, float), np.asarray(y, float)) for label, (f, y) in curves.items()}
+    shown = [f[(f > 0) & np.isfinite(y)] for f, y in curves.values()]
+    if not any(s.size for s in shown):
+        raise BadValueError("nothing to draw: every curve is empty")
+    figure, (ax,) = _figure(1)
+    if band_hz is not None:
+        ax.axvspan(*band_hz, color=_BAND, alpha=0.35, label=f"band {band_hz[0]:.0f}-{band_hz[1]:.0f} Hz")
+    for (label, (f, y)), colour in zip(curves.items(), (_INK, _DIGITAL, _ANALOG, "#6c7a89")):
+        keep = (f > 0) & np.isfinite(y)
+        if label.startswith("*"):
+            ax.plot(f[keep], y[keep], "o", color=colour, label=label[1:])
+        else:
+            ax.plot(f[keep], y[keep], color=colour, linewidth=1.4, label=label)
+    for f_mark, label in marks:
+        ax.axvline(f_mark, color=_MARK, linewidth=1.2, linestyle=":", label=label)
+    ax.set_ylabel(ylabel)
+    ax.set_title(title)
+    ax.legend(loc="best")
+    every = np.concatenate([s for s in shown if s.size])
+    _frequency_axis(ax, f_range_hz or (float(every.min()), float(every.max())))
     return _save(figure, path)

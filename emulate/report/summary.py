@@ -261,12 +261,23 @@ def digital_text(digital) -> str:
 
 # --- speakers ------------------------------------------------------------------
 
+def _class_fields(c) -> dict:
+    return {"usable": c.usable, "reason": c.reason, "sibilant_seconds": c.sibilant_seconds,
+            "peak_hz": c.peak_hz, "band_hz": list(c.band_hz), "sibilant_level_db": c.sibilant_level_db,
+            "vowel_level_db": c.vowel_level_db, "confidence": c.confidence,
+            "suggested_notch_hz": c.suggested_notch_hz, "suggested_q": c.suggested_q,
+            "suggested_mix": c.suggested_mix, "suggested_depth_db": c.suggested_depth_db}
+
+
 def _sibilance_fields(report) -> dict:
-    return {"usable": report.usable, "reason": report.reason, "peak_hz": report.peak_hz,
-            "band_hz": list(report.band_hz), "sibilant_fraction": report.sibilant_fraction,
+    return {"usable": report.usable, "reason": report.reason, "target": report.target,
+            "peak_hz": report.peak_hz, "band_hz": list(report.band_hz),
+            "sibilant_fraction": report.sibilant_fraction,
             "confidence": report.confidence, "suggested_notch_hz": report.suggested_notch_hz,
             "suggested_q": report.suggested_q, "suggested_mix": report.suggested_mix,
-            "suggested_depth_db": report.suggested_depth_db}
+            "suggested_depth_db": report.suggested_depth_db,
+            "classes": {kind: _class_fields(c) for kind, c in report.classes.items()},
+            "set_aside": list(report.set_aside)}
 
 
 def sibilance_payload(takes, reports, combined) -> dict:
@@ -275,28 +286,90 @@ def sibilance_payload(takes, reports, combined) -> dict:
     return payload
 
 
+def _class_text(c) -> str:
+    if not c.usable:
+        return f"/{c.kind}/ none ({c.reason})"
+    lo, hi = c.band_hz
+    return f"/{c.kind}/ peak {c.peak_hz:.0f} Hz, band {lo:.0f}-{hi:.0f} Hz, {c.sibilant_seconds:.2f} s"
+
+
 def _sibilance_line(label, report) -> str:
-    if not report.usable:
+    if not report.classes:
         return f"  {label}: no usable sibilance ({report.reason})"
-    lo, hi = report.band_hz
-    return (f"  {label}: peak {report.peak_hz:.0f} Hz, band {lo:.0f}-{hi:.0f} Hz, "
-            f"{report.sibilant_fraction:.0%} of the take sibilant, confidence {report.confidence:.2f}")
+    kinds = "; ".join(_class_text(report.classes[k]) for k in sorted(report.classes))
+    if not report.usable:
+        return f"  {label}: {kinds}"
+    return (f"  {label}: {kinds}; /{report.target}/ {report.sibilant_fraction:.0%} of the take, "
+            f"confidence {report.confidence:.2f}")
 
 
 def suggestion_line(report) -> str:
     if not report.usable:
-        return "  no suggestion: the takes hold no usable sibilance"
+        return f"  no suggestion: the takes hold no usable /{report.target}/ sibilance"
     kind = "passive (Q 0.25)" if report.suggested_q <= 0.25 else f"active, Q {report.suggested_q:.2f}"
-    return (f"  suggested notch {report.suggested_notch_hz:.0f} Hz, {kind}, mix {report.suggested_mix:.2f} "
-            f"(about {report.suggested_depth_db:.0f} dB at the notch)")
+    return (f"  suggested notch for /{report.target}/ {report.suggested_notch_hz:.0f} Hz, {kind}, "
+            f"mix {report.suggested_mix:.2f} (about {report.suggested_depth_db:.1f} dB at the notch)")
 
 
 def sibilance_text(takes, reports, combined) -> str:
     lines = ["sibilance per take", *(_sibilance_line(t, r) for t, r in zip(takes, reports))]
     if len(reports) > 1:
         lines += ["all takes together", _sibilance_line("speaker", combined)]
+        lines += [f"  set aside {why}" for why in combined.set_aside]
     lines.append(suggestion_line(combined))
     return "\n".join(lines)
+
+
+# --- hum and resonance ------------------------------------------------------------------
+
+def _notch_fields(designed: dict) -> dict:
+    return {key: designed[key] for key in ("label", "notch_hz", "q", "depth_db", "mix", "built_notch_hz",
+                                           "parts", "circuit", "options")}
+
+
+def _notch_lines(designed) -> list[str]:
+    return [f"  {d['label']}: notch {d['notch_hz']:.2f} Hz, Q {d['q']:.2f}, {d['depth_db']:.0f} dB "
+            f"(built {d['built_notch_hz']:.2f} Hz)\n    {d['options']}" for d in designed]
+
+
+def hum_payload(take, report, designed) -> dict:
+    return {"take": str(take), "found": report.found, "reason": report.reason, "seconds": report.seconds,
+            "mains_hz": report.mains_hz, "fundamental_hz": report.fundamental_hz, "drift_hz": report.drift_hz,
+            "track": [list(point) for point in report.track],
+            "lines": [{"k": line.k, "frequency_hz": line.frequency_hz, "level_dbfs": line.level_dbfs,
+                       "above_programme_db": line.above_programme_db, "prominence_db": line.prominence_db}
+                      for line in report.lines],
+            "notches": [_notch_fields(d) for d in designed]}
+
+
+def hum_text(take, report, designed) -> str:
+    if not report.found:
+        return f"{take}: no mains hum ({report.reason})"
+    lines = [f"{take}: {report.mains_hz:.0f} Hz mains hum at {report.fundamental_hz:.3f} Hz, "
+             f"drift {report.drift_hz:.3f} Hz over {report.seconds:.1f} s"]
+    lines += [f"  harmonic {line.k}: {line.frequency_hz:.2f} Hz, {line.level_dbfs:.1f} dBFS, "
+              f"{line.above_programme_db:+.1f} dB over the programme around it" for line in report.lines]
+    return "\n".join(lines + _notch_lines(designed))
+
+
+def resonance_payload(take, report, designed) -> dict:
+    def peak(p):
+        return None if p is None else {"frequency_hz": p.frequency_hz, "q": p.q, "gain_db": p.gain_db,
+                                       "persistence": p.persistence}
+
+    return {"take": str(take), "found": report.found, "reason": report.reason, "seconds": report.seconds,
+            "peak": peak(report.peak), "others": [peak(p) for p in report.others],
+            "notches": [_notch_fields(d) for d in designed]}
+
+
+def resonance_text(take, report, designed) -> str:
+    if not report.found:
+        return f"{take}: no resonance ({report.reason})"
+    p = report.peak
+    lines = [f"{take}: resonance at {p.frequency_hz:.1f} Hz, Q {p.q:.1f}, {p.gain_db:+.1f} dB over its "
+             f"neighbourhood, in {p.persistence:.0%} of the take"]
+    lines += [f"  also {o.frequency_hz:.1f} Hz, Q {o.q:.1f}, {o.gain_db:+.1f} dB" for o in report.others]
+    return "\n".join(lines + _notch_lines(designed))
 
 
 def sweep_text(result, csv_path, json_path) -> str:

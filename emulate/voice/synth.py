@@ -3,12 +3,14 @@
 Nothing here is a recording or imitates a real voice. The signals are built
 from three ingredients, each with a known spectrum, so tests know the answer:
 
-1. a voiced, vowel-like harmonic tone: a harmonic series on a drifting pitch,
-   shaped by three formant resonances and a -6 dB/octave source slope;
+1. a voiced, vowel-like harmonic tone: a harmonic series on a pitch that moves
+   like speech (each syllable its own pitch, a few semitones around the mean, with a
+   glide), shaped by three formant resonances (each syllable's a little off its
+   vowel's, as running speech is) and a -6 dB/octave source slope;
 2. sibilant bursts: Gaussian noise shaped in the frequency domain to a known
    band around a chosen frequency (like /s/ or /sh/), gated on and off with
-   short raised-cosine ramps;
-3. a low white noise floor.
+   short raised-cosine ramps, each 5-12 dB under the vowels (RMS);
+3. room noise: pink (-3 dB/octave) noise 50 dB under the take, independent per channel.
 
 The timing of syllables and bursts comes from :func:`take_schedule`, so a test
 can ask where the bursts are. Every function is deterministic for a seed.
@@ -50,17 +52,23 @@ _FORMANTS_HZ = (
     ((500.0, 1750.0, 2500.0), (70.0, 110.0, 160.0)),  # mid front, "eh"-like
     ((500.0, 900.0, 2400.0), (70.0, 90.0, 150.0)),  # mid back, "oh"-like
 )
-#: Highest harmonic frequency of the voiced tone, in Hz (voice energy above
-#: this is negligible next to the sibilant bursts, which is what tests need).
-_VOICED_TOP_HZ = 5000.0
+#: Highest harmonic frequency of the voiced tone, in Hz.
+_VOICED_TOP_HZ = 8000.0
+#: Spread of the syllables' pitch around the mean (standard deviation) and the most
+#: a syllable glides, in semitones (lively read speech, common practice, no source).
+_PITCH_SPREAD_ST = 3.0
+_GLIDE_ST = 2.0
+#: Each syllable's formants lie within this share of its vowel's (coarticulation).
+_FORMANT_JITTER = 0.1
 #: Longest stretch synthesised at once, in seconds (bounds memory for long tones).
 _CHUNK_S = 0.25
 #: Burst and syllable ramps (raised-cosine), in seconds.
 _RAMP_S = 0.01
-#: Noise floor relative to the take's RMS level, in dB.
+#: Room noise (pink) relative to the take's RMS level, in dB.
 _FLOOR_DB = -50.0
-#: Sibilant burst RMS relative to the voiced RMS, in dB ("strong" bursts).
-_BURST_DB = 6.0
+#: Sibilant bursts' RMS relative to the vowels' RMS, in dB: each burst somewhere in this
+#: range (real speakers' sibilants sit about 5-12 dB under their vowels, common practice).
+_BURST_DB_RANGE = (-12.0, -5.0)
 
 
 @dataclass(frozen=True)
@@ -168,16 +176,18 @@ def take_schedule(seconds: float, *, seed: int = 0) -> TakeSchedule:
 # --------------------------------------------------------------------------- ingredients
 
 
-def _gate(n: int, fs: float, intervals_s, ramp_s: float = _RAMP_S) -> np.ndarray:
-    """Envelope that is 1 inside each ``(start, stop)`` interval, with raised-cosine ramps."""
+def _gate(n: int, fs: float, intervals_s, ramp_s: float = _RAMP_S, heights=None) -> np.ndarray:
+    """Envelope that is 1 (or ``heights[i]``) inside each ``(start, stop)`` interval, with
+    raised-cosine ramps."""
     env = np.zeros(n)
-    for start_s, stop_s in intervals_s:
+    heights = np.ones(len(intervals_s)) if heights is None else heights
+    for (start_s, stop_s), height in zip(intervals_s, heights):
         a, b = round(start_s * fs), min(round(stop_s * fs), n)
         r = max(min(round(ramp_s * fs), (b - a) // 2), 1)
         seg = np.ones(b - a)
         seg[:r] = 0.5 - 0.5 * np.cos(np.pi * (np.arange(r) + 0.5) / r)
         seg[len(seg) - r :] = seg[:r][::-1]
-        env[a:b] = np.maximum(env[a:b], seg)
+        env[a:b] = np.maximum(env[a:b], seg * height)
     return env
 
 
@@ -219,6 +229,7 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
     for start_s, stop_s in intervals_s:
         a, b = round(start_s * fs), min(round(stop_s * fs), n)
         centres, widths = _FORMANTS_HZ[rng.integers(len(_FORMANTS_HZ))]
+        centres = np.asarray(centres) * (1.0 + rng.uniform(-_FORMANT_JITTER, _FORMANT_JITTER, 3))
         for c in range(a, b, chunk):  # bounded (harmonics x samples) work arrays
             d = min(c + chunk, b)
             k = np.arange(1, int(top_hz // f0_hz[c:d].min()) + 1)[:, None]
@@ -228,20 +239,39 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
     return out * env
 
 
-def _pitch_track(fs: float, n: int, pitch_hz: float, rng: np.random.Generator) -> np.ndarray:
-    """Pitch in Hz per sample: a slow +-4 % wobble plus a smoothed random drift."""
+def _pitch_track(fs: float, n: int, pitch_hz: float, rng: np.random.Generator, intervals_s=()) -> np.ndarray:
+    """Pitch in Hz per sample: each syllable its own pitch (a few semitones around the mean)
+    and a glide across it, joined smoothly, plus a small +-1 % wobble."""
     t = np.arange(n) / fs
-    knots = rng.uniform(-0.04, 0.04, size=int(t[-1] / 0.25) + 2) if n else np.zeros(2)
-    drift = np.interp(t, np.arange(knots.size) * 0.25, knots)
-    return pitch_hz * (1.0 + 0.04 * np.sin(2.0 * np.pi * 0.7 * t) + drift)
+    knots_t, knots_st = [0.0], [0.0]
+    for start_s, stop_s in intervals_s:
+        level = rng.normal(0.0, _PITCH_SPREAD_ST)
+        glide = rng.uniform(-_GLIDE_ST, _GLIDE_ST)
+        knots_t += [start_s, stop_s]
+        knots_st += [level - glide / 2.0, level + glide / 2.0]
+    knots_t.append(max(t[-1] if n else 0.0, knots_t[-1]) + 1.0)
+    knots_st.append(0.0)
+    semitones = np.interp(t, knots_t, knots_st)
+    return pitch_hz * 2.0 ** (semitones / 12.0) * (1.0 + 0.01 * np.sin(2.0 * np.pi * 0.7 * t))
+
+
+def _pink(rng: np.random.Generator, n: int, channels: int) -> np.ndarray:
+    """Unit-RMS pink (-3 dB/octave) noise, ``(n, channels)``, shaped in the frequency domain."""
+    spectrum = np.fft.rfft(rng.standard_normal((n, channels)), axis=0)
+    f = np.arange(spectrum.shape[0], dtype=np.float64)
+    spectrum[1:] /= np.sqrt(f[1:, None])
+    spectrum[0] = 0.0
+    noise = np.fft.irfft(spectrum, n, axis=0)
+    rms = np.sqrt(np.mean(noise**2, axis=0))
+    return noise / np.where(rms > 0, rms, 1.0)
 
 
 def _finish(mono: np.ndarray, fs: float, channels: int, level_dbfs: float, rng) -> np.ndarray:
-    """Scale to ``level_dbfs`` RMS (AES17), add an independent noise floor per channel."""
+    """Scale to ``level_dbfs`` RMS (AES17), add independent pink room noise per channel."""
     target_rms = 10.0 ** (level_dbfs / 20.0) / np.sqrt(2.0)
     rms = np.sqrt(np.mean(mono**2))
     mono = mono * (target_rms / rms if rms > 0 else 0.0)
-    floor = rng.standard_normal((mono.size, channels)) * target_rms * 10.0 ** (_FLOOR_DB / 20.0)
+    floor = _pink(rng, mono.size, channels) * target_rms * 10.0 ** (_FLOOR_DB / 20.0)
     out = mono[:, None] + floor
     peak = np.max(np.abs(out))
     if peak >= 1.0:
@@ -268,11 +298,11 @@ def voice_like_take(
 ) -> np.ndarray:
     """Generate an invented voice-like take with sibilant bursts at known times.
 
-    Voiced syllables (harmonic tone, three formants, drifting pitch) alternate
-    with gaps; sibilant bursts (noise with a raised-cosine power bump centred on
-    ``sibilance_hz``, full width ``sibilance_width_hz``, RMS 6 dB above the
-    voiced RMS) precede about half the syllables, as laid out by
-    :func:`take_schedule` with the same ``seed``. A white noise floor 50 dB
+    Voiced syllables (harmonic tone, three formants, a pitch that moves like
+    speech) alternate with gaps; sibilant bursts (noise with a raised-cosine power
+    bump centred on ``sibilance_hz``, full width ``sibilance_width_hz``, each
+    burst's RMS 5-12 dB under the voiced RMS) precede about half the syllables, as
+    laid out by :func:`take_schedule` with the same ``seed``. Pink room noise 50 dB
     below the take's level lies under everything, independent per channel.
 
     Parameters
@@ -319,15 +349,17 @@ def voice_like_take(
     level_dbfs = _check_range(level_dbfs, "level_dbfs", low=-120.0, high=0.0)
     rng = np.random.default_rng([seed, 2])
     schedule = take_schedule(seconds, seed=seed)
-    voiced = _voiced(fs, _pitch_track(fs, n, pitch_hz, rng), schedule.syllables_s, rng)
+    voiced = _voiced(fs, _pitch_track(fs, n, pitch_hz, rng, schedule.syllables_s), schedule.syllables_s, rng)
     mix = voiced
     if sibilance_hz is not None and schedule.bursts_s:
         centre = _check_range(sibilance_hz, "sibilance_hz", high=0.45 * fs)
         width = 0.5 * centre if sibilance_width_hz is None else float(sibilance_width_hz)
         band = _check_band((centre - width / 2.0, centre + width / 2.0), fs, "sibilant band")
-        bursts = _band_noise(rng, n, fs, band, bell=True) * _gate(n, fs, schedule.bursts_s)
+        levels_db = rng.uniform(*_BURST_DB_RANGE, size=len(schedule.bursts_s))
+        bursts = _band_noise(rng, n, fs, band, bell=True) * _gate(n, fs, schedule.bursts_s,
+                                                                  heights=10.0 ** (levels_db / 20.0))
         voiced_rms = np.sqrt(np.mean(voiced[voiced != 0] ** 2)) if np.any(voiced) else 1.0
-        mix = voiced + bursts * voiced_rms * 10.0 ** (_BURST_DB / 20.0)
+        mix = voiced + bursts * voiced_rms
     return _finish(mix, fs, channels, level_dbfs, rng)
 
 

@@ -12,7 +12,7 @@ The pipeline, top to bottom:
    the output folder, and measures dry against wet);
 3. measures per job: sibilance-band reduction (the band the finder found in
    that take), loudness change (ITU-R BS.1770 via pyloudnorm) and intelligibility
-   cost (ANSI S3.5-1997 band importance; :func:`emulate.voice.speech.intelligibility_cost`);
+   cost (ANSI S3.5-1997 band importance; :func:`emulate.voice.bands.intelligibility_cost`);
 4. reels: per take, the most sibilant few seconds dry, then at each setting in
    order, separated by short silences;
 5. summary: per setting the means over takes, and a pick with its reason.
@@ -40,7 +40,7 @@ import numpy as np
 from emulate import files, lifetime
 from emulate.audio import stream as audio
 from emulate.dsp import emulation
-from emulate.voice import speech
+from emulate.voice import compare, sibilance
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.response import measure
@@ -252,7 +252,7 @@ def _check_takes(takes) -> dict:
 class _DryTake:
     """What the jobs and the reel of one take need from it, found once per take."""
 
-    levels: speech.TakeLevels  # in the sibilant band (the search band if none is usable)
+    levels: compare.TakeLevels  # in the sibilant band (the search band if none is usable)
     excerpt: tuple[int, int]  # the reel's stretch, sample frames
     excerpt_audio: np.ndarray
     fs: int
@@ -261,10 +261,10 @@ class _DryTake:
 
 def _dry_take(take: Path) -> _DryTake:
     x, fs = audio.read_all(take)
-    report = speech.find_sibilance(x, fs)
-    start, stop = speech.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
+    report = sibilance.find_sibilance(x, fs)
+    start, stop = sibilance.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
     band_hz = report.band_hz if report.usable else report.search_band_hz
-    levels = speech.take_levels(x, fs, band_hz)
+    levels = compare.take_levels(x, fs, band_hz)
     _check_measurable(take, levels)
     return _DryTake(levels, (start, stop), x[start:stop], fs, audio.read_info(take).subtype)
 
@@ -272,7 +272,7 @@ def _dry_take(take: Path) -> _DryTake:
 def _check_measurable(take: Path, levels) -> None:
     """A take the measures cannot compare (silent, or below the loudness gate) fails before any render."""
     try:
-        speech.compare_levels(levels, levels)
+        compare.compare_levels(levels, levels)
     except BadValueError as exc:
         raise BadValueError(f"{take}: cannot be swept ({exc}); every take must hold speech "
                             "(nothing was rendered)") from None
@@ -283,7 +283,7 @@ def _render_job(take: Path, target_hz: float, network, dry_levels, excerpt, out_
     processor = emulation.processor_for(network)
     audio.render_file(take, out_path, processor)
     wet, fs = audio.read_all(out_path)
-    measures = speech.compare_levels(dry_levels, speech.take_levels(wet, fs, dry_levels.band_hz))
+    measures = compare.compare_levels(dry_levels, compare.take_levels(wet, fs, dry_levels.band_hz))
     result = JobResult(take=str(take), notch_target_hz=target_hz,
                        notch_hz=measure(network.response).notch_hz, path=str(out_path), **measures)
     return result, wet[excerpt[0]:excerpt[1]]

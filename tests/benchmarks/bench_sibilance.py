@@ -1,10 +1,10 @@
 """Sibilance-finder benchmark: real-time factor on a long synthetic take.
 
 Generates a --seconds (default 60) 48 kHz stereo voice-like take with sibilant bursts at
-6 kHz (:func:`emulate.voice.synth.voice_like_take`), then times :func:`emulate.voice.speech.find_sibilance`
+6 kHz (:func:`emulate.voice.synth.voice_like_take`), then times :func:`emulate.voice.sibilance.find_sibilance`
 on it --repeats times (default 7, at least 5) and reports the median wall time, the
 real-time factor (audio seconds per wall second; target >= 100) and what the finder found.
-Also times :func:`emulate.voice.speech.most_sibilant_excerpt` once. Writes JSON (--json, default
+Also times :func:`emulate.voice.sibilance.most_sibilant_excerpt` once. Writes JSON (--json, default
 bench-out/sibilance.json).
 
 Run: python3 tests/benchmarks/bench_sibilance.py [--seconds 60] [--repeats 7] [--json PATH]
@@ -22,7 +22,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from emulate.voice.speech import find_sibilance, most_sibilant_excerpt
+from emulate.voice.sibilance import find_sibilance, most_sibilant_excerpt
 from emulate.voice.synth import voice_like_take
 
 FS_HZ = 48000

@@ -1,0 +1,219 @@
+"""Takes as the finders read them: validation, dBFS, and block sources for streaming.
+
+A finder reads a take through a :class:`TakeSource`: its sample rate, its length and a
+way to walk it block by block (as many times as the analysis needs), so a take held in
+memory and a file on disk are analysed by the same code, and a file of any length in
+bounded memory.
+
+Levels are in dBFS with the AES17 convention: a full-scale sine reads 0 dBFS, so a mean
+square ``ms`` reads ``10*log10(2*ms)``.
+
+What this module does *not* do: it does not analyse; see :mod:`emulate.voice.frames`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+
+import numpy as np
+
+from emulate.errors import BadValueError
+from emulate.validate import check_range
+
+__all__ = [
+    "MAX_FS_HZ",
+    "MIN_FS_HZ",
+    "TakeSource",
+    "as_take",
+    "check_band",
+    "check_fs",
+    "check_seconds",
+    "dbfs",
+]
+
+#: Sample rates accepted by the analysis, in Hz (endpoints allowed).
+MIN_FS_HZ = 16000.0
+MAX_FS_HZ = 384000.0
+#: Frames per block when a take held in memory is walked block by block.
+_ARRAY_BLOCK_FRAMES = 1 << 16
+
+
+def check_fs(fs: float) -> float:
+    """Validate an analysis sample rate in Hz; allowed 16000 to 384000 inclusive.
+
+    Raises
+    ------
+    BadValueError
+        Outside that range or not a number.
+
+    Example
+    -------
+    >>> check_fs(48000)
+    48000.0
+    """
+    check_range("sample rate (Hz)", fs, MIN_FS_HZ, MAX_FS_HZ)
+    return float(fs)
+
+
+def as_take(x, name: str = "take") -> np.ndarray:
+    """Validate audio and return it as ``(frames, channels)`` float64.
+
+    Accepts 1-D (mono) or 2-D ``(frames, channels)`` finite real samples, at least one frame.
+
+    Raises
+    ------
+    BadValueError
+        Not numeric, wrongly shaped, empty, or holding NaN/inf.
+
+    Example
+    -------
+    >>> as_take([0.0, 0.5]).shape
+    (2, 1)
+    """
+    try:
+        arr = np.asarray(x, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise BadValueError(
+            f"{name} is not numeric audio ({exc}); expected a (frames, channels) array"
+        ) from None
+    if arr.ndim == 1:
+        arr = arr[:, None]
+    if arr.ndim != 2 or arr.shape[0] == 0 or arr.shape[1] == 0:
+        raise BadValueError(
+            f"{name} has shape {arr.shape}; expected (frames, channels) with frames, channels >= 1"
+        )
+    if not np.all(np.isfinite(arr)):
+        raise BadValueError(
+            f"{name} holds {np.count_nonzero(~np.isfinite(arr))} NaN/inf samples; all must be finite"
+        )
+    return arr
+
+
+def check_band(band_hz, fs: float, name: str = "band_hz") -> tuple[float, float]:
+    """Validate a band ``(lo, hi)`` in Hz with ``0 < lo < hi``; clip ``hi`` to Nyquist.
+
+    After clipping, ``lo`` must still lie below Nyquist (``fs / 2``).
+
+    Raises
+    ------
+    BadValueError
+        Not a pair of numbers, or out of order, or ``lo`` at or above Nyquist.
+
+    Example
+    -------
+    >>> check_band((2000, 30000), 48000)
+    (2000.0, 24000.0)
+    """
+    try:
+        lo, hi = (float(v) for v in band_hz)
+    except (TypeError, ValueError):
+        raise BadValueError(f"{name} = {band_hz!r} is not a (lo, hi) pair of frequencies in Hz") from None
+    nyquist = fs / 2.0
+    if not (0.0 < lo < hi and lo < nyquist):
+        raise BadValueError(
+            f"{name} = ({lo:g}, {hi:g}) Hz is not allowed; need 0 < lo < hi and lo < {nyquist:g} Hz (Nyquist)"
+        )
+    return lo, min(hi, nyquist)
+
+
+def check_seconds(seconds: float, name: str) -> float:
+    """Validate a positive finite duration in seconds.
+
+    Raises
+    ------
+    BadValueError
+        Not finite or not above 0.
+
+    Example
+    -------
+    >>> check_seconds(2, "seconds")
+    2.0
+    """
+    seconds = float(seconds)
+    if not (np.isfinite(seconds) and seconds > 0.0):
+        raise BadValueError(f"{name} = {seconds!r} s is not allowed; need a finite duration > 0 s")
+    return seconds
+
+
+def dbfs(mean_square):
+    """Mean square to dBFS (AES17: full-scale sine = 0 dBFS); 0 gives -inf.
+
+    Example
+    -------
+    >>> float(dbfs(0.5))
+    0.0
+    """
+    with np.errstate(divide="ignore"):
+        return 10.0 * np.log10(2.0 * np.asarray(mean_square, dtype=np.float64))
+
+
+@dataclass(frozen=True)
+class TakeSource:
+    """A take the finders can walk block by block, as often as they need.
+
+    Attributes
+    ----------
+    fs : float
+        Sample rate, Hz (16000 to 384000).
+    frames : int
+        Length in sample frames.
+    blocks : callable
+        ``blocks()`` returns a fresh iterator of float64 ``(frames, channels)`` blocks
+        that together hold the take.
+    """
+
+    fs: float
+    frames: int
+    blocks: Callable[[], Iterator[np.ndarray]]
+
+    @property
+    def seconds(self) -> float:
+        """Duration in seconds."""
+        return self.frames / self.fs
+
+    @classmethod
+    def from_array(cls, x, fs: float) -> TakeSource:
+        """A take held in memory (validated once here).
+
+        Raises
+        ------
+        BadValueError
+            Bad audio or rate.
+
+        Example
+        -------
+        >>> TakeSource.from_array(np.zeros(48000), 48000).seconds
+        1.0
+        """
+        take, fs = as_take(x), check_fs(fs)
+
+        def blocks():
+            for start in range(0, take.shape[0], _ARRAY_BLOCK_FRAMES):
+                yield take[start : start + _ARRAY_BLOCK_FRAMES]
+
+        return cls(fs, take.shape[0], blocks)
+
+    @classmethod
+    def from_file(cls, path) -> TakeSource:
+        """A take read from an audio file in blocks (never whole).
+
+        Raises
+        ------
+        AudioFileError
+            The file is unreadable or holds NaN/inf samples.
+        BadValueError
+            Its sample rate is outside 16000 to 384000 Hz.
+
+        Example
+        -------
+        >>> import soundfile as sf, tempfile, os
+        >>> p = os.path.join(tempfile.mkdtemp(), "a.wav")
+        >>> sf.write(p, np.zeros((4800, 1)), 48000)
+        >>> TakeSource.from_file(p).seconds
+        0.1
+        """
+        from emulate.audio import stream
+
+        info = stream.read_info(path)
+        return cls(check_fs(info.samplerate), info.frames, lambda: stream.iter_blocks(path))
