@@ -26,9 +26,9 @@ def _found(names) -> str | None:
 
 def chromium_missing() -> str | None:
     """Why the browser tests cannot run here (None when they can)."""
-    try:
-        import selenium  # noqa: F401  (the test extra)
-    except ImportError:
+    import importlib.util
+
+    if importlib.util.find_spec("selenium") is None:
         return "selenium is not installed (pip install -e '.[test]')"
     if _found(_BROWSERS) is None or _found(_DRIVERS) is None:
         return ("Chromium and its driver are not installed (Debian: apt-get install -y chromium "

@@ -527,14 +527,20 @@ def sweep_into(takes, plan: SweepPlan, out_dir, *, force: bool = False, workers:
         write_summary(result, staging)
         pictures = (finish(result, staging) if finish is not None else None) or ()
         if page:
-            _write_page(result, out_dir, staging, pictures, match)
+            write_listening_page(result, out_dir, into=staging, pictures=pictures, match=match)
     return result
 
 
-def _write_page(result: SweepResult, out_dir: Path, staging: Path, pictures, match: bool) -> Path:
-    """Copy each take into the folder (the page plays only what is inside it) and write ``index.html``."""
+def write_listening_page(result: SweepResult, out_dir, *, into=None, pictures=(), match: bool = True) -> Path:
+    """Copy each take into the folder (the page plays only what is inside it) and write ``index.html``.
+
+    ``out_dir`` is the folder the result's paths name; ``into`` the folder actually written
+    (a staging folder renamed to ``out_dir`` later; default ``out_dir``). Returns the page's path.
+    """
     from emulate.report import listening  # the page: loaded only when written
 
+    out_dir = Path(out_dir)
+    staging = out_dir if into is None else Path(into)
     dries = {}
     for take in result.reels:
         copy = staging / f"dry--{Path(take).name}"
