@@ -112,3 +112,20 @@ class TestWritePage:
         assert path == staging / "index.html"
         assert 'src="dry--take.wav"' in path.read_text()
         assert [p.name for p in staging.iterdir()] == ["index.html"]  # atomic: no temporary left
+
+
+class TestPageFromPairs:
+    def test_a_batch_of_pairs_makes_one_listing_per_take(self, tmp_path):
+        pairs = [listening.RenderPair(f"take{i}.wav", str(tmp_path / f"dry{i}.wav"), str(tmp_path / f"wet{i}.wav"),
+                                      -2.0 * i) for i in (1, 2)]
+        page = listening.page_from_pairs(pairs, columns=(("take", "take"),), rows=({"take": "take1.wav"},))
+        assert [t.name for t in page.takes] == ["take1.wav", "take2.wav"] and page.pick is None
+        assert [v.gain_db for v in page.takes[1].players] == [-4.0, 0.0]  # dry turned down to the render
+        text = listening.page_html(page, tmp_path)
+        assert 'src="wet2.wav"' in text and "take1.wav" in text and "<h2 id=\"pick\">" not in text
+
+    def test_raw_levels_on_request(self, tmp_path):
+        pairs = [listening.RenderPair("t.wav", str(tmp_path / "d.wav"), str(tmp_path / "w.wav"), -6.0)]
+        page = listening.page_from_pairs(pairs, matched=False)
+        assert [v.gain_db for v in page.takes[0].players] == [0.0, 0.0]
+        assert "Raw levels" in listening.page_html(page, tmp_path)

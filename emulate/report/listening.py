@@ -32,8 +32,8 @@ from urllib.parse import quote
 from emulate import files
 from emulate.errors import BadValueError
 
-__all__ = ["PAGE_NAME", "ListeningPage", "TakeListing", "Version", "match_levels", "page_from_sweep",
-           "page_html", "write_page"]
+__all__ = ["PAGE_NAME", "SWEEP_COLUMNS", "ListeningPage", "RenderPair", "TakeListing", "Version", "match_levels",
+           "page_from_pairs", "page_from_sweep", "page_html", "write_page"]
 
 PAGE_NAME = "index.html"
 #: The summary table of a sweep: row key and heading.
@@ -118,6 +118,51 @@ def match_levels(listing: TakeListing) -> TakeListing:
     return replace(listing, dry=matched(listing.dry), versions=tuple(matched(v) for v in listing.versions))
 
 
+@dataclass(frozen=True)
+class RenderPair:
+    """One take of a batch: its dry and rendered files (inside the page's folder) and how the
+    loudness changed (BS.1770, dB; None if not measured)."""
+
+    name: str
+    dry: str
+    wet: str
+    loudness_change_db: float | None = None
+    label: str = "rendered"
+    extras: tuple[Version, ...] = ()
+
+
+def page_from_pairs(pairs, *, title: str = "Listening: batch", columns=(), rows=(), matched: bool = True,
+                    notes=()) -> ListeningPage:
+    """The page of a batch: per take the dry file and its render, level-matched unless ``matched`` is False.
+
+    Parameters
+    ----------
+    pairs : iterable of RenderPair
+        Every file must lie inside the folder the page is written for (:func:`write_page`).
+    title : str
+        The page's heading.
+    columns, rows
+        The summary table, as :class:`ListeningPage` takes it (e.g. one row per take).
+    matched : bool
+        Turn each take's louder file down to the quieter one's loudness (default).
+    notes : iterable of str
+        Lines shown under the heading.
+
+    Example
+    -------
+    >>> page = page_from_pairs([RenderPair("t.wav", "dry/t.wav", "out/t.wav", -4.6)])
+    >>> [v.gain_db for v in page.takes[0].players]
+    [-4.6, 0.0]
+    """
+    listings = []
+    for pair in pairs:
+        listing = TakeListing(pair.name, Version("dry", pair.dry, 0.0 if pair.loudness_change_db is not None else None),
+                              (Version(pair.label, pair.wet, pair.loudness_change_db),), tuple(pair.extras))
+        listings.append(match_levels(listing) if matched else listing)
+    return ListeningPage(title=title, takes=tuple(listings), columns=tuple(columns), rows=tuple(rows),
+                         matched=matched, notes=tuple(notes))
+
+
 def page_from_sweep(result, folder, *, pictures=(), matched: bool = True, dries=None) -> ListeningPage:
     """The page of a finished sweep (an :class:`emulate.work.sweep.SweepResult`) in ``folder``.
 
@@ -138,7 +183,8 @@ def page_from_sweep(result, folder, *, pictures=(), matched: bool = True, dries=
         listing = TakeListing(Path(take).name, Version("dry", dries.get(take, take), 0.0), versions, tuple(extras),
                               result.pick["setting"], tuple(filter(None, [reel.note()])))
         listings.append(match_levels(listing) if matched else listing)
-    return ListeningPage(title=f"Listening: sweep of {len(result.plan.settings)} settings ({result.plan.axis})",
+    stepped = {"notch": "notch frequency", "mix": "mix", "q": "Q"}[result.plan.axis]
+    return ListeningPage(title=f"Listening: {len(result.plan.settings)} settings, stepping the {stepped}",
                          takes=tuple(listings), columns=SWEEP_COLUMNS, rows=tuple(result.rows),
                          pick=result.pick["setting"], pick_reason=result.pick["reason"],
                          pictures=tuple(str(p) for p in pictures), matched=matched)
