@@ -30,7 +30,7 @@ def response(rate, plot_path, force, as_json, **options):
     payload = summary.metrics_payload(network, metrics, found, stable)
     text = summary.response_text(network, metrics, found, stable)
     if rate is not None and stable.stable:
-        from emulate.dsp import emulation  # numba kernels: loaded only for --rate
+        from emulate.dsp import emulation  # the digital design (no numba): loaded only for --rate
 
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)
