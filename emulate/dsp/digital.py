@@ -82,6 +82,7 @@ import numpy as np
 
 from emulate.analog.roots import upper_and_real
 from emulate.errors import BadValueError, CircuitError
+from emulate.search import golden_section_min
 from emulate.validate import check_range
 
 __all__ = [
@@ -535,31 +536,6 @@ def _sos_response_z(sos, f_hz, fs):
     return np.prod(num / den, axis=1)
 
 
-# Golden-section ratio (3 - sqrt 5) / 2: the interior point's share of a bracket.
-_GOLDEN = (3.0 - math.sqrt(5.0)) / 2.0
-
-
-def _golden_min(fun, a, b, xtol):
-    """Minimiser of a unimodal ``fun`` on [a, b] to within ``xtol`` (golden-section search).
-
-    Keeps a bracket [a, b] with two interior points and drops the side of the
-    worse one, shrinking the bracket by 0.618 per evaluation (Kiefer 1953;
-    Press et al., Numerical Recipes, 3rd ed., sec. 10.2).
-    """
-    x1, x2 = a + _GOLDEN * (b - a), b - _GOLDEN * (b - a)
-    f1, f2 = fun(x1), fun(x2)
-    while b - a > xtol:
-        if f1 <= f2:
-            b, x2, f2 = x2, x1, f1
-            x1 = a + _GOLDEN * (b - a)
-            f1 = fun(x1)
-        else:
-            a, x1, f1 = x1, x2, f2
-            x2 = b - _GOLDEN * (b - a)
-            f2 = fun(x2)
-    return x1 if f1 <= f2 else x2
-
-
 # --- stage 3: checks ---------------------------------------------------------
 
 
@@ -771,7 +747,7 @@ def _null_hz(magnitude, near_hz, hi_hz):
     i = int(np.argmin(magnitude(f)))
     step = f[1] - f[0]
     a, b = max(lo, f[i] - step), min(hi, f[i] + step)
-    return float(_golden_min(lambda x: float(magnitude(np.array([x]))[0]), a, b, near_hz * 1e-9))
+    return golden_section_min(magnitude, a, b, near_hz * 1e-9)
 
 
 def _digital_null_hz(sos, fs, near_hz):
