@@ -67,8 +67,8 @@ All designs are causal IIR sections at the base rate, no oversampling; the
 latency is 0 except where the phase all-pass is used (1 to 4 samples).
 
 Only numpy is imported: the zpk -> sos pairing, the response evaluation of zpk
-and sos on a frequency grid and the bounded null search are small module-private
-routines here, so rendering does not load scipy.signal or scipy.optimize (about
+and sos on a frequency grid are small module-private routines here and the bounded
+null search is the package's one golden-section search (:mod:`emulate.search`), so rendering does not load scipy.signal or scipy.optimize (about
 50 MB of resident memory).  The tests check them against scipy.signal.zpk2sos,
 freqs_zpk and sosfreqz.
 """
