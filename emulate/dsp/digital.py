@@ -95,6 +95,7 @@ __all__ = [
     "fidelity_error_db",
     "phase_band_hz",
     "phase_error_deg",
+    "worst_error_db",
 ]
 
 # Response level below which the fidelity target does not apply (dB).
@@ -688,6 +689,39 @@ def phase_error_deg(z, p, k, sos, fs, band_hz, latency_samples=0):
     return _errors(z, p, k, sos, fs, band_hz, latency_samples)[1]
 
 
+def worst_error_db(h_analog, h_digital, floor_db: float = FLOOR_DB) -> float:
+    """Largest |dB| difference between two responses wherever the analog is above ``floor_db``.
+
+    The package's one worst-error measure: the design's fidelity figure and the
+    pictures' caption both come from it.  The caller picks the frequencies (the
+    fidelity band, a picture's grid from 20 Hz up).
+
+    Parameters
+    ----------
+    h_analog, h_digital : array_like of complex
+        The two responses on the same frequencies.
+    floor_db : float, optional
+        Analog level (dB) at or below which a point is not compared (default -30 dB).
+
+    Returns
+    -------
+    float
+        Worst |dB| error, 0.0 where the analog never rises above ``floor_db``.
+
+    Example
+    -------
+    >>> round(worst_error_db([1.0, 0.5, 1e-3], [1.0, 0.25, 1.0]), 3)  # 1e-3 is -60 dB: not compared
+    6.021
+    """
+    h_analog, h_digital = np.asarray(h_analog), np.asarray(h_digital)
+    with np.errstate(divide="ignore"):
+        level = 20.0 * np.log10(np.abs(h_analog))
+        keep = level > floor_db
+        if not np.any(keep):
+            return 0.0
+        return float(np.max(np.abs(20.0 * np.log10(np.abs(h_digital[keep])) - level[keep])))
+
+
 def _errors(z, p, k, sos, fs, band_hz, latency_samples):
     """(worst |dB| error, worst |phase| error in degrees) where the analog is above -30 dB."""
     fs = check_sample_rate_hz(fs)
@@ -716,11 +750,7 @@ class _Reference:
 
     def magnitude_error_db(self, sos):
         """Worst |dB| error where the analog is above -30 dB (0.0 where it never is)."""
-        if not np.any(self.keep):
-            return 0.0
-        with np.errstate(divide="ignore"):
-            db_d = 20.0 * np.log10(np.abs(self.digital(sos)[self.keep]))
-        return float(np.max(np.abs(db_d - self.db[self.keep])))
+        return worst_error_db(self.h, self.digital(sos))
 
     def phase_error_rad(self, sos, latency_samples=0):
         """Digital w (rad/sample) and phase(H_d / H_a) (rad) over the phase part of the grid."""

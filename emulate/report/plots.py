@@ -22,6 +22,7 @@ from emulate.errors import BadValueError
 from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
 from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
+from emulate.dsp.digital import worst_error_db
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -113,13 +114,6 @@ def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
     return processor.frequency_response(f_hz), processor.fidelity_db
 
 
-def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
-    """Largest |dB| difference from 20 Hz up wherever the analog is above ``floor_db`` (dB)."""
-    level = db(h_analog)
-    keep = (np.asarray(f_hz) >= 20.0) & (level > floor_db)
-    return float(np.max(np.abs(db(h_digital)[keep] - level[keep]))) if np.any(keep) else 0.0
-
-
 def plot_response(network, path, fs: float | None = None, label: str | None = None) -> Path:
     """Analog magnitude and phase of ``network``, with the digital emulation at ``fs`` overlaid.
 
@@ -165,7 +159,7 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
         h_d, fidelity = digital_response(network, fs, f)
         mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
         phase.plot(f, np.degrees(np.angle(h_d)), color=_DIGITAL, linestyle="--")
-        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
+        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(h[f >= 20.0], h_d[f >= 20.0]):.3f} dB (20 Hz-{top:.0f} Hz, "
                     f"where analog above -30 dB); wet path {fidelity:.3f} dB", color=_DIGITAL, fontsize=11,
                     va="bottom")
     mag.axvline(metrics.notch_hz, color=_MARK, linewidth=1.0, linestyle=":")
