@@ -21,8 +21,9 @@ from matplotlib.figure import Figure
 from emulate.errors import BadValueError
 from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
-from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
+from emulate.analog.response import db, measure
 from emulate.dsp.digital import worst_error_db
+from emulate.report.summary import cut_text
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -154,7 +155,7 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     mag.plot(f, _level_db(h), color=_ANALOG, label="analog (exact)")
     phase.plot(f, np.degrees(np.angle(h)), color=_ANALOG)
     title = (f"{label + ': ' if label else ''}{circuit_words(network)}\n"
-             f"notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}")
+             f"notch {metrics.notch_hz:.1f} Hz, {cut_text(metrics.depth_below_passband_db)}")
     if fs is not None:
         h_d, fidelity = digital_response(network, fs, f)
         mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
@@ -171,11 +172,6 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     phase.set_ylim(-100, 100)
     _frequency_axis(phase, (10.0, top))
     return _save(figure, path)
-
-
-def _depth_words(depth_db: float) -> str:
-    return (f"exact null (deeper than {EXACT_NULL_DB:.0f} dB)" if is_exact_null(depth_db)
-            else f"{depth_db:.1f} dB below the passband")
 
 
 # --- tolerance ----------------------------------------------------------------------
