@@ -77,10 +77,10 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
         from emulate.report import plots
 
         try:
-            (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
             label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
-            drawn = plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz,
-                                             label=label)
+            # both files streamed a chunk at a time: memory stays flat with the take's length
+            drawn = plots.plot_take_spectrum(in_path, out_path, float(info.samplerate), plot_path,
+                                             notch_hz=measure(network.response).notch_hz, label=label)
             text += f"\n  wrote {drawn}"
         except BaseException:  # the command failed as a whole: a new OUT goes too
             files.discard(out_path)

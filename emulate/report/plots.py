@@ -18,6 +18,7 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from emulate.audio.spectrum import average_power_density
 from emulate.errors import BadValueError
 from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
@@ -221,17 +222,10 @@ def plot_tolerance(result, path, label: str | None = None) -> Path:
 
 # --- takes ----------------------------------------------------------------------------
 
-def _average_spectrum_db(x, fs: float):
-    from scipy import signal  # about 0.3 s to import: only the take pictures need it
-
-    x = np.asarray(x, float)
-    if x.ndim == 1:
-        x = x[:, None]
-    if x.ndim != 2 or x.shape[0] < 16:
-        raise BadValueError(f"take of shape {x.shape}: needs (frames, channels) with at least 16 frames")
-    segment = min(8192, x.shape[0])
-    f, power = signal.welch(x, fs=fs, nperseg=segment, axis=0)
-    return f[1:], 10 * np.log10(np.maximum(np.mean(power, axis=1)[1:] * fs / 2, 1e-20))
+def _average_spectrum_db(take, fs: float):
+    """Welch-averaged level per band of a take (an array or a file, streamed), dB re full scale."""
+    f, density = average_power_density(take, fs)
+    return f[1:], 10 * np.log10(np.maximum(density[1:] * fs / 2, 1e-20))
 
 
 def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, label: str | None = None) -> Path:
@@ -239,8 +233,10 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, l
 
     Parameters
     ----------
-    dry, wet : ndarray, (frames, channels) float
-        The take before and after; channels are averaged (Welch, 8192-point Hann).
+    dry, wet : ndarray, (frames, channels) float, or str or Path
+        The take before and after, as samples or as sound files at ``fs`` (read a
+        chunk at a time: memory does not grow with their length); channels are
+        averaged (Welch, 8192-point Hann; :mod:`emulate.audio.spectrum`).
         ``wet`` may be None: the take alone (e.g. where its sibilance sits).
     fs : float
         Sample rate, Hz (> 0).
