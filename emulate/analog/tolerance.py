@@ -57,7 +57,7 @@ from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.analog.stability import batch_stability
 from emulate.analog.response import EXACT_NULL_DB, measure_batch
-from emulate.validate import check_range
+from emulate.validate import check_range, check_seed
 
 __all__ = ["Tolerances", "ToleranceResult", "Corners", "PartSensitivity", "BatchMetrics", "monte_carlo",
            "worst_corners", "build_at", "builds", "deviations", "unit_draws", "divider_k", "varied_parts",
@@ -211,18 +211,6 @@ def _average_ranks(x) -> np.ndarray:
     ranks = np.empty(len(x))
     ranks[order] = np.repeat(starts + (counts + 1) / 2.0, counts)
     return ranks
-
-
-def check_seed(seed) -> int:
-    """Return ``seed`` as an int after checking it is an integer 0 <= seed < 2**63.
-
-    Raises
-    ------
-    BadValueError : anything else.
-    """
-    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or not 0 <= int(seed) < 2**63:
-        raise BadValueError(f"seed {seed!r}: allowed an integer 0 .. 2**63 - 1")
-    return int(seed)
 
 
 def unit_draws(seed: int, which) -> np.ndarray:

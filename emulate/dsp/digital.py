@@ -83,7 +83,7 @@ import numpy as np
 from emulate.analog.roots import upper_and_real
 from emulate.errors import BadValueError, CircuitError
 from emulate.search import golden_section_min
-from emulate.validate import check_range
+from emulate.validate import check_range, check_sample_rate_hz
 
 __all__ = [
     "DigitalNotch",
@@ -168,32 +168,6 @@ class DigitalNotch:
 
 
 # --- validators (one per concept) -------------------------------------------
-
-
-def check_sample_rate_hz(fs):
-    """Return ``fs`` as float after checking it is a finite rate > 0 Hz.
-
-    Parameters
-    ----------
-    fs : float
-        Sample rate in Hz.
-
-    Returns
-    -------
-    float
-
-    Raises
-    ------
-    BadValueError
-        If ``fs`` is not a finite number > 0.
-
-    Example
-    -------
-    >>> check_sample_rate_hz(48000)
-    48000.0
-    """
-    check_range("sample rate (Hz)", fs, 0.0, math.inf, low_open=True, high_open=True)
-    return float(fs)
 
 
 def _check_notch_hz(notch_hz, fs, *, below_nyquist=True):
