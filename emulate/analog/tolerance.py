@@ -184,6 +184,14 @@ def _mix64(x: np.ndarray) -> np.ndarray:
     return x ^ (x >> np.uint64(31))
 
 
+def _fill_unmeasured_defaults(measured) -> None:
+    """No oscillation (NaN Hz) and every notch in range, where a frozen result was given none."""
+    if measured.oscillation_hz is None:
+        object.__setattr__(measured, "oscillation_hz", np.full(len(measured.depth_db), np.nan))
+    if measured.in_range is None:
+        object.__setattr__(measured, "in_range", np.ones(len(measured.depth_db), bool))
+
+
 def rank_correlation(a, b) -> float:
     """Spearman's rank correlation of ``a`` and ``b``: Pearson's on their ranks, ties averaged.
 
@@ -354,10 +362,7 @@ class Corners:
     names: tuple = PART_NAMES
 
     def __post_init__(self):
-        if self.oscillation_hz is None:
-            object.__setattr__(self, "oscillation_hz", np.full(len(self.depth_db), np.nan))
-        if self.in_range is None:
-            object.__setattr__(self, "in_range", np.ones(len(self.depth_db), bool))
+        _fill_unmeasured_defaults(self)
 
     @property
     def oscillating(self) -> int:
@@ -419,10 +424,7 @@ class ToleranceResult:
     in_range: np.ndarray = field(default=None, repr=False)
 
     def __post_init__(self):
-        if self.oscillation_hz is None:
-            object.__setattr__(self, "oscillation_hz", np.full(len(self.depth_db), np.nan))
-        if self.in_range is None:
-            object.__setattr__(self, "in_range", np.ones(len(self.depth_db), bool))
+        _fill_unmeasured_defaults(self)
 
     @property
     def draws(self) -> int:

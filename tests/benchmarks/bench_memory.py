@@ -117,22 +117,26 @@ def report(results: dict) -> None:
         print(f"{name:10s} largest peak {r['largest_peak_mb']:6.1f} MB; growth {per_text} ({goal})")
 
 
-def main(argv=None) -> int:
+def parse(argv) -> argparse.Namespace:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--minutes", type=float, nargs="+", default=[1.0, 6.0],
                     help="take lengths for render and sibilance, minutes (at least two)")
     ap.add_argument("--sweep-seconds", type=float, default=20.0, help="length of each sweep take, s")
     ap.add_argument("--million", action="store_true", help="also 1,000,000 tolerance draws (slow)")
-    ap.add_argument("--json", default="bench-out/memory.json", help="where to write figures")
+    ap.add_argument("--json", type=Path, default=Path("bench-out/memory.json"), help="where to write figures")
     args = ap.parse_args(argv)
     if len(set(args.minutes)) < 2 or min(args.minutes) <= 0:
         ap.error(f"--minutes needs at least two different lengths > 0; got {args.minutes}")
+    return args
+
+
+def main(argv=None) -> int:
+    args = parse(argv)
     results = run(args)
     report(results)
-    out = Path(args.json)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    out.write_text(json.dumps(results, indent=2))
-    print(f"wrote {out}")
+    args.json.parent.mkdir(parents=True, exist_ok=True)
+    args.json.write_text(json.dumps(results, indent=2) + "\n")
+    print(f"wrote {args.json}")
     return 0
 
 
