@@ -22,6 +22,10 @@ import numpy as np
 from emulate.errors import EmulateWarning
 from emulate.search import golden_section_min
 
+__all__ = ["AUDIO_BAND_HZ", "EXACT_NULL_DB", "NotchMetrics", "is_exact_null", "db", "measure",
+           "measure_network", "measure_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
+           "SHALLOW_DB", "LOAD_FACTOR", "SOURCE_FACTOR", "check_twin_t", "warn_all"]
+
 AUDIO_BAND_HZ = (20.0, 20000.0)
 EXACT_NULL_DB = 200.0  # a notch deeper than this below the passband is an exact null in float64 (the one threshold)
 _LOG_F_TOL = 1e-13  # the notch search stops within 1e-13 of log f

@@ -12,6 +12,8 @@ from emulate.analog.response import check_twin_t, measure_network
 from emulate.analog.stability import check_stability
 from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
+__all__ = ["response", "design"]
+
 
 @main.command()
 @circuit_options

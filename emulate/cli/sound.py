@@ -15,6 +15,8 @@ from emulate.dsp import emulation
 from emulate import files
 from emulate.report import summary
 
+__all__ = ["render"]
+
 
 @main.command()
 @click.argument("in_path", metavar="IN", type=click.Path(dir_okay=False))

@@ -26,6 +26,10 @@ from emulate.analog.response import db, measure
 from emulate.dsp.digital import worst_error_db
 from emulate.report.summary import cut_text
 
+__all__ = ["FIG_SIZE_PX", "DPI", "FLOOR_DB", "SWEEP_KEYS", "circuit_words", "digital_response",
+           "plot_response", "plot_tolerance", "plot_take_spectrum", "plot_sweep", "plot_measured",
+           "plot_finding"]
+
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
 FLOOR_DB = -120.0  # charts stop here; deeper nulls are drawn at the floor

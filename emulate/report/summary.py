@@ -15,6 +15,14 @@ from emulate.analog.networks import part_kind
 from emulate.analog.parts import format_value
 from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null
 
+__all__ = ["TABLE_HZ", "IDEAL_NULL_DB", "finite_or_null", "json_text", "network_line", "SEARCH_TEXT",
+           "db_text", "cut_text", "depth_text", "metrics_lines", "warning_lines", "table_lines",
+           "response_text", "metrics_payload", "table_rows", "design_payload", "design_text",
+           "unmeasured_lines", "corner_line", "render_text", "shortfall_lines", "fidelity_payload",
+           "digital_payload", "digital_text", "sibilance_payload", "suggestion_line", "sibilance_text",
+           "hum_payload", "hum_text", "resonance_payload", "resonance_text", "sweep_text", "preset_payload",
+           "preset_list_text", "preset_text", "LISTENING_CAUTION", "demo_payload", "demo_text"]
+
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
 IDEAL_NULL_DB = -EXACT_NULL_DB  # table floor: deeper is an exact null

@@ -47,6 +47,11 @@ from emulate.analog.response import measure
 from emulate.report.summary import json_text
 from emulate.validate import check_count, check_range
 
+__all__ = ["TIE_DB", "REEL_GAP_S", "REEL_EXCERPT_S", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
+           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
+           "MEASURES", "summarise", "pick_setting", "write_reel", "rows_as_csv", "read_pick", "check_out",
+           "sweep_into", "write_summary"]
+
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 REEL_GAP_S = 0.6
 REEL_EXCERPT_S = 3.0
