@@ -15,6 +15,9 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
 from emulate.analog.parts import parse_value
 from emulate.analog.response import measure
 
+__all__ = ["takes_argument", "sweep_command", "preset", "preset_save", "preset_list", "preset_show",
+           "preset_delete"]
+
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
 

@@ -54,6 +54,11 @@ from emulate.analog.response import measure
 from emulate.report.summary import json_text
 from emulate.validate import check_count, check_range
 
+__all__ = ["TIE_DB", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
+           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
+           "MEASURES", "summarise", "pick_setting", "rows_as_csv", "read_pick", "check_out",
+           "sweep_into", "write_summary"]
+
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 MAX_STEPS = 64
 PASSIVE_Q = 0.25  # the passive balanced twin-T (Analog Devices MT-225)
