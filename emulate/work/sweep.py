@@ -296,15 +296,13 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
                 progress(frames[job[0]])
         rows = summarise(results, plan)
         pick = pick_setting(rows)
-        removed_paths = {}
-        if removed:
-            chosen = networks[pick["setting"]]
-            wanted = {t: removed_path(out_dir, t, pick["setting"]) for t in takes}
-            for t, future in [(t, pool.submit(_render_removed, t, chosen, path)) for t, path in wanted.items()]:
-                removed_paths[str(t)] = str(future.result())
-    # reels from the excerpts the jobs returned: no render is read again
-    made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
-            for t in takes}
+        chosen = networks[pick["setting"]]
+        removing = {str(t): pool.submit(_render_removed, t, chosen, removed_path(out_dir, t, pick["setting"]))
+                    for t in (takes if removed else [])}
+        # reels from the excerpts the jobs returned (no render is read again), while the pool removes
+        made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
+                for t in takes}
+        removed_paths = {take: str(future.result()) for take, future in removing.items()}
     return SweepResult(plan, results, rows, pick, made, removed_paths)
 
 
