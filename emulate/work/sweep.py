@@ -108,6 +108,11 @@ class SweepPlan:
         return "mix" if self.mixes else "q" if self.qs else "notch"
 
     @property
+    def axis_words(self) -> str:
+        """What the sweep steps, for people: ``notch frequency``, ``mix`` or ``Q``."""
+        return {"notch": "notch frequency", "mix": "mix", "q": "Q"}[self.axis]
+
+    @property
     def settings(self) -> tuple[Setting, ...]:
         """Every setting, in the order given."""
         if self.mixes:
@@ -544,7 +549,7 @@ def write_listening_page(result: SweepResult, out_dir, *, into=None, pictures=()
         copy = staging / f"dry--{Path(take).name}"
         shutil.copyfile(take, copy)  # byte for byte: the dry take as it is
         dries[take] = str(out_dir / copy.name)
-    page = listening.page_from_sweep(result, out_dir, pictures=pictures, matched=match, dries=dries)
+    page = listening.page_from_sweep(result, pictures=pictures, matched=match, dries=dries)
     return listening.write_page(page, out_dir, into=staging)
 
 
