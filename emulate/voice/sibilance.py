@@ -310,12 +310,13 @@ def _detect(source: TakeSource, band) -> _Detection | None:
     excess = excess_bands.sum(axis=1)
     total = band_power.sum(axis=1, dtype=np.float64)
     loud = float(np.percentile(total, 95.0))
-    snr_db = 10.0 * np.log10(_best_half_octave(sb, floors[search]))
     voice = summer.centres_hz < VOICE_TOP_HZ
-    voice_rise_db = 10.0 * np.log10(band_power[:, voice].sum(axis=1, dtype=np.float64) / floors[voice].sum())
-    candidate = ((snr_db >= ABOVE_FLOOR_DB) & (snr_db - voice_rise_db >= ABOVE_VOICE_RISE_DB)
-                 & (excess >= loud * 10.0 ** (-UNDER_LOUD_MAX_DB / 10.0))
-                 & (dbfs(excess) >= GATE_DBFS))
+    with np.errstate(divide="ignore", invalid="ignore"):  # frames of digital silence: never candidates
+        snr_db = 10.0 * np.log10(_best_half_octave(sb, floors[search]))
+        voice_rise_db = 10.0 * np.log10(band_power[:, voice].sum(axis=1, dtype=np.float64) / floors[voice].sum())
+        candidate = ((snr_db >= ABOVE_FLOOR_DB) & (snr_db - voice_rise_db >= ABOVE_VOICE_RISE_DB)
+                     & (excess >= loud * 10.0 ** (-UNDER_LOUD_MAX_DB / 10.0))
+                     & (dbfs(excess) >= GATE_DBFS))
     kind = np.zeros(total.size, np.int8)
     min_run = math.ceil(MIN_RUN_S / grid.hop_s - 1e-9)
     for start, stop in runs(candidate):
