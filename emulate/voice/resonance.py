@@ -198,21 +198,26 @@ def _quiet_runs(source: TakeSource) -> list[np.ndarray]:
     if live.size == 0:
         return []
     quiet = (power > 0) & (power <= np.percentile(live, 10.0) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
-    spans = [((a + 1) * grid.hop, (b - 1) * grid.hop) for a, b in runs(quiet) if b - a > 2]
-    stretches, offset, budget = [], 0, round(QUIET_MAX_S * source.fs)
-    pieces = {i: [] for i in range(len(spans))}
+    spans, budget = [], round(QUIET_MAX_S * source.fs)
+    for a, b in runs(quiet):
+        if b - a > 2 and budget > 0:
+            start, stop = (a + 1) * grid.hop, (b - 1) * grid.hop
+            spans.append((start, min(stop, start + budget)))
+            budget -= spans[-1][1] - start
+    pieces, offset, first = [[] for _ in spans], 0, 0  # spans are in order: walk them with the blocks
     for block in iter_mono(source):
-        for i, (a, b) in enumerate(spans):
-            lo, hi = max(a, offset), min(b, offset + block.size)
-            if lo < hi:
-                pieces[i].append(block[lo - offset : hi - offset])
-        offset += block.size
-    for i in range(len(spans)):
-        stretch = np.concatenate(pieces[i])
-        if budget <= 0:
+        end = offset + block.size
+        while first < len(spans) and spans[first][1] <= offset:
+            first += 1
+        for i in range(first, len(spans)):
+            a, b = spans[i]
+            if a >= end:
+                break
+            pieces[i].append(block[max(a, offset) - offset : min(b, end) - offset])
+        offset = end
+        if first >= len(spans):
             break
-        stretches.append(stretch[:budget])
-        budget -= stretch.size
+    stretches = [np.concatenate(piece) for piece in pieces if piece]
     return stretches
 
 
