@@ -188,7 +188,8 @@ def _steady_spectrum(source: TakeSource, f_hz: np.ndarray, mean: np.ndarray) -> 
     top = int(np.searchsorted(grid.f_hz, TOP_HZ))
     count = 1 + (source.frames - grid.size) // grid.hop
     step = -(-count // STEADY_MAX_SEGMENTS)
-    kept = [power for i, power in enumerate(_iter_segments(source, grid, top)) if i % step == 0]
+    kept = [power.copy() for i, power in enumerate(_iter_segments(source, grid, top)) if i % step == 0]  # a
+    # copy: a view would keep its whole chunk of full-length spectra alive
     return np.median(np.stack(kept), axis=0), grid.f_hz[:top]
 
 

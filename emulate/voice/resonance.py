@@ -5,7 +5,7 @@ and colours everything the microphone hears, the room's quiet noise between word
 included. So the finder reads the resonance where the voice is absent:
 
 1. quiet moments: 20 ms frames within 6 dB of the take's quietest tenth, each run less
-   one frame at each end (the edges of words), at most 120 s of them in all;
+   one frame at each end (the edges of words), at most 60 s of them in all;
 2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): below
    400 Hz from 0.3 s Hann frames lying wholly inside one quiet run (resolution, and no
    splice cuts a low ringing short); above, from 0.2 s frames over the quiet runs joined
@@ -57,7 +57,7 @@ SPLIT_HZ = 400.0
 #: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
 GATE_FRAME_S = 0.02
 QUIET_WITHIN_DB = 6.0
-QUIET_MAX_S = 120.0
+QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
 #: A range is examined only with at least this many quiet frames (fewer scatter too much).
@@ -213,7 +213,7 @@ def _quiet_runs(source: TakeSource) -> list[np.ndarray]:
             a, b = spans[i]
             if a >= end:
                 break
-            pieces[i].append(block[max(a, offset) - offset : min(b, end) - offset])
+            pieces[i].append(block[max(a, offset) - offset : min(b, end) - offset].astype(np.float32))
         offset = end
         if first >= len(spans):
             break

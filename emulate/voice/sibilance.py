@@ -82,6 +82,8 @@ S_FROM_HZ = 4000.0
 SH_FROM_HZ = 2500.0
 #: Vowel frames: not sibilant, within this of the loud frames, dB.
 VOWEL_WITHIN_DB = 20.0
+#: Frames decided at a time (bounds the temporaries of a long take).
+DECISION_CHUNK = 8192
 #: Takes shorter than this (seconds) are reported unusable ("too short").
 MIN_SECONDS = 0.5
 #: A class needs this much sibilant time (seconds) to be usable.
@@ -294,6 +296,20 @@ def _best_half_octave(ratio_num: np.ndarray, ratio_den: np.ndarray) -> np.ndarra
     return ((num[:, width:] - num[:, :-width]) / (den[:, width:] - den[:, :-width])).max(axis=1)
 
 
+def _decide(band_power: np.ndarray, floors, search, centres_hz, loud: float) -> tuple[np.ndarray, np.ndarray]:
+    """Search-band excess over the floors and the sibilant-candidate mask of some frames (stage 3)."""
+    sb = band_power[:, search].astype(np.float64)
+    excess = np.maximum(sb - floors[search], 0.0).sum(axis=1)
+    voice = centres_hz < VOICE_TOP_HZ
+    with np.errstate(divide="ignore", invalid="ignore"):  # frames of digital silence: never candidates
+        snr_db = 10.0 * np.log10(_best_half_octave(sb, floors[search]))
+        voice_rise_db = 10.0 * np.log10(band_power[:, voice].sum(axis=1, dtype=np.float64) / floors[voice].sum())
+        candidate = ((snr_db >= ABOVE_FLOOR_DB) & (snr_db - voice_rise_db >= ABOVE_VOICE_RISE_DB)
+                     & (excess >= loud * 10.0 ** (-UNDER_LOUD_MAX_DB / 10.0))
+                     & (dbfs(excess) >= GATE_DBFS))
+    return excess, candidate
+
+
 def _detect(source: TakeSource, band) -> _Detection | None:
     """Pass one and the frame decisions (None when the take is shorter than a frame)."""
     grid = FrameGrid.at(source.fs, FRAME_S, HOP_S, padded=True)
@@ -305,23 +321,18 @@ def _detect(source: TakeSource, band) -> _Detection | None:
     search = np.flatnonzero((summer.centres_hz >= band[0]) & (summer.centres_hz <= band[1]))
     if search.size == 0:
         raise BadValueError(f"search band {band[0]:g}-{band[1]:g} Hz holds no 1/6-octave analysis band; widen it")
-    sb = band_power[:, search].astype(np.float64)
-    excess_bands = np.maximum(sb - floors[search], 0.0)
-    excess = excess_bands.sum(axis=1)
     total = band_power.sum(axis=1, dtype=np.float64)
     loud = float(np.percentile(total, 95.0))
-    voice = summer.centres_hz < VOICE_TOP_HZ
-    with np.errstate(divide="ignore", invalid="ignore"):  # frames of digital silence: never candidates
-        snr_db = 10.0 * np.log10(_best_half_octave(sb, floors[search]))
-        voice_rise_db = 10.0 * np.log10(band_power[:, voice].sum(axis=1, dtype=np.float64) / floors[voice].sum())
-        candidate = ((snr_db >= ABOVE_FLOOR_DB) & (snr_db - voice_rise_db >= ABOVE_VOICE_RISE_DB)
-                     & (excess >= loud * 10.0 ** (-UNDER_LOUD_MAX_DB / 10.0))
-                     & (dbfs(excess) >= GATE_DBFS))
+    excess, candidate = np.empty(total.size), np.empty(total.size, bool)
+    for start in range(0, total.size, DECISION_CHUNK):  # in chunks: temporaries stay small for any length
+        part = slice(start, start + DECISION_CHUNK)
+        excess[part], candidate[part] = _decide(band_power[part], floors, search, summer.centres_hz, loud)
     kind = np.zeros(total.size, np.int8)
     min_run = math.ceil(MIN_RUN_S / grid.hop_s - 1e-9)
     for start, stop in runs(candidate):
         if stop - start >= min_run:
-            peak_band = summer.centres_hz[search][np.argmax(excess_bands[start:stop].sum(axis=0))]
+            over = np.maximum(band_power[start:stop, search] - floors[search], 0.0)
+            peak_band = summer.centres_hz[search][np.argmax(over.sum(axis=0))]
             if peak_band >= SH_FROM_HZ:
                 kind[start:stop] = 1 if peak_band >= S_FROM_HZ else 2
     vowel = (kind == 0) & (total >= loud * 10.0 ** (-VOWEL_WITHIN_DB / 10.0)) & (total > 0)
