@@ -12,7 +12,7 @@ bounded whatever the take's length (see :mod:`emulate.voice.frames` for the fram
    theirs (voiced energy, a louder or brighter vowel, rises with its own lower harmonics;
    a sibilant does not), the excess is within 30 dB of the take's loud frames and
    over -70 dBFS; runs shorter than 80 ms are dropped (stop bursts, aspiration, clicks:
-   on recorded words this halved the non-sibilant words reported, while /s/ runs last longer);
+   on 50 recorded words without sibilants it cut those reported from 19 to 12; /s/ lasts longer);
 4. classify each run by the band where its excess peaks: /s/-like at 4 kHz and above,
    /sh/-like from 2.5 kHz, none below (a bright vowel's second formant; a boundary between the two fricatives' spectral peaks, from memory
    of Jongman, Wayland & Wong, JASA 108, 2000);
