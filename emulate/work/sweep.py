@@ -54,10 +54,12 @@ from emulate.analog.response import measure
 from emulate.report.summary import json_text
 from emulate.validate import check_count, check_range
 
-__all__ = ["TIE_DB", "REEL_GAP_S", "REEL_EXCERPT_S", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
-           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
-           "MEASURES", "summarise", "pick_setting", "write_reel", "rows_as_csv", "read_pick", "check_out",
-           "sweep_into", "write_summary"]
+__all__ = ["TIE_DB", "MAX_STEPS", "PASSIVE_Q", "Q_STEPS_TOP", "Setting", "MAX_WORKERS", "SweepPlan",
+           "mix_steps", "q_steps", "held_by", "notch_steps", "JobResult", "SweepResult", "setting_label",
+           "render_path", "removed_path", "run_sweep", "check_workers", "MEASURES", "summarise",
+           "pick_setting", "rows_as_csv", "read_pick", "check_out", "sweep_into", "write_listening_page",
+           "write_summary"]
+
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 MAX_STEPS = 64
