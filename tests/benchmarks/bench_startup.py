@@ -68,16 +68,22 @@ def environment(work: Path, root: Path = ROOT) -> dict:
     return dict(os.environ, PYTHONPATH=str(root), EMULATE_PRESETS_DIR=str(work / "presets"))
 
 
+def clean(work: Path) -> None:
+    """Remove what the last run wrote (pictures, the render), so the next one may write them."""
+    for leftover in work.glob("*.png"):
+        leftover.unlink()
+    (work / "out.wav").unlink(missing_ok=True)
+
+
 def wall_times(args: list[str], work: Path, repeats: int, roots=(ROOT,)) -> list[list[float]]:
     """Wall times per checkout in ``roots``, the checkouts alternating run by run."""
     for root in roots:  # warm the file and numba caches of each
+        clean(work)
         subprocess.run(argv(args), cwd=work, env=environment(work, root), check=True, capture_output=True)
     times = [[] for _ in roots]
     for _ in range(repeats):
         for i, root in enumerate(roots):
-            for leftover in work.glob("*.png"):
-                leftover.unlink()
-            (work / "out.wav").unlink(missing_ok=True)
+            clean(work)
             t = time.perf_counter()
             subprocess.run(argv(args), cwd=work, env=environment(work, root), check=True, capture_output=True)
             times[i].append(time.perf_counter() - t)
@@ -86,9 +92,7 @@ def wall_times(args: list[str], work: Path, repeats: int, roots=(ROOT,)) -> list
 
 def imports(args: list[str], work: Path) -> dict:
     """Total import time (s) and which watched packages load, from ``-X importtime``."""
-    for leftover in work.glob("*.png"):
-        leftover.unlink()
-    (work / "out.wav").unlink(missing_ok=True)
+    clean(work)
     run = subprocess.run([sys.executable, "-X", "importtime", *argv(args)[1:]], cwd=work,
                          env=environment(work), check=True, capture_output=True, text=True)
     names, total_us = set(), 0
