@@ -12,8 +12,9 @@ is reported beside its goal from issue 8:
 Beside each, what the command loads, from ``python -X importtime`` in one more fresh
 process: the total import time and whether numpy, scipy, numba, matplotlib, pyloudnorm
 and the sweep are among the modules. The bare interpreter (``python -c pass``) is
-measured too, as the floor under every figure. Takes are invented: a 1-second 48 kHz
-stereo 24-bit sine at 6 kHz, in a temporary folder.
+measured too, as the floor under every figure. Takes are invented: a 3-second 48 kHz
+stereo 24-bit voice-like take with sibilance at 6 kHz (:mod:`emulate.voice.synth`; a plain
+sine has no sibilant frames to draw), in a temporary folder.
 
 With ``--baseline DIR`` (another checkout, e.g. the main branch's), every command also
 runs from that checkout, alternating with this one run by run, so both medians come
@@ -36,10 +37,12 @@ import tempfile
 import time
 from pathlib import Path
 
-import numpy as np
 import soundfile as sf
 
 ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+from emulate.voice.synth import voice_like_take  # noqa: E402
 PARTS = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "2n2", "--c2", "2n2", "--c3", "4n4"]
 WATCHED = ("numpy", "scipy", "scipy.signal", "scipy.stats", "numba", "matplotlib", "pyloudnorm", "emulate.work.sweep")
 GOALS_S = {"help": 0.2, "response": 0.5}
@@ -110,9 +113,8 @@ def imports(args: list[str], work: Path) -> dict:
 def run(args) -> dict:
     with tempfile.TemporaryDirectory(prefix="emulate-startup-") as folder:
         work = Path(folder)
-        t = np.arange(48000) / 48000
-        sf.write(work / "take.wav", 0.3 * np.column_stack([np.sin(2 * np.pi * 6000 * t)] * 2), 48000,
-                 subtype="PCM_24")
+        take = voice_like_take(48000, 3.0, pitch_hz=120.0, sibilance_hz=6000.0, seed=1, channels=2)
+        sf.write(work / "take.wav", take, 48000, subtype="PCM_24")
         results = {"repeats": args.repeats, "loadavg_1min_before": os.getloadavg()[0], "commands": {}}
         roots = (ROOT,) if args.baseline is None else (ROOT, Path(args.baseline).resolve())
         results["baseline"] = None if args.baseline is None else str(roots[1])
