@@ -399,9 +399,6 @@ def resonance_text(take, report, designed) -> str:
     return "\n".join(lines + _notch_lines(designed))
 
 
-_AXIS_WORDS = {"notch": "notch frequency", "mix": "mix", "q": "Q"}
-
-
 def sweep_text(result, csv_path, json_path, page_path=None) -> str:
     """The sweep table; cuts are positive dB (quieter), the loudness change a signed gain."""
     rows = ["  setting                      asked      as built   sibilance cut  loudness  relative cut  speech cost"]
@@ -415,7 +412,7 @@ def sweep_text(result, csv_path, json_path, page_path=None) -> str:
              for reel in result.reels.values()]
     removed = [f"what {result.pick['setting']} removes (dry minus wet):", *(f"  {p}" for p in result.removed.values())]
     return "\n".join([f"swept {len(result.plan.settings)} settings x {len(result.reels)} takes "
-                      f"({len(result.jobs)} renders), stepping the {_AXIS_WORDS[result.plan.axis]}", *rows,
+                      f"({len(result.jobs)} renders), stepping the {result.plan.axis_words}", *rows,
                       f"pick: {result.pick['setting']}: {result.pick['reason']}",
                       "listening reels (dry first, then each setting in order"
                       + (", loudness-matched):" if all(r.matched for r in result.reels.values()) else ", raw levels):"),
