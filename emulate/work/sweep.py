@@ -398,7 +398,7 @@ def _dry_take(take: Path) -> _DryTake:
     band_hz = report.band_hz if report.usable else report.search_band_hz
     levels = compare.take_levels(x, fs, band_hz)
     _check_measurable(take, levels)
-    return _DryTake(levels, (start, stop), x[start:stop], fs, audio.read_info(take).subtype)
+    return _DryTake(levels, (start, stop), x[start:stop].copy(), fs, audio.read_info(take).subtype)  # not the take
 
 
 def _check_measurable(take: Path, levels) -> None:
@@ -419,7 +419,7 @@ def _render_job(take: Path, setting: Setting, network, dry_levels, excerpt, out_
     result = JobResult(take=str(take), setting=setting.label, q=_q_value(setting.q), mix=setting.mix,
                        notch_target_hz=setting.notch_hz, notch_hz=measure(network.response).notch_hz,
                        path=str(out_path), **measures)
-    return result, wet[excerpt[0]:excerpt[1]]
+    return result, wet[excerpt[0]:excerpt[1]].copy()  # a copy: a slice would keep the whole render alive
 
 
 MEASURES = ("sibilance_reduction_db", "loudness_change_db", "intelligibility_cost")
