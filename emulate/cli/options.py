@@ -12,6 +12,7 @@ import importlib
 import os
 import re
 import warnings
+from pathlib import Path
 
 import click
 
@@ -228,12 +229,18 @@ def force_option(what: str):
                         help=f"replace {what}; without it nothing existing is overwritten")
 
 
-def check_plot(plot_path, force: bool) -> None:
+def check_plot(plot_path, force: bool, *, made_folder=None) -> None:
     """Refuse a --plot path before any work (exists without --force, folder missing, not a
-    file, a suffix other than .png or .svg)."""
+    file, a suffix other than .png or .svg). Its folder must exist, unless it lies inside
+    ``made_folder``, a folder the command makes (sweep --out)."""
     if plot_path:
         files.check_new_output(plot_path, force=force, what="--plot")
-        files.check_picture_suffix(plot_path)  # its folder may be one the command makes (sweep --out)
+        files.check_picture_suffix(plot_path)
+        folder = Path(plot_path).absolute().parent
+        inside = made_folder is not None and folder.is_relative_to(Path(made_folder).absolute())
+        if not folder.is_dir() and not inside:
+            raise files.OutputRefusedError(f"{plot_path}: folder {folder} does not exist; allowed: a path "
+                                           "in an existing folder")
 
 
 def json_option(command):

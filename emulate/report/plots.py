@@ -413,9 +413,12 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     f_range_hz : (lo, hi), optional
         Frequency axis range; default the curves' positive range.
 
+    A finder that found nothing passes curves of no finite points (labelled, e.g.
+    ``"(no hum)"``): the chart is drawn empty with that label, over ``f_range_hz``.
+
     Raises
     ------
-    BadValueError : a bad folder, or no curve to draw.
+    BadValueError : a bad folder, or nothing to draw and no ``f_range_hz``.
 
     Example
     -------
@@ -427,7 +430,7 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     """
     curves = {label: (np.asarray(f, float), np.asarray(y, float)) for label, (f, y) in curves.items()}
     shown = [f[(f > 0) & np.isfinite(y)] for f, y in curves.values()]
-    if not any(s.size for s in shown):
+    if not any(s.size for s in shown) and f_range_hz is None:
         raise BadValueError("nothing to draw: every curve is empty")
     figure, (ax,) = _figure(1)
     if band_hz is not None:
@@ -443,6 +446,8 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     ax.set_ylabel(ylabel)
     ax.set_title(title)
     ax.legend(loc="best")
-    every = np.concatenate([s for s in shown if s.size])
-    _frequency_axis(ax, f_range_hz or (float(every.min()), float(every.max())))
+    if f_range_hz is None:
+        every = np.concatenate([s for s in shown if s.size])
+        f_range_hz = (float(every.min()), float(every.max()))
+    _frequency_axis(ax, f_range_hz)
     return _save(figure, path)
