@@ -234,7 +234,8 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
     if network.is_active and np.all(np.isfinite(network.load_ohms)):
         found.append(EmulateWarning(
             f"load {_ohms(network.load_ohms)} is driven by the active network's output follower: it does not "
-            "change the response here (an ideal follower; the op-amp's own output limits are not modelled)"))
+            "change the response (the follower's output resistance is tiny); what it costs is swing, the "
+            "op-amp's output current limit: see the level plan (--level DBU [--opamp CLASS])"))
     if network.source_ohms > SOURCE_FACTOR * network.r3:
         found.append(EmulateWarning(
             f"source {_ohms(network.source_ohms)} is over {SOURCE_FACTOR:.0%} of R3 = {_ohms(network.r3)}: "

@@ -200,8 +200,8 @@ def assumed_rows(network: TwinT) -> list[list[str]]:
     source = (parts.format_value(network.source_ohms, "resistance") + " source resistance"
               if network.source_ohms else "0 ohm (an op-amp output): the input buffer provides it")
     if network.is_active:
-        load = ("the output follower drives it: the load does not change the response (ideal follower; "
-                "the op-amp's own output limits are not modelled here)")
+        load = ("the output follower drives it: the load does not change the response; it takes swing "
+                "where it would draw more than the op-amp's output current (the level plan, with --level)")
         load = (f"{parts.format_value(network.load_ohms, 'resistance')}; " if math.isfinite(network.load_ohms)
                 else "none; ") + load
     elif math.isfinite(network.load_ohms):
