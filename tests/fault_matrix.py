@@ -186,7 +186,7 @@ def _cases() -> list[Case]:
         _c("response source negative", f"response {P} --source -5", 1, "source"),
         _c("response load zero", f"response {P} --load 0", 1, "load"),
         _c("response depth pot text", f"response {P} --depth-pot abc", 1, "depth_pot|pot"),
-        _c("response mix and depth", f"response {P} --mix 0.5 --depth -12", 2, "either --mix or --depth"),
+        _c("response mix and depth", f"response {P} --mix 0.5 --depth 12", 2, "either --mix or --depth"),
         _c("response no circuit", "response", 2, "give the circuit"),
         _c("response rate zero", f"response {P} --rate 0", 1, "rate|Hz"),
         _c("response circuit file", "response --circuit {w}/good.toml", 0, "notch"),

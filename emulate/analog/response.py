@@ -28,6 +28,9 @@ _EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
 _PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
 
 
+_JSON_NAMES = {"depth_db": "notch_gain_db"}
+
+
 @dataclass(frozen=True)
 class NotchMetrics:
     """What a notch does, source voltage to load voltage.
@@ -59,7 +62,9 @@ class NotchMetrics:
     in_range: bool = True
 
     def as_dict(self) -> dict[str, float]:
-        return {name: (bool if name == "in_range" else float)(getattr(self, name))
+        """Every figure for JSON; ``depth_db`` goes out as ``notch_gain_db`` (a signed gain: in text,
+        JSON, CSV and plots a *depth* is always positive dB of cut, ``depth_below_passband_db``)."""
+        return {_JSON_NAMES.get(name, name): (bool if name == "in_range" else float)(getattr(self, name))
                 for name in self.__dataclass_fields__}
 
 

@@ -180,8 +180,8 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
 
 
 def _depth_words(depth_db: float) -> str:
-    return (f"exact null (deeper than {EXACT_NULL_DB:.0f} dB)" if is_exact_null(depth_db)
-            else f"{depth_db:.1f} dB below the passband")
+    return (f"exact null (more than {EXACT_NULL_DB:.0f} dB of cut)" if is_exact_null(depth_db)
+            else f"{depth_db:.1f} dB of cut below the passband")
 
 
 # --- tolerance ----------------------------------------------------------------------
