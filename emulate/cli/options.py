@@ -49,7 +49,7 @@ COMMAND_SUMMARY = {
     "sibilance": "Find where one speaker's /s/ and /sh/ sit, over one or more takes.",
     "hum": "Find mains hum: exact frequency, drift, harmonics and notches with their circuits.",
     "resonance": "Find one narrow, persistent spectral peak (a ringing room mode, a stand or capsule).",
-    "sweep": "Render every take at every notch setting; reels, a summary table and a pick.",
+    "sweep": "Render every take at every setting; reels, a summary table, a pick and a listening page.",
     "preset": "Keep notch settings per speaker: save, list, show, delete.",
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
     "sheet": "Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.",

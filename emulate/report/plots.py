@@ -306,8 +306,8 @@ def _check_rows(rows) -> list[dict]:
     return sorted(rows, key=lambda row: float(row["notch_hz"]))
 
 
-def plot_sweep(rows, path) -> Path:
-    """Sweep summary: per notch setting, sibilance-band reduction, loudness change and intelligibility cost.
+def plot_sweep(rows, path, *, x: str = "notch_hz") -> Path:
+    """Sweep summary: per setting, sibilance-band reduction, loudness change and intelligibility cost.
 
     Parameters
     ----------
@@ -317,6 +317,9 @@ def plot_sweep(rows, path) -> Path:
         ``pick=True`` is marked.
     path : str or Path
         PNG to write.
+    x : str
+        What the sweep stepped, the row key on the horizontal axis: ``notch_hz`` (log
+        frequency axis), ``mix`` or ``q`` (linear and log axes).
 
     Raises
     ------
@@ -332,7 +335,7 @@ def plot_sweep(rows, path) -> Path:
     """
     rows = _check_rows(rows)
     check_picture_path(path)
-    f = np.array([float(row["notch_hz"]) for row in rows])
+    f = np.array([float(row[x]) for row in rows])
     figure, (levels, cost) = _figure(2)
     levels.plot(f, [row["sibilance_reduction_db"] for row in rows], "o-", color=_ANALOG,
                 label="sibilance-band cut (dB, positive = quieter)")
@@ -342,19 +345,26 @@ def plot_sweep(rows, path) -> Path:
     for row in rows:
         if row.get("pick"):
             for ax in (levels, cost):
-                ax.axvline(float(row["notch_hz"]), color=_MARK, linewidth=1.2, linestyle=":")
-            levels.annotate(f"pick: {float(row['notch_hz']):.0f} Hz", (float(row["notch_hz"]),
+                ax.axvline(float(row[x]), color=_MARK, linewidth=1.2, linestyle=":")
+            levels.annotate(f"pick: {_SWEEP_AXES[x][1].format(float(row[x]))}", (float(row[x]),
                             row["sibilance_reduction_db"]), textcoords="offset points", xytext=(8, 8),
                             color=_MARK)
     levels.set_ylabel("dB")
-    levels.set_title("notch sweep: what each setting does to the take")
+    levels.set_title(f"{_SWEEP_AXES[x][0]} sweep: what each setting does to the take")
     levels.legend(loc="best")
     cost.set_ylabel("intelligibility cost (SII-weighted)")
     cost.legend(loc="best")
-    span = (f.min() / 1.1, f.max() * 1.1)
-    _frequency_axis(cost, span)
-    cost.set_xlabel("notch frequency (Hz)")
+    if x == "notch_hz":
+        _frequency_axis(cost, (f.min() / 1.1, f.max() * 1.1))
+    elif x == "q":
+        cost.set_xscale("log")
+    cost.set_xlabel(_SWEEP_AXES[x][2])
     return _save(figure, path)
+
+
+_SWEEP_AXES = {"notch_hz": ("notch", "{:.0f} Hz", "notch frequency (Hz)"),
+               "mix": ("mix", "mix {:.2f}", "mix (wet share, 0..1)"),
+               "q": ("Q", "Q {:g}", "Q")}
 
 
 def plot_measured(f_hz, measured_db, model_db, fitted_db, path, *, title: str = "measured and model") -> Path:

@@ -373,7 +373,10 @@ def resonance_text(take, report, designed) -> str:
     return "\n".join(lines + _notch_lines(designed))
 
 
-def sweep_text(result, csv_path, json_path) -> str:
+_AXIS_WORDS = {"notch": "notch frequency", "mix": "mix", "q": "Q"}
+
+
+def sweep_text(result, csv_path, json_path, page_path=None) -> str:
     """The sweep table; cuts are positive dB (quieter), the loudness change a signed gain."""
     rows = ["  setting                      asked      as built   sibilance cut  loudness  relative cut  speech cost"]
     for row in result.rows:
@@ -382,12 +385,17 @@ def sweep_text(result, csv_path, json_path) -> str:
                     f"({row.get('notch_error_percent', 0.0):+.2f} %) {row['sibilance_reduction_db']:>6.1f} dB"
                     f" {row['loudness_change_db']:>+6.1f} dB {row['relative_reduction_db']:>8.1f} dB"
                     f" {row['intelligibility_cost']:>9.1%}{mark}")
-    reels = [f"  {reel}" for reel in result.reels.values()]
-    return "\n".join([f"swept {len(result.plan.notches_hz)} settings x {len(result.reels)} takes "
-                      f"({len(result.jobs)} renders)", *rows,
+    reels = [f"  {reel.path} (cues: {reel.cues_path})" + (f"; {reel.note()}" if reel.note() else "")
+             for reel in result.reels.values()]
+    removed = [f"what {result.pick['setting']} removes (dry minus wet):", *(f"  {p}" for p in result.removed.values())]
+    return "\n".join([f"swept {len(result.plan.settings)} settings x {len(result.reels)} takes "
+                      f"({len(result.jobs)} renders), stepping the {_AXIS_WORDS[result.plan.axis]}", *rows,
                       f"pick: {result.pick['setting']}: {result.pick['reason']}",
-                      "listening reels (dry first, then each setting in order):", *reels,
-                      f"summary: {csv_path}, {json_path}"])
+                      "listening reels (dry first, then each setting in order"
+                      + (", loudness-matched):" if all(r.matched for r in result.reels.values()) else ", raw levels):"),
+                      *reels, *(removed if result.removed else []),
+                      f"summary: {csv_path}, {json_path}",
+                      *([f"listening page: {page_path}"] if page_path else [])])
 
 
 def preset_payload(preset) -> dict:
