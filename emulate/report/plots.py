@@ -104,13 +104,17 @@ def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
 
     What :func:`emulate.dsp.emulation.processor_for` renders (mix and depth control
     included), evaluated from its second-order sections in one vectorised call
-    (:meth:`emulate.dsp.processor.NotchProcessor.frequency_response`).
+    (:meth:`emulate.dsp.processor.NotchProcessor.frequency_response`), with its
+    whole samples of latency taken out as every render takes them out (else its
+    phase would trail the analog one by 360 f N / fs degrees).
     """
     from emulate.dsp.emulation import processor_for
 
     processor = processor_for(network)
     processor.prepare(fs, 1)
-    return processor.frequency_response(f_hz), processor.fidelity_db
+    f_hz = np.asarray(f_hz, float)
+    unlag = np.exp(2j * np.pi * f_hz * processor.latency_samples / fs)
+    return processor.frequency_response(f_hz) * unlag, processor.fidelity_db
 
 
 def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
