@@ -120,6 +120,12 @@ class TestWriteReel:
         assert reel.lowered_db > 0 and "lowered" in reel.note() and "0 dBFS" in reel.note()
         assert reel.cues[0].gain_db == pytest.approx(-reel.lowered_db)
 
+    def test_an_unmatched_segment_is_named(self, tmp_path):
+        dry = speech(scale=0.3)
+        reel = reels.write_reel(tmp_path / "r.wav", [reels.Segment("dry", dry), reels.Segment("hush", dry * 0)],
+                                FS, "PCM_24")
+        assert "not matched" in reel.note() and "hush" in reel.note() and reel.cues[1].gain_db == 0.0
+
     def test_channel_counts_must_agree(self, tmp_path):
         with pytest.raises(BadValueError, match="same channel count"):
             reels.write_reel(tmp_path / "r.wav", [reels.Segment("dry", np.zeros((10, 1))),

@@ -11,6 +11,8 @@ from emulate import files
 from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
                                  network_from_options, progress, run_quietly)
 
+__all__ = ["HEARING", "sweep_options", "measure", "stimulus", "analyse"]
+
 HEARING = ("protect your hearing: the sweep climbs to 20 kHz at a steady level; keep monitors low or off "
            "while recording it, and raise --peak only as far as the recording needs")
 

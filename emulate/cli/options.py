@@ -19,6 +19,10 @@ import click
 from emulate import __version__, files, lifetime
 from emulate.errors import BadValueError, EmulateError, EmulateWarning
 
+__all__ = ["PART_HELP", "COMMAND_MODULES", "COMMAND_SUMMARY", "interrupted_line", "printable", "main",
+           "PRESETS_ENV_VAR", "presets_option", "store_from", "circuit_options", "network_from_options",
+           "force_option", "check_plot", "json_option", "emit", "run_quietly", "progress"]
+
 PART_HELP = {
     "r1": "R1, series resistor of the R-R-C T, ohms (e.g. 10k, 4k7)",
     "r2": "R2, series resistor of the R-R-C T, ohms",

@@ -16,6 +16,8 @@ from emulate.dsp import emulation
 from emulate import files
 from emulate.report import summary
 
+__all__ = ["render"]
+
 
 @main.command()
 @click.argument("in_path", metavar="IN", type=click.Path(dir_okay=False))
@@ -112,10 +114,10 @@ def _plot(in_path, out_path, plot_path, network) -> str:
     from emulate.analog.response import measure
     from emulate.report import plots
 
-    (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
     label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
-    drawn = plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz,
-                                     label=label)
+    # both files streamed a chunk at a time: memory stays flat with the take's length
+    drawn = plots.plot_take_spectrum(in_path, out_path, float(audio.read_info(in_path).samplerate), plot_path,
+                                     notch_hz=measure(network.response).notch_hz, label=label)
     return f"\n  wrote {drawn}"
 
 

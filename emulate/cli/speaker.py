@@ -15,6 +15,9 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
 from emulate.analog.parts import parse_value
 from emulate.analog.response import measure
 
+__all__ = ["takes_argument", "sweep_command", "preset", "preset_save", "preset_list", "preset_show",
+           "preset_delete"]
+
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
 
@@ -38,7 +41,7 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--steps", type=int, default=6, show_default=True, help="settings, in equal ratios")
 @click.option("--at", help="explicit notch frequencies instead, Hz, comma-separated (4k,4.5k,5k)")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
-              help="folder for the renders, reels and summary (created)")
+              help="folder for the renders, reels, summary and listening page (created)")
 @click.option("--q", type=float, help="Q held for every setting (active network); default passive")
 @click.option("--series", help="resistor series, IEC 60063; default E24")
 @click.option("--cap-series", help="capacitor series, IEC 60063; default E12")

@@ -156,20 +156,21 @@ def page_from_pairs(pairs, *, title: str = "Listening: batch", columns=(), rows=
     """
     listings = []
     for pair in pairs:
-        listing = TakeListing(pair.name, Version("dry", pair.dry, 0.0 if pair.loudness_change_db is not None else None),
+        dry_db = None if pair.loudness_change_db is None else 0.0  # the change is relative to the dry
+        listing = TakeListing(pair.name, Version("dry", pair.dry, dry_db),
                               (Version(pair.label, pair.wet, pair.loudness_change_db),), tuple(pair.extras))
         listings.append(match_levels(listing) if matched else listing)
     return ListeningPage(title=title, takes=tuple(listings), columns=tuple(columns), rows=tuple(rows),
                          matched=matched, notes=tuple(notes))
 
 
-def page_from_sweep(result, folder, *, pictures=(), matched: bool = True, dries=None) -> ListeningPage:
-    """The page of a finished sweep (an :class:`emulate.work.sweep.SweepResult`) in ``folder``.
+def page_from_sweep(result, *, pictures=(), matched: bool = True, dries=None) -> ListeningPage:
+    """The page of a finished sweep (an :class:`emulate.work.sweep.SweepResult`).
 
     Loudness of each render is the take's dry loudness plus the measured loudness change
     (ITU-R BS.1770), so the versions are matched without measuring anything again.
-    ``dries`` maps each take to its copy inside ``folder`` (default: the take itself,
-    which must then lie inside ``folder``).
+    ``dries`` maps each take to its copy inside the page's folder (default: the take
+    itself, which must then lie inside that folder).
     """
     dries = dries or {}
     listings = []
@@ -183,8 +184,8 @@ def page_from_sweep(result, folder, *, pictures=(), matched: bool = True, dries=
         listing = TakeListing(Path(take).name, Version("dry", dries.get(take, take), 0.0), versions, tuple(extras),
                               result.pick["setting"], tuple(filter(None, [reel.note()])))
         listings.append(match_levels(listing) if matched else listing)
-    stepped = {"notch": "notch frequency", "mix": "mix", "q": "Q"}[result.plan.axis]
-    return ListeningPage(title=f"Listening: {len(result.plan.settings)} settings, stepping the {stepped}",
+    return ListeningPage(title=f"Listening: {len(result.plan.settings)} settings, stepping the "
+                               f"{result.plan.axis_words}",
                          takes=tuple(listings), columns=SWEEP_COLUMNS, rows=tuple(result.rows),
                          pick=result.pick["setting"], pick_reason=result.pick["reason"],
                          pictures=tuple(str(p) for p in pictures), matched=matched)

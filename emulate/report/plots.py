@@ -18,10 +18,17 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from emulate.audio.spectrum import average_power_density
 from emulate.errors import BadValueError
 from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
-from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
+from emulate.analog.response import db, measure
+from emulate.dsp.digital import worst_error_db
+from emulate.report.summary import cut_text
+
+__all__ = ["FIG_SIZE_PX", "DPI", "FLOOR_DB", "SWEEP_KEYS", "circuit_words", "digital_response",
+           "plot_response", "plot_tolerance", "plot_take_spectrum", "plot_sweep", "plot_measured",
+           "plot_finding"]
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -117,13 +124,6 @@ def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
     return processor.frequency_response(f_hz) * unlag, processor.fidelity_db
 
 
-def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
-    """Largest |dB| difference from 20 Hz up wherever the analog is above ``floor_db`` (dB)."""
-    level = db(h_analog)
-    keep = (np.asarray(f_hz) >= 20.0) & (level > floor_db)
-    return float(np.max(np.abs(db(h_digital)[keep] - level[keep]))) if np.any(keep) else 0.0
-
-
 def plot_response(network, path, fs: float | None = None, label: str | None = None) -> Path:
     """Analog magnitude and phase of ``network``, with the digital emulation at ``fs`` overlaid.
 
@@ -164,12 +164,12 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     mag.plot(f, _level_db(h), color=_ANALOG, label="analog (exact)")
     phase.plot(f, np.degrees(np.angle(h)), color=_ANALOG)
     title = (f"{label + ': ' if label else ''}{circuit_words(network)}\n"
-             f"notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}")
+             f"notch {metrics.notch_hz:.1f} Hz, {cut_text(metrics.depth_below_passband_db)}")
     if fs is not None:
         h_d, fidelity = digital_response(network, fs, f)
         mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
         phase.plot(f, np.degrees(np.angle(h_d)), color=_DIGITAL, linestyle="--")
-        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
+        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(h[f >= 20.0], h_d[f >= 20.0]):.3f} dB (20 Hz-{top:.0f} Hz, "
                     f"where analog above -30 dB); wet path {fidelity:.3f} dB", color=_DIGITAL, fontsize=11,
                     va="bottom")
     mag.axvline(metrics.notch_hz, color=_MARK, linewidth=1.0, linestyle=":")
@@ -181,11 +181,6 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     phase.set_ylim(-100, 100)
     _frequency_axis(phase, (10.0, top))
     return _save(figure, path)
-
-
-def _depth_words(depth_db: float) -> str:
-    return (f"exact null (more than {EXACT_NULL_DB:.0f} dB of cut)" if is_exact_null(depth_db)
-            else f"{depth_db:.1f} dB of cut below the passband")
 
 
 # --- tolerance ----------------------------------------------------------------------
@@ -235,17 +230,10 @@ def plot_tolerance(result, path, label: str | None = None) -> Path:
 
 # --- takes ----------------------------------------------------------------------------
 
-def _average_spectrum_db(x, fs: float):
-    from scipy import signal  # about 0.3 s to import: only the take pictures need it
-
-    x = np.asarray(x, float)
-    if x.ndim == 1:
-        x = x[:, None]
-    if x.ndim != 2 or x.shape[0] < 16:
-        raise BadValueError(f"take of shape {x.shape}: needs (frames, channels) with at least 16 frames")
-    segment = min(8192, x.shape[0])
-    f, power = signal.welch(x, fs=fs, nperseg=segment, axis=0)
-    return f[1:], 10 * np.log10(np.maximum(np.mean(power, axis=1)[1:] * fs / 2, 1e-20))
+def _average_spectrum_db(take, fs: float):
+    """Welch-averaged level per band of a take (an array or a file, streamed), dB re full scale."""
+    f, density = average_power_density(take, fs)
+    return f[1:], 10 * np.log10(np.maximum(density[1:] * fs / 2, 1e-20))
 
 
 def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, label: str | None = None) -> Path:
@@ -253,8 +241,10 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, l
 
     Parameters
     ----------
-    dry, wet : ndarray, (frames, channels) float
-        The take before and after; channels are averaged (Welch, 8192-point Hann).
+    dry, wet : ndarray, (frames, channels) float, or str or Path
+        The take before and after, as samples or as sound files at ``fs`` (read a
+        chunk at a time: memory does not grow with their length); channels are
+        averaged (Welch, 8192-point Hann; :mod:`emulate.audio.spectrum`).
         ``wet`` may be None: the take alone (e.g. where its sibilance sits).
     fs : float
         Sample rate, Hz (> 0).

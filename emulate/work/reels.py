@@ -75,10 +75,14 @@ class Reel:
         """One line on the levels, for people (empty when nothing needs saying)."""
         if not self.matched:
             return "raw levels (not loudness-matched)"
+        notes = []
         if self.lowered_db > 0:
-            return (f"every segment lowered {self.lowered_db:.1f} dB together so none goes over "
-                    f"{CEILING_DBFS:g} dBFS")
-        return ""
+            notes.append(f"every segment lowered {self.lowered_db:.1f} dB together so none goes over "
+                         f"{CEILING_DBFS:g} dBFS")
+        unmeasured = [cue.setting for cue in self.cues if cue.loudness_lufs is None]
+        if unmeasured:
+            notes.append(f"not matched (no BS.1770 loudness: under 0.4 s or below the gate): {', '.join(unmeasured)}")
+        return "; ".join(notes)
 
     def as_dict(self) -> dict:
         return {"path": self.path, "cues_path": self.cues_path, "matched": self.matched,

@@ -54,6 +54,11 @@ from emulate.analog.response import measure
 from emulate.report.summary import json_text
 from emulate.validate import check_count, check_range
 
+__all__ = ["TIE_DB", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
+           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
+           "MEASURES", "summarise", "pick_setting", "rows_as_csv", "read_pick", "check_out",
+           "sweep_into", "write_summary"]
+
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 MAX_STEPS = 64
 PASSIVE_Q = 0.25  # the passive balanced twin-T (Analog Devices MT-225)
@@ -106,6 +111,11 @@ class SweepPlan:
     def axis(self) -> str:
         """What the sweep steps: ``notch``, ``mix`` or ``q``."""
         return "mix" if self.mixes else "q" if self.qs else "notch"
+
+    @property
+    def axis_words(self) -> str:
+        """What the sweep steps, for people: ``notch frequency``, ``mix`` or ``Q``."""
+        return {"notch": "notch frequency", "mix": "mix", "q": "Q"}[self.axis]
 
     @property
     def settings(self) -> tuple[Setting, ...]:
@@ -296,15 +306,13 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
                 progress(frames[job[0]])
         rows = summarise(results, plan)
         pick = pick_setting(rows)
-        removed_paths = {}
-        if removed:
-            chosen = networks[pick["setting"]]
-            wanted = {t: removed_path(out_dir, t, pick["setting"]) for t in takes}
-            for t, future in [(t, pool.submit(_render_removed, t, chosen, path)) for t, path in wanted.items()]:
-                removed_paths[str(t)] = str(future.result())
-    # reels from the excerpts the jobs returned: no render is read again
-    made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
-            for t in takes}
+        chosen = networks[pick["setting"]]
+        removing = {str(t): pool.submit(_render_removed, t, chosen, removed_path(out_dir, t, pick["setting"]))
+                    for t in (takes if removed else [])}
+        # reels from the excerpts the jobs returned (no render is read again), while the pool removes
+        made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
+                for t in takes}
+        removed_paths = {take: str(future.result()) for take, future in removing.items()}
     return SweepResult(plan, results, rows, pick, made, removed_paths)
 
 
@@ -546,7 +554,7 @@ def write_listening_page(result: SweepResult, out_dir, *, into=None, pictures=()
         copy = staging / f"dry--{Path(take).name}"
         shutil.copyfile(take, copy)  # byte for byte: the dry take as it is
         dries[take] = str(out_dir / copy.name)
-    page = listening.page_from_sweep(result, out_dir, pictures=pictures, matched=match, dries=dries)
+    page = listening.page_from_sweep(result, pictures=pictures, matched=match, dries=dries)
     return listening.write_page(page, out_dir, into=staging)
 
 

@@ -107,7 +107,7 @@ def run(work: Path, args) -> dict:
     print(f"reel of {len(segments)} x 3 s stereo segments: matched {reel_s['matched_s'] * 1e3:.0f} ms, "
           f"raw {reel_s['raw_s'] * 1e3:.0f} ms: matching costs {reel_s['matching_cost_s'] * 1e3:.0f} ms a reel")
 
-    page = listening.page_from_sweep(result, out, dries={t: str(out / f"dry--{Path(t).name}") for t in result.reels})
+    page = listening.page_from_sweep(result, dries={t: str(out / f"dry--{Path(t).name}") for t in result.reels})
     html_only = timed(lambda: listening.write_page(page, out), args.repeats)
     with_copies = timed(lambda: sweep.write_listening_page(result, out), args.repeats)
     players = len(page.takes) * (len(page.takes[0].players) + len(page.takes[0].extras) + 2)
