@@ -111,13 +111,17 @@ def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
 
     What :func:`emulate.dsp.emulation.processor_for` renders (mix and depth control
     included), evaluated from its second-order sections in one vectorised call
-    (:meth:`emulate.dsp.processor.NotchProcessor.frequency_response`).
+    (:meth:`emulate.dsp.processor.NotchProcessor.frequency_response`), with its
+    whole samples of latency taken out as every render takes them out (else its
+    phase would trail the analog one by 360 f N / fs degrees).
     """
     from emulate.dsp.emulation import processor_for
 
     processor = processor_for(network)
     processor.prepare(fs, 1)
-    return processor.frequency_response(f_hz), processor.fidelity_db
+    f_hz = np.asarray(f_hz, float)
+    unlag = np.exp(2j * np.pi * f_hz * processor.latency_samples / fs)
+    return processor.frequency_response(f_hz) * unlag, processor.fidelity_db
 
 
 def plot_response(network, path, fs: float | None = None, label: str | None = None) -> Path:
@@ -415,9 +419,12 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     f_range_hz : (lo, hi), optional
         Frequency axis range; default the curves' positive range.
 
+    A finder that found nothing passes curves of no finite points (labelled, e.g.
+    ``"(no hum)"``): the chart is drawn empty with that label, over ``f_range_hz``.
+
     Raises
     ------
-    BadValueError : a bad folder, or no curve to draw.
+    BadValueError : a bad folder, or nothing to draw and no ``f_range_hz``.
 
     Example
     -------
@@ -429,7 +436,7 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     """
     curves = {label: (np.asarray(f, float), np.asarray(y, float)) for label, (f, y) in curves.items()}
     shown = [f[(f > 0) & np.isfinite(y)] for f, y in curves.values()]
-    if not any(s.size for s in shown):
+    if not any(s.size for s in shown) and f_range_hz is None:
         raise BadValueError("nothing to draw: every curve is empty")
     figure, (ax,) = _figure(1)
     if band_hz is not None:
@@ -445,6 +452,8 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     ax.set_ylabel(ylabel)
     ax.set_title(title)
     ax.legend(loc="best")
-    every = np.concatenate([s for s in shown if s.size])
-    _frequency_axis(ax, f_range_hz or (float(every.min()), float(every.max())))
+    if f_range_hz is None:
+        every = np.concatenate([s for s in shown if s.size])
+        f_range_hz = (float(every.min()), float(every.max()))
+    _frequency_axis(ax, f_range_hz)
     return _save(figure, path)
