@@ -424,7 +424,7 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
 
     Raises
     ------
-    BadValueError : a bad folder, or nothing to draw and no ``f_range_hz``.
+    BadValueError : a bad folder.
 
     Example
     -------
@@ -436,9 +436,10 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
     """
     curves = {label: (np.asarray(f, float), np.asarray(y, float)) for label, (f, y) in curves.items()}
     shown = [f[(f > 0) & np.isfinite(y)] for f, y in curves.values()]
-    if not any(s.size for s in shown) and f_range_hz is None:
-        raise BadValueError("nothing to draw: every curve is empty")
     figure, (ax,) = _figure(1)
+    if not any(s.size for s in shown):  # the finder found nothing: an empty frame that says so
+        ax.text(0.5, 0.5, " / ".join(curves) or "nothing found", transform=ax.transAxes, ha="center")
+        shown = [np.array(f_range_hz or (20.0, 20000.0))]
     if band_hz is not None:
         ax.axvspan(*band_hz, color=_BAND, alpha=0.35, label=f"band {band_hz[0]:.0f}-{band_hz[1]:.0f} Hz")
     for (label, (f, y)), colour in zip(curves.items(), (_INK, _DIGITAL, _ANALOG, "#6c7a89")):
@@ -451,9 +452,8 @@ def plot_finding(curves, path, *, title: str, ylabel: str, band_hz=None, marks=(
         ax.axvline(f_mark, color=_MARK, linewidth=1.2, linestyle=":", label=label)
     ax.set_ylabel(ylabel)
     ax.set_title(title)
-    ax.legend(loc="best")
-    if f_range_hz is None:
-        every = np.concatenate([s for s in shown if s.size])
-        f_range_hz = (float(every.min()), float(every.max()))
-    _frequency_axis(ax, f_range_hz)
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(loc="best")
+    every = np.concatenate([s for s in shown if s.size])
+    _frequency_axis(ax, f_range_hz or (float(every.min()), float(every.max())))
     return _save(figure, path)
