@@ -51,6 +51,7 @@ class Case:
     may_change: tuple[str, ...] = ()  # existing paths allowed to change or go (e.g. with --force)
     inject: str | None = None  # "disk_full": every audio write and picture save fails with ENOSPC
     env: dict = field(default_factory=dict)
+    slow: bool = False  # a whole end-to-end run of seconds: with the slow checks (pytest -m slow)
 
 
 @dataclass
@@ -428,10 +429,10 @@ def _cases() -> list[Case]:
         _c("tolerance plot folder missing", f"tolerance {P} --draws 200 --plot {{w}}/nofolder/p.png", 1, "nofolder"),
         # --- sheet ----------------------------------------------------------------------------
         _c("sheet ok", "sheet --out {w}/sheet --notch 6.3k --draws 200", 0, "wrote",
-           may_create=("sheet", "sheet/*")),
+           may_create=("sheet", "sheet/*"), slow=True),
         _c("sheet non-empty", "sheet --out {w}/busy --notch 6.3k --draws 200", 1, "not empty.*--force"),
         _c("sheet non-empty force", "sheet --out {w}/busy --notch 6.3k --draws 200 --force", 0, "wrote",
-           may_change=("busy", "busy/keep.txt"), may_create=("busy/*",)),
+           may_change=("busy", "busy/keep.txt"), may_create=("busy/*",), slow=True),
         _c("sheet out is a file", "sheet --out {w}/afile --notch 6.3k", 2, "file"),
         _c("sheet parent missing", "sheet --out {w}/nofolder/sheet --notch 6.3k", 1, "does not exist"),
         _c("sheet notch zero", "sheet --out {w}/sheet --notch 0", 1, "notch"),

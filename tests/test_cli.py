@@ -161,6 +161,7 @@ class TestDepthOption:
         assert payload["notch_gain_db"] == pytest.approx(-12.0, abs=0.01)
         assert payload["mix"] == pytest.approx(1 - 10 ** (-12 / 20), abs=1e-3)
 
+    @pytest.mark.slow
     def test_depth_beyond_reach(self):
         args = ["--r1", "10k", "--r2", "10k", "--r3", "10k", "--c1", "10n", "--c2", "10n", "--c3", "10n"]
         assert_one_line_error(run("response", *args, "--depth", "20"), "20 dB of cut is deeper than this network")

@@ -138,6 +138,7 @@ class TestMixForDepth:
         assert mix == pytest.approx(1 / (1 - h0), rel=1e-6)
         assert mix < 1.0
 
+    @pytest.mark.slow
     def test_in_phase_residual_limits_the_depth(self):
         # R3 high: H at the notch is real and positive, so the mix only reaches |H0| at m = 1.
         net = unbalanced(1.02)
@@ -254,6 +255,7 @@ class TestMixForDepthMixedMinimum:
                 3.9915795286887635e-06, 8.152899798602651e-06, source_ohms=6811.583720323703,
                 load_ohms=245833.004820745, bootstrap=0.7530978006528237)
 
+    @pytest.mark.slow
     @pytest.mark.parametrize("depth", [-6.0, -20.0, -30.0])
     def test_depth_set_at_wet_notch_not_resulting_notch(self, depth):
         # Regression (issue 10, defect 6): --depth set the level at the wet network's notch, so

@@ -51,6 +51,7 @@ class TestSweepPlan:
 
 
 class TestDeconvolve:
+    @pytest.mark.slow
     @pytest.mark.parametrize("network", [PASSIVE, ACTIVE], ids=["passive", "active"])
     def test_recovers_response_and_notch(self, network):
         built = perturbed(network, {"c3": 0.04})
@@ -114,6 +115,7 @@ def _case(network, errors, seed):
 
 
 class TestDiagnose:
+    @pytest.mark.slow
     @pytest.mark.parametrize("errors", [{"c3": 0.04}, {"r1": -0.06}], ids=["C3 +4 %", "R1 -6 %"])
     def test_names_one_part(self, errors):
         d = _case(PASSIVE, errors, 0)
@@ -121,12 +123,14 @@ class TestDiagnose:
         name, error = next(iter(errors.items()))
         assert d.parts_off[name] == pytest.approx(error, abs=0.005)
 
+    @pytest.mark.slow
     def test_trim_restores_the_null(self):
         d = _case(PASSIVE, {"c3": 0.05}, 1)
         assert perturbed(PASSIVE, {"c3": 0.05}).replace(r3=d.trim_r3_ohms).null_mismatch() == \
             pytest.approx(0.0, abs=0.003)  # the fitted C3 is within 0.3 %
         assert "set the R3 trimmer to" in d.text()
 
+    @pytest.mark.slow
     def test_build_as_designed(self):
         d = _case(PASSIVE, {}, 2)
         assert d.parts_off == {} and "no part stands out" in d.text()
