@@ -127,9 +127,12 @@ def _compare(network, measured, diagnosis, analysis) -> tuple[dict, str]:
              f"gain {diagnosis.gain_db:+.2f} dB{latency}",
              "            measured     model",
              f"  notch   {got.notch_hz:9.1f}  {want.notch_hz:9.1f} Hz   ({100 * (got.notch_hz / want.notch_hz - 1):+.2f} %)",
-             f"  depth   {got.depth_db:9.1f}  {want.depth_db:9.1f} dB below the band's peak",
+             f"  depth   {got.depth_db:9.1f}  {want.depth_db:9.1f} dB of cut below the band's peak",
              f"  Q       {_q(got.q):>9}  {_q(want.q):>9}",
-             f"  {diagnosis.text()}"]
+             f"  {diagnosis.text()}",
+             "  (fitted on the gain and the phase)" if diagnosis.used_phase else
+             "  (fitted on the gain alone: the measurement holds no phase, or one that does not follow the "
+             "model's)"]
     payload = {"measured": got.as_dict(), "model": want.as_dict(), "latency_samples": measured.latency_samples,
                "diagnosis": diagnosis.as_dict()}
     return payload, "\n".join(lines)
