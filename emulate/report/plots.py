@@ -337,7 +337,7 @@ def plot_sweep(rows, path, *, x: str = "notch_hz") -> Path:
                 label="sibilance-band cut (dB, positive = quieter)")
     levels.plot(f, [row["loudness_change_db"] for row in rows], "s--", color=_DIGITAL,
                 label="loudness change (gain, dB)")
-    cost.plot(f, [row["intelligibility_cost"] for row in rows], "d-", color=_INK, label="intelligibility cost")
+    cost.plot(f, [100.0 * row["intelligibility_cost"] for row in rows], "d-", color=_INK, label="speech cost")
     for row in rows:
         if row.get("pick"):
             for ax in (levels, cost):
@@ -348,7 +348,7 @@ def plot_sweep(rows, path, *, x: str = "notch_hz") -> Path:
     levels.set_ylabel("dB")
     levels.set_title(f"{_SWEEP_AXES[x][0]} sweep: what each setting does to the take")
     levels.legend(loc="best")
-    cost.set_ylabel("intelligibility cost (SII-weighted)")
+    cost.set_ylabel("speech cost (%, SII-weighted)")
     cost.legend(loc="best")
     if x == "notch_hz":
         _frequency_axis(cost, (f.min() / 1.1, f.max() * 1.1))
