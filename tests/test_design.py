@@ -176,6 +176,7 @@ def grid_designs():
 
 
 class TestBruteForceReference:
+    @pytest.mark.slow
     def test_at_least_as_good_as_exhaustion_everywhere(self, grid_designs):
         # the search may not lose to the brute-force single-part pair anywhere; 1e-4 is the
         # rank step within which errors count as equal (ERROR_STEP)

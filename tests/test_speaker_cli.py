@@ -106,6 +106,7 @@ class TestSibilance:
 
 
 class TestSweep:
+    @pytest.mark.slow
     def test_json_end_to_end(self, swept, takes):
         out, payload = swept
         assert payload["plan"]["notches_hz"] == [3000.0, 6000.0, 12000.0]
@@ -304,6 +305,7 @@ class TestRenderWithPreset:
 
 
 class TestSweepFromPreset:
+    @pytest.mark.slow
     def test_holds_what_the_preset_holds(self, tmp_path):
         # the shipped active preset: K = 0.75 gives Q = 1/(4(1-K)) = 1 (Analog Devices MT-225)
         shipped = Path(emulate.__file__).resolve().parent.parent / "presets"

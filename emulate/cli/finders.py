@@ -160,7 +160,8 @@ def resonance(takes, series, plot_path, force, as_json):
         curves = ({"excess over the neighbourhood": (first.grid_hz, first.excess_db)}
                   if first.grid_hz is not None else {"(too short)": ([100.0, 1000.0], [float("nan")] * 2)})
         text += "\nwrote " + str(plots.plot_finding(curves, plot_path, title="the first take against its "
-                                                    "neighbourhood", ylabel="dB", marks=marks))
+                                                    "neighbourhood", ylabel="dB", marks=marks,
+                                                    f_range_hz=(50.0, 20000.0)))
     payload = {"takes": [summary.resonance_payload(*r) for r in results]}
     if pooled:
         payload["pooled"] = summary.resonance_payload(*pooled) | {"set_aside": list(pooled[1].set_aside)}
