@@ -17,8 +17,9 @@ included. So the finder reads the resonance where the voice is absent:
    power smeared over the window's main lobe), plus a level and a tilt, by least squares
    on the spectrum (dB) within two of its widths: frequency, gain and Q;
 5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
-   fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
-   half its gain out in both halves of the quiet material (persistent);
+   fit that explains the peak (RMS misfit under a quarter of the gain), rising over its
+   flanks in both halves of the quiet material by at least half what the fit rises there
+   (persistent);
 6. the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
@@ -287,9 +288,13 @@ def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, 
     return float(f0), float(gain), float(q), float(np.sqrt(np.mean(result.fun**2)))
 
 
-def _standing_share(grid_hz, halves, f0: float, gain: float) -> float:
-    """Share of the take's halves where it stands at least half the gain out at ``f0``."""
-    return float(np.mean([float(np.interp(f0, grid_hz, _excess(h))) >= gain / 2.0 for h in halves]))
+def _standing_share(grid_hz, halves, f0: float, gain: float, q: float) -> float:
+    """Share of the take's halves where the peak rises over its flanks (two half-gain widths
+    either side) by at least half what the fitted response rises there."""
+    flanks = f0 * 2.0 ** (np.array([-2.0, 2.0]) / (2.0 * q))
+    expected = gain - float(np.mean(peaking_db(flanks, f0, gain, q)))
+    rises = [float(np.interp(f0, grid_hz, h)) - float(np.mean(np.interp(flanks, grid_hz, h))) for h in halves]
+    return float(np.mean([rise >= expected / 2.0 for rise in rises]))
 
 
 def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
@@ -313,7 +318,7 @@ def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
         f0, gain, q, misfit = fit
         if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain:
             continue
-        share = _standing_share(grid_hz, quiet.halves_db, f0, gain)
+        share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q)
         if share >= PERSISTENT_SHARE:
             accepted.append(ResonancePeak(f0, q, gain, share))
     return accepted
