@@ -30,8 +30,11 @@ def _noise(fs, seconds=1.0, sigma=0.1, seed=0):
 
 
 def _grid_subset():
-    """Eleven burst cases, one in 131: every tilt, centre, level, rate and background at least once."""
-    return grid.grid_cases()[::131]
+    """Eleven burst cases, one in 131: every tilt, centre, level, rate and background at least once.
+    The one the finder misses today is marked (a -18 dB burst at 10 % duty over -30 dBFS noise)."""
+    miss = pytest.mark.xfail(reason="measured miss: a quiet, sparse burst over -30 dBFS noise", strict=False)
+    return [pytest.param(c, id=c.name, marks=miss if (c.level_db, c.duty, c.background) == (-18, 0.1, "noise-30")
+                         else ()) for c in grid.grid_cases()[::131]]
 
 
 def _judge_cases(cases):
@@ -50,18 +53,22 @@ def _judge_cases(cases):
 
 class TestControlledGrid:
     def test_subset_covers_every_dimension(self):
-        cases = _grid_subset()
+        cases = [p.values[0] for p in _grid_subset()]
         for attribute, values in (("centre_hz", grid.CENTRES_HZ), ("level_db", grid.LEVELS_DB),
                                   ("fs", grid.RATES_HZ), ("background", grid.BACKGROUNDS)):
             assert {getattr(c, attribute) for c in cases} == set(values)
 
-    def test_subset_finds_clearly_audible_bursts(self):
-        found, audible, errors = _judge_cases(_grid_subset())
-        # measured, not yet the issue's target: 113 of 125 audible cases (90 %) with
-        # `bench_finders.py --stride 11`; the misses are quiet bursts (-12, -18 dB) during
-        # continuous vowels, mostly over -30 dBFS noise (see the slow test below)
-        assert audible >= 5 and found >= audible - 1
-        assert np.nanmax(np.abs(errors)) <= grid.PEAK_REL
+    @pytest.mark.parametrize("case", _grid_subset())
+    def test_subset_finds_clearly_audible_bursts(self, case):
+        # the issue's target: found, the peak within 3 %. Measured, not yet the target over the
+        # grid: 113 of 125 audible cases (90 %) with `bench_finders.py --stride 11`; the misses
+        # are quiet bursts (-12, -18 dB) during continuous vowels, mostly over -30 dBFS noise
+        # (see the slow test below).
+        x, margin = grid.make_case(case)
+        if not grid.audible(margin):
+            pytest.skip(f"not clearly audible: {margin:.1f} dB over the masker in its band")
+        found, error = grid.judge(find_sibilance(x, case.fs), case)
+        assert found, f"peak error {error}"
 
     @pytest.mark.parametrize("case", [c for c in grid.negative_controls() if c.fs == 48000], ids=lambda c: c.name)
     def test_negative_controls_are_not_sibilant(self, case):
@@ -193,15 +200,15 @@ class TestSuggestionsAreContinuous:
     """Regression (issue 12): Q jumped from 0.25 to 1.0 and depth sat at a limit at a threshold."""
 
     def test_depth_and_q_move_smoothly_with_the_burst_level(self):
-        # the same take with the bursts 0.25 dB apart: neighbouring suggestions differ by little
-        levels = np.arange(-4.0, 8.01, 1.0)
+        # the same take with the bursts 2 dB apart: neighbouring suggestions differ by little
+        levels = np.arange(-4.0, 8.01, 2.0)
         depth, q = [], []
         for level in levels:
             r = find_sibilance(bursts_over_tone(48000, 3.0, band_hz=(5000, 7000), burst_db=level), 48000)
             depth.append(r.suggested_depth_db)
             q.append(r.suggested_q)
-        # a 1 dB step of the bursts moves the depth by about 0.5 dB (d(12 tanh(d/24))/dd <= 0.5)
-        assert np.max(np.abs(np.diff(depth))) <= 1.0
+        # a 2 dB step of the bursts moves the depth by at most about 1 dB (d(12 tanh(d/24))/dd <= 0.5)
+        assert np.max(np.abs(np.diff(depth))) <= 1.5
         assert np.max(np.abs(np.diff(q))) <= 0.5
         assert np.all(np.diff(depth) >= -0.2)  # louder bursts never get a shallower notch
 
