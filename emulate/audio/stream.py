@@ -69,6 +69,7 @@ __all__ = [
     "render_file",
     "copy_file",
     "output_format",
+    "check_out_format",
     "check_out_path",
     "read_all",
     "write_array",
@@ -217,6 +218,26 @@ def _check_subtype(out_path, fmt: str, subtype: str, kept: bool) -> str:
         raise AudioFileError(
             f"{out_path}: {fmt} cannot hold subtype {subtype}{why}; allowed: {allowed}")
     return subtype
+
+
+def check_out_format(out_path, subtype: str) -> tuple[str, str]:
+    """Refuse an OUT that could not be written, before any work; return (format, subtype).
+
+    Raises
+    ------
+    AudioFileError
+        OUT is a folder, its folder is missing or not writable, its extension names no
+        writable container, or the container cannot hold ``subtype``.
+
+    Example
+    -------
+    >>> import tempfile, os
+    >>> check_out_format(os.path.join(tempfile.mkdtemp(), "sweep.flac"), "pcm_24")
+    ('FLAC', 'PCM_24')
+    """
+    _check_out_folder(out_path)
+    fmt = output_format(out_path)
+    return fmt, _check_subtype(out_path, fmt, subtype, kept=False)
 
 
 def check_out_path(in_path, out_path) -> None:
@@ -762,9 +783,7 @@ def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
                             "allowed: a finite, non-empty (frames, channels) array")
     samplerate = check_count("samplerate (Hz)", samplerate, 1)
     dither_seed = check_count("dither_seed", dither_seed, 0)
-    _check_out_folder(out_path)
-    fmt = output_format(out_path)
-    subtype = _check_subtype(out_path, fmt, subtype, kept=False)
+    fmt, subtype = check_out_format(out_path, subtype)
     frames, channels = x.shape
     block = min(frames, DEFAULT_BLOCK_FRAMES)
     encoder = Encoder(subtype, dither=True, seed=dither_seed)

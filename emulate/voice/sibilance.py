@@ -36,7 +36,7 @@ from emulate.errors import BadValueError
 from emulate.voice.frames import (LOG_GRID_HZ, BandSummer, FrameGrid, band_floors, grid_band_power,
                                   grid_density, iter_frame_power, log_band_edges, peak_on_grid, runs,
                                   smooth_on_grid)
-from emulate.voice.pooling import distinct, outlying
+from emulate.voice.pooling import label_takes, select_takes
 from emulate.voice.takes import TakeSource, check_band, check_seconds, dbfs
 
 __all__ = [
@@ -465,18 +465,14 @@ def combine_reports(reports, labels=None) -> SibilanceReport:
     reports = list(reports)
     if not reports or not all(isinstance(r, SibilanceReport) for r in reports):
         raise BadValueError(f"reports = {reports!r:.80} is not allowed; need one or more SibilanceReport")
-    labels = [f"take {i + 1}" for i in range(len(reports))] if labels is None else [str(s) for s in labels]
-    if len(labels) != len(reports) or len({r.target for r in reports}) != 1:
-        raise BadValueError("combine_reports needs one label per report and reports with one target")
+    labels = label_takes(len(reports), labels)
+    if len({r.target for r in reports}) != 1:
+        raise BadValueError("combine_reports needs reports with one target")
     target = reports[0].target
-    kept, repeats = distinct([(r.seconds, tuple(sorted((k, c.sibilant_seconds, c.peak_hz, c.sibilant_level_db)
-                                                     for k, c in r.classes.items()))) for r in reports])
-    aside = [f"{labels[i]}: an exact repeat of an earlier take" for i in repeats]
-    usable = [i for i in kept if reports[i].usable]
-    odd, why = outlying([reports[i].peak_hz for i in usable], OUTLIER_OCTAVES)
-    if odd is not None:
-        aside.append(f"{labels[usable[odd]]}: {why}")
-        kept.remove(usable[odd])
+    keys = [(r.seconds, tuple(sorted((k, c.sibilant_seconds, c.peak_hz, c.sibilant_level_db)
+                                     for k, c in r.classes.items()))) for r in reports]
+    peaks = [r.peak_hz if r.usable else float("nan") for r in reports]
+    kept, aside = select_takes(keys, peaks, labels, OUTLIER_OCTAVES)
     pool = [reports[i] for i in kept]
     band = (min(r.search_band_hz[0] for r in reports), max(r.search_band_hz[1] for r in reports))
     seconds = sum(r.seconds for r in pool)
