@@ -55,6 +55,7 @@ class TestControlledGrid:
                                   ("fs", grid.RATES_HZ), ("background", grid.BACKGROUNDS)):
             assert {getattr(c, attribute) for c in cases} == set(values)
 
+    @pytest.mark.slow
     def test_subset_finds_clearly_audible_bursts(self):
         found, audible, errors = _judge_cases(_grid_subset())
         # measured, not yet the issue's target: 35 of 38 audible cases (92 %) on a wider subset
@@ -192,6 +193,7 @@ class TestFindSibilance:
 class TestSuggestionsAreContinuous:
     """Regression (issue 12): Q jumped from 0.25 to 1.0 and depth sat at a limit at a threshold."""
 
+    @pytest.mark.slow
     def test_depth_and_q_move_smoothly_with_the_burst_level(self):
         # the same take with the bursts 0.25 dB apart: neighbouring suggestions differ by little
         levels = np.arange(-4.0, 8.01, 1.0)
