@@ -31,7 +31,7 @@ import dataclasses
 import json
 import math
 import os
-from concurrent.futures import Future, ProcessPoolExecutor
+from concurrent.futures import Future
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
@@ -229,7 +229,7 @@ def _executor(workers: int | None, jobs: int):
     if workers == 1:
         yield _Inline()
         return
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=lifetime.watch_parent)
+    pool = lifetime.WorkerPool(workers)
     try:
         yield pool
     except BaseException:  # Ctrl-C, a signal, a failed job: stop now, not after the jobs in flight
