@@ -44,7 +44,7 @@ from emulate.voice import compare, sibilance
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.response import measure
-from emulate.report.summary import json_text
+from emulate.report.summary import json_text, rows_as_csv
 from emulate.validate import check_count, check_range
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
@@ -361,18 +361,6 @@ def write_reel(reel_path, dry, wets, fs: int, subtype: str) -> Path:
         pieces += [gap, wet]
     audio.write_array(reel_path, np.concatenate(pieces), fs, subtype=subtype)
     return Path(reel_path)
-
-
-def rows_as_csv(rows: list[dict]) -> str:
-    """The summary table as CSV text (header line, one line per setting)."""
-    columns = list(rows[0])
-    lines = [",".join(columns)]
-    lines += [",".join(_csv_cell(row[c]) for c in columns) for row in rows]
-    return "\n".join(lines) + "\n"
-
-
-def _csv_cell(value) -> str:
-    return f"{value:.6g}" if isinstance(value, float) else str(value)
 
 
 _PICK_KEYS = ("setting", "notch_target_hz", "reason")
