@@ -424,7 +424,7 @@ class ClusterRunner:
             future = self._client.submit(run_job, job, pure=False, key=f"emulate-batch-{os.getpid()}-{job.index}")
             futures[future] = job
         self._futures = list(futures)
-        for future in as_completed(self._futures):
+        for future in as_completed(self._futures, loop=self._client.loop):
             yield futures[future], future.result()
 
     def stop(self) -> None:
