@@ -38,6 +38,10 @@ def write_take(path: Path, seconds: float = 1.0, seed: int = 1, channels: int = 
 
 @pytest.fixture
 def season(tmp_path) -> Path:
+    return make_season(tmp_path)
+
+
+def make_season(tmp_path: Path) -> Path:
     """Two speakers' takes in nested folders, a presets folder with both presets."""
     write_take(tmp_path / "raw" / "host-a" / "ep1" / "t1.wav", seed=1)
     write_take(tmp_path / "raw" / "host-a" / "t2.flac", seed=2)

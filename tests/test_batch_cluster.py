@@ -19,9 +19,14 @@ from emulate.errors import BadValueError
 from emulate.work import batch
 from emulate.work.plan import BatchPlan, read_plan
 
-from test_batch import season, store_of  # noqa: F401  (the fixture and a helper)
+from test_batch import make_season, store_of
 
 distributed = pytest.importorskip("distributed")
+
+
+@pytest.fixture
+def season(tmp_path):
+    return make_season(tmp_path)
 
 
 @pytest.fixture(scope="module")
@@ -33,7 +38,7 @@ def cluster():
 
 @pytest.mark.slow
 class TestClusterRunner:
-    def test_renders_equal_a_local_run(self, cluster, season, tmp_path):  # noqa: F811
+    def test_renders_equal_a_local_run(self, cluster, season, tmp_path):
         runner = batch.ClusterRunner(cluster.scheduler_address)
         try:
             checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
@@ -47,7 +52,7 @@ class TestClusterRunner:
             np.testing.assert_array_equal(sf.read(r.output)[0], sf.read(l.output)[0])
             assert r.sibilance_band_change_db == pytest.approx(l.sibilance_band_change_db, abs=1e-9)
 
-    def test_the_command(self, cluster, season):  # noqa: F811
+    def test_the_command(self, cluster, season):
         result = CliRunner().invoke(main, ["batch", str(season / "plan.toml"), "--cluster", cluster.scheduler_address,
                                            "--presets", str(season / "presets"), "--json"])
         assert result.exit_code == 0, result.output
