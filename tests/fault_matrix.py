@@ -352,6 +352,20 @@ def _cases() -> list[Case]:
            "preset save x --speaker X --from-sweep {w}/sw --presets {w}/presets", 1, "not a sweep summary"),
         _c("preset from sweep missing", "preset save x --speaker X --from-sweep {w}/nosweep --presets {w}/presets",
            1, "not a sweep summary"),
+        _c("preset from finder", "preset save new --speaker X --from-finder {w}/take.wav {w}/take2.wav "
+           "--presets {w}/presets", 0, "saved", may_create=("presets/new.toml",)),
+        _c("preset from finder silent", "preset save new --speaker X --from-finder {w}/silent.wav "
+           "--presets {w}/presets", 1, "found nothing usable"),
+        _c("preset from finder exists", "preset save host --speaker X --from-finder {w}/take.wav "
+           "--presets {w}/presets", 1, "already exists.*--force"),
+        _c("preset from finder exists force", "preset save host --speaker X --from-finder {w}/take.wav "
+           "--presets {w}/presets --force", 0, "saved", may_change=("presets/host.toml",)),
+        _c("preset from finder no takes", "preset save new --speaker X --from-finder --presets {w}/presets", 2,
+           "needs one or more takes"),
+        _c("preset from finder unreadable", "preset save new --speaker X --from-finder {w}/notes.wav "
+           "--presets {w}/presets", 1, "not an audio file"),
+        _c("preset from finder truncated", "preset save new --speaker X --from-finder {w}/cut.flac "
+           "--presets {w}/presets", 1, "damaged or cut short"),
         _c("preset save no source", "preset save x --speaker X --presets {w}/presets", 2, "exactly one"),
         _c("preset save two sources", f"preset save x --speaker X --notch 6k {P} --presets {{w}}/presets", 2,
            "exactly one"),
