@@ -329,3 +329,72 @@ class TestBatchCommand:
     def test_plan_and_inline_together(self, season):
         result = self.invoke(season, "batch", season / "plan.toml", "--speaker", "A")
         assert result.exit_code == 2 and "not both" in result.output
+
+
+@pytest.fixture(scope="module")
+def long_season(tmp_path_factory) -> Path:
+    """Six 30-second stereo takes and a preset: two workers are busy for seconds."""
+    base = tmp_path_factory.mktemp("long-season")
+    rng = np.random.default_rng(5)
+    for i in range(6):
+        path = base / "takes" / f"ep{i % 2}" / f"t{i}.wav"
+        path.parent.mkdir(parents=True, exist_ok=True)
+        sf.write(path, rng.standard_normal((48000 * 30, 2)) * 0.05, 48000, subtype="PCM_16")
+    PresetStore(base / "presets").save(Preset("p", "A", circuit=PARTS, mix=0.8))
+    return base
+
+
+def batch_args(season: Path, out: Path) -> list:
+    return ["batch", "--speaker", "A", "--preset", "p", "--takes", season / "takes", "--out", out,
+            "--workers", "2", "--presets", season / "presets"]
+
+
+def assert_only_complete_renders(season: Path, out: Path) -> None:
+    """Every render present has its take's length; nothing hidden is left."""
+    from test_interrupts import temporaries
+
+    assert temporaries(out.parent) == []
+    for render in out.rglob("*.wav"):
+        assert sf.info(render).frames == sf.info(season / "takes" / render.relative_to(out)).frames
+
+
+@pytest.mark.slow
+class TestBatchInterrupted:
+    @pytest.mark.parametrize("name,group", [("SIGINT", True), ("SIGTERM", False)])
+    def test_stop_keeps_complete_renders_and_no_worker(self, long_season, tmp_path, name, group):
+        from test_interrupts import alive, descendants, reap, start, stop, temporaries, wait_for
+
+        out = tmp_path / "out"
+        process = start(batch_args(long_season, out), tmp_path)
+        assert wait_for(lambda: temporaries(out) or process.poll() is not None)
+        workers = descendants(process.pid)
+        began = time.monotonic()
+        code, err = stop(process, name, group)
+        try:
+            assert time.monotonic() - began < 30.0  # promptly: not after every take
+            assert "Traceback" not in err
+            if code != 0:
+                assert "interrupted" in err or "stopped by" in err, err
+                assert "resume" in err
+            assert wait_for(lambda: not alive(workers), 30.0), alive(workers)
+        finally:
+            reap(workers)
+        assert_only_complete_renders(long_season, out)
+
+    def test_kill_9_leaves_no_worker_and_the_next_run_resumes(self, long_season, tmp_path):
+        from test_interrupts import alive, descendants, reap, start, temporaries, wait_for
+
+        out = tmp_path / "out"
+        process = start(batch_args(long_season, out), tmp_path)
+        assert wait_for(lambda: temporaries(out))
+        workers = descendants(process.pid)
+        process.kill()
+        process.communicate(timeout=60)
+        try:
+            assert wait_for(lambda: not alive(workers), 30.0), alive(workers)
+        finally:
+            reap(workers)
+        again = start(batch_args(long_season, out), tmp_path)
+        assert again.wait(timeout=600) == 0, again.stderr.read()
+        assert_only_complete_renders(long_season, out)
+        assert len(list(out.rglob("*.wav"))) == 6
