@@ -115,15 +115,15 @@ class Batch:
 
 
 # --------------------------------------------------------------------------- 2.-3. check and decide
-def sibilance_band(network, fs: float) -> tuple[float, float]:
-    """One octave centred on the network's as-built notch, within Nyquist (the summary's band)."""
+def _notch_hz(network) -> float:
+    """The network's as-built notch, Hz (the centre of the summary's sibilance band)."""
     from emulate.analog.response import measure
 
-    return sibilance_band_of(measure(network.response).notch_hz, fs)
+    return measure(network.response).notch_hz
 
 
 def sibilance_band_of(notch_hz: float, fs: float) -> tuple[float, float]:
-    """``(notch / sqrt 2, min(notch * sqrt 2, fs / 2))`` in Hz.
+    """One octave centred on the notch within Nyquist: ``(notch / sqrt 2, min(notch * sqrt 2, fs / 2))``, Hz.
 
     Example
     -------
@@ -161,12 +161,14 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
     earlier = _earlier_rows(out, force)
     takes = find_takes(plan)
     presets = {name: _preset(store, name) for name in dict.fromkeys(s.preset for s in plan.speakers)}
+    notches = {name: _notch_hz(network) for name, (network, _) in presets.items()}
     jobs, kept, refused = [], [], []
     for index, planned in enumerate(takes):
         info = audio.read_info(planned.take)
         network, preset_path = presets[planned.speaker.preset]
         job = TakeJob(index, str(planned.take), str(planned.out_path), planned.speaker.name,
-                      planned.speaker.preset, network, sibilance_band(network, info.samplerate), info.frames,
+                      planned.speaker.preset, network,
+                      sibilance_band_of(notches[planned.speaker.preset], info.samplerate), info.frames,
                       info.samplerate)
         state = _output_state(planned, info.frames, preset_path)
         if redo or state == "missing":
@@ -272,11 +274,7 @@ def run_job(job: TakeJob) -> TakeResult:
         _measure_blocks(audio.iter_blocks(job.take), dry)
         peak = _measure_blocks(audio.iter_blocks(job.out_path), wet)
         return _result(job, "kept", peak_dbfs=_dbfs(peak), **_changes(dry, wet))
-    from emulate.dsp import emulation
-
-    processor = emulation.processor_for(job.network)
-    if dry is not None:
-        processor = _Metered(processor, dry, wet)
+    processor = _Metered(_processor(job.network), dry, wet)
     Path(job.out_path).parent.mkdir(parents=True, exist_ok=True)
     report = audio.render_file(job.take, job.out_path, processor, replace=job.replace)
     return _result(job, "rendered", peak_dbfs=report.peak_dbfs, clipped_samples=report.clipped_samples,
@@ -318,31 +316,54 @@ def _dbfs(peak: float) -> float | None:
     return 20.0 * math.log10(peak) if peak > 0 else None
 
 
-class _Metered:
-    """A processor with meters on its dry (input) and wet (output) blocks.
+_processors: dict = {}  # this worker's processors by network: designed once, reset for each take
 
-    The processor may work in place, so the dry block is measured first. The few
-    frames of latency compensation (zeros after the take, the first outputs dropped)
-    reach the meters too: at most a handful of samples, below what the figures show.
+
+def _processor(network):
+    """The worker's processor for ``network`` (one per preset: the design is the costly part)."""
+    key = repr(network)
+    if key not in _processors:
+        from emulate.dsp import emulation
+
+        _processors[key] = [emulation.processor_for(network), None]
+    return _processors[key]
+
+
+class _Metered:
+    """A worker's processor, prepared once per rate and channels, with meters on its dry and wet blocks.
+
+    ``prepare`` designs the sections only when the rate or channel count differs from
+    the last take's; otherwise it clears the state (:meth:`NotchProcessor.reset`), which
+    renders the same samples as a freshly designed processor. The processor may work
+    in place, so the dry block is measured first. The few frames of latency
+    compensation (zeros after the take, the first outputs dropped) reach the meters
+    too: at most a handful of samples, below what the figures show.
     """
 
-    def __init__(self, processor, dry, wet):
-        self._processor, self._dry, self._wet = processor, dry, wet
+    def __init__(self, cached, dry, wet):
+        self._cached, self._dry, self._wet = cached, dry, wet
 
     @property
     def latency_samples(self) -> int:
-        return self._processor.latency_samples
+        return self._cached[0].latency_samples
 
     def prepare(self, rate: int, channels: int) -> None:
-        self._processor.prepare(rate, channels)
+        processor, prepared_for = self._cached
+        if prepared_for == (rate, channels):
+            processor.reset()
+        else:
+            processor.prepare(rate, channels)
+            self._cached[1] = (rate, channels)
 
     def reset(self) -> None:
-        self._processor.reset()
+        self._cached[0].reset()
 
     def process(self, block):
-        self._dry.add(block)
-        out = self._processor.process(block)
-        self._wet.add(out)
+        if self._dry is not None:
+            self._dry.add(block)
+        out = self._cached[0].process(block)
+        if self._wet is not None:
+            self._wet.add(out)
         return out
 
 
