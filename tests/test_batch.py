@@ -399,3 +399,16 @@ class TestBatchInterrupted:
         assert again.wait(timeout=600) == 0, again.stderr.read()
         assert_only_complete_renders(long_season, out)
         assert len(list(out.rglob("*.wav"))) == 6
+
+
+class TestBatchStopsOnADamagedTake:
+    def test_regression_the_error_says_what_was_kept(self, season):
+        data = (season / "raw" / "host-a" / "t2.flac").read_bytes()
+        (season / "raw" / "host-a" / "t2.flac").write_bytes(data[: len(data) // 2])  # cut mid-stream
+        result = CliRunner().invoke(main, ["batch", str(season / "plan.toml"), "--workers", "1", "--presets",
+                                           str(season / "presets")])
+        assert result.exit_code == 1 and "damaged or cut short" in result.output
+        assert "complete renders" in result.output and "resume" in result.output
+        rows = json.loads((season / "renders" / "summary.json").read_text())["takes"]
+        assert [Path(r["output"]).name for r in rows] == ["t1.wav"]
+        assert not (season / "renders" / "host-a" / "t2.flac").exists()

@@ -7,6 +7,8 @@ from pathlib import Path
 import click
 
 from emulate.cli.options import emit, force_option, json_option, main, presets_option, printable, progress, store_from
+from emulate import files
+from emulate.errors import EmulateError
 from emulate.lifetime import Stopped
 
 __all__ = ["batch_command"]
@@ -50,11 +52,18 @@ def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, worke
     checked = batch.prepare_batch(the_plan, store_from({"presets_dir": presets_dir}), redo=redo, force=force)
     if cluster:
         runner = batch.ClusterRunner(cluster)
+    mark = len(files.kept_files())
     try:
         with progress(checked.frames, "batch") as bar:
             results = batch.run_batch(checked, runner, progress=bar.update)
     except KeyboardInterrupt as exc:
         raise click.ClickException(_interrupted(exc, the_plan)) from None
+    except EmulateError as exc:
+        if not files.kept_files(mark):  # nothing complete: the error says it all
+            raise
+        raise click.ClickException(printable(f"{exc}; the batch stopped there: the complete renders under "
+                                             f"{the_plan.out} are kept (listed in its summary.csv); run the "
+                                             "same command again to resume")) from None
     finally:
         if cluster:
             runner.close()
