@@ -38,8 +38,8 @@ def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, worke
 
     Give a plan file (TOML: out = "FOLDER", then per speaker a [[speaker]] table with
     name, preset and takes), or one speaker inline with --speaker, --preset, --takes and
-    --out. The takes' folders are mirrored under the output folder; a take is never
-    written next to or over. A re-run keeps renders that are complete and newer than
+    --out. The takes' folders are mirrored under the output folder; nothing is ever
+    written next to or over a take. A re-run keeps renders that are complete and newer than
     their take and preset (--redo renders all again). Ctrl-C keeps the complete renders
     and the summary of them; run the same command again to resume.
     """

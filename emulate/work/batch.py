@@ -376,7 +376,17 @@ def _result(job: TakeJob, status: str, *, sibilance_band_change_db=None, loudnes
 
 
 def _peak_rss_mb() -> float | None:
-    """This process's peak resident memory, MB (Linux reports kB), or None where unknown."""
+    """This process's peak resident memory, MB, or None where unknown.
+
+    Linux's ``VmHWM`` (the peak of this process image; ``ru_maxrss`` would carry a
+    spawning parent's peak over ``exec``), else ``ru_maxrss`` (kB on Linux).
+    """
+    try:
+        for line in Path("/proc/self/status").read_text().splitlines():
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1]) / 1024.0
+    except (OSError, ValueError, IndexError):
+        pass
     try:
         import resource
     except ImportError:

@@ -11,7 +11,7 @@ measured). Then, with one preset (an active twin-T at 6 kHz):
   ``distributed.LocalCluster`` of 2 worker processes (:class:`emulate.work.batch.ClusterRunner`),
   each from a fresh output folder, pool or client start-up included, median of --repeats;
 - the ratio batch(2 workers) / (takes x single / 2) (goal: at most 1.2);
-- peak resident memory per worker (each job reports its process's ``ru_maxrss``), for
+- peak resident memory per worker (each job reports its process's peak, ``VmHWM``), for
   these takes and for a batch of 2 takes --long-seconds long (default 600): it must not
   grow with the take's length (renders and meters stream in blocks);
 - the projected wall time of a 1,000-hour archive on N workers, from the 2-worker
@@ -149,6 +149,7 @@ def main(argv=None) -> int:
         "single_render_s": single, "median_single_render_s": single_s,
         "ideal_2_workers_s": ideal_s, "batch_s": walls, "median_batch_s": medians,
         "ratio_2_workers_to_ideal": medians["2 workers"] / ideal_s, "goal_ratio": GOAL_RATIO,
+        "ratio_1_worker_to_singles": medians["1 worker"] / (args.takes * single_s),
         "ratio_cluster_to_ideal": (medians["LocalCluster, 2 workers"] / ideal_s) if cluster else None,
         "peak_worker_mb": memory, "long_seconds": args.long_seconds,
         "peak_worker_mb_long_takes": peak_worker_mb(long_results),
@@ -161,8 +162,11 @@ def main(argv=None) -> int:
     print(f"  single render          {single_s:7.3f} s a take   ({', '.join(f'{t:.3f}' for t in single)})")
     print(f"  ideal on 2 workers     {ideal_s:7.2f} s   (takes x single / 2)")
     for name, median in medians.items():
+        peak = "(runs in this process)" if name == "1 worker" else f"peak {memory[name]:.0f} MB a worker"
         print(f"  batch, {name:22} {median:7.2f} s   {median / ideal_s:5.2f}x the ideal   "
-              f"peak {memory[name]:.0f} MB a worker   runs {', '.join(f'{t:.2f}' for t in walls[name])}")
+              f"{peak}   runs {', '.join(f'{t:.2f}' for t in walls[name])}")
+    print(f"  batch on 1 worker against {args.takes} single renders: "
+          f"{medians['1 worker'] / (args.takes * single_s):.2f}x (the per-take cost of the batch itself)")
     print(f"  goal: batch on 2 workers at most {GOAL_RATIO}x the ideal: "
           f"{'met' if result['ratio_2_workers_to_ideal'] <= GOAL_RATIO else 'NOT met'}")
     print(f"  peak memory a worker: {memory['2 workers']:.0f} MB with {args.seconds:g} s takes, "
