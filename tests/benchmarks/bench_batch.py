@@ -66,11 +66,18 @@ def make_season(work: Path, takes: int, seconds: float, name: str) -> Path:
     return folder
 
 
-def single_render_s(take: Path, network, out: Path, repeats: int) -> list[float]:
+def single_render_s(take: Path, network, out: Path, repeats: int, metered: bool = False) -> list[float]:
+    """Wall times of ``render_file`` of one take (``metered``: with the batch's meters on dry and wet)."""
+    from emulate.voice.compare import LevelsMeter
+
     times = []
     for _ in range(repeats + 1):  # the first warms numba and the page cache
         began = time.perf_counter()
-        audio.render_file(take, out, emulation.processor_for(network))
+        processor = emulation.processor_for(network)
+        if metered:
+            meters = [LevelsMeter(RATE, 2, (4000.0, 8000.0)) for _ in range(2)]
+            processor = batch._Metered([processor, None], *meters)
+        audio.render_file(take, out, processor)
         times.append(time.perf_counter() - began)
         out.unlink()
     return times[1:]
@@ -113,6 +120,7 @@ def main(argv=None) -> int:
     load_before = os.getloadavg()
 
     single = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats)
+    metered = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats, metered=True)
     runs = {"1 worker": lambda: batch.LocalRunner(1), "2 workers": lambda: batch.LocalRunner(2)}
     cluster = None
     if not args.no_cluster:
@@ -147,6 +155,7 @@ def main(argv=None) -> int:
         "takes": args.takes, "seconds_per_take": args.seconds, "rate_hz": RATE, "channels": 2, "subtype": "PCM_24",
         "cores": os.cpu_count(), "load_average_before": load_before, "load_average_after": load_after,
         "single_render_s": single, "median_single_render_s": single_s,
+        "single_render_with_meters_s": metered, "meters_cost": statistics.median(metered) / single_s,
         "ideal_2_workers_s": ideal_s, "batch_s": walls, "median_batch_s": medians,
         "ratio_2_workers_to_ideal": medians["2 workers"] / ideal_s, "goal_ratio": GOAL_RATIO,
         "ratio_1_worker_to_singles": medians["1 worker"] / (args.takes * single_s),
@@ -160,6 +169,8 @@ def main(argv=None) -> int:
           f"{os.cpu_count()} cores, load average {load_before[0]:.1f} before, {load_after[0]:.1f} after "
           "(a loaded machine: indicative figures)")
     print(f"  single render          {single_s:7.3f} s a take   ({', '.join(f'{t:.3f}' for t in single)})")
+    print(f"  with the batch's meters {statistics.median(metered):6.3f} s a take   "
+          f"({result['meters_cost']:.2f}x: loudness and band level measured while rendering)")
     print(f"  ideal on 2 workers     {ideal_s:7.2f} s   (takes x single / 2)")
     for name, median in medians.items():
         peak = "(runs in this process)" if name == "1 worker" else f"peak {memory[name]:.0f} MB a worker"
