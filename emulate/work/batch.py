@@ -48,8 +48,8 @@ from emulate.report.summary import json_text, rows_as_csv
 from emulate.validate import check_count
 from emulate.work.plan import BatchPlan, PlannedTake, find_takes
 
-__all__ = ["Batch", "ClusterRunner", "LocalRunner", "TakeJob", "TakeResult", "prepare_batch", "run_batch",
-           "run_job", "write_summary", "SUMMARY_KIND"]
+__all__ = ["Batch", "ClusterRunner", "LocalRunner", "SUMMARY_KIND", "TakeJob", "TakeResult", "prepare_batch",
+           "run_batch", "run_job", "sibilance_band_of", "totals", "write_summary"]
 
 SUMMARY_KIND = "emulate batch"  # summary.json's "kind": marks an output folder as a batch's
 SUMMARY_FILES = ("summary.csv", "summary.json")
