@@ -2,4 +2,6 @@
 
 from emulate.cli import main
 
+__all__: list[str] = []
+
 main()

@@ -31,6 +31,9 @@ from emulate.validate import check_range
 from emulate.work.presets import PresetStore, default_presets_dir, shipped_presets_dir
 from emulate.analog.response import measure
 
+__all__ = ["DEMO_RATE_HZ", "DEMO_SECONDS", "MORE_TAKES", "SECONDS_RANGE", "DemoSpeaker", "SPEAKERS",
+           "DemoRender", "DemoTake", "presets_folder", "run_demo"]
+
 DEMO_RATE_HZ = 48000
 DEMO_SECONDS = 12.0
 MORE_TAKES = 2  # extra takes per host, for trying the sibilance, sweep and preset commands

@@ -391,15 +391,7 @@ class TestSosResponseZ:
         assert relative_difference(digital._sos_response_z(sos, grid_hz(fs), fs), h_ref) <= SAME_RESPONSE_REL
 
 
-class TestGoldenMin:
-    @pytest.mark.parametrize("fun, lo, hi, expected", [
-        (lambda x: (x - 2.0) ** 2, 0.0, 5.0, 2.0),          # smooth: minimum at 2 (arithmetic)
-        (lambda x: abs(x - 1.0 / 3.0), 0.0, 1.0, 1.0 / 3.0),  # V-shaped, like |H| at a null
-        (lambda x: x, 1.0, 2.0, 1.0),                        # monotonic: the lower bound
-    ])
-    def test_finds_minimum_within_xtol(self, fun, lo, hi, expected):
-        assert digital._golden_min(fun, lo, hi, 1e-10) == pytest.approx(expected, abs=1e-10)
-
+class TestAnalogNull:
     @pytest.mark.parametrize("f0, q, variant", [(1000.0, 0.25, "shallow"), (8000.0, 2.0, "rhp-load")])
     def test_null_agrees_with_scipy_bounded_minimiser(self, f0, q, variant):
         # Reference: scipy.optimize.minimize_scalar(method="bounded") on the same bracket;

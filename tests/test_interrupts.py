@@ -176,6 +176,21 @@ class TestSweepInterrupted:
         finally:
             reap(workers)
 
+    def test_stop_while_rendering_what_the_pick_removes(self, voice_takes, tmp_path):
+        # the last wave of the pool (--removed) and the listening page: stopped there, nothing appears
+        process = start([*sweep_args(voice_takes, tmp_path / "out"), "--removed"], tmp_path)
+
+        def removing():
+            return any("removed--" in p.name for p in tmp_path.glob(".out.*.part/*")) or process.poll() is not None
+        assert wait_for(removing)
+        workers = descendants(process.pid)
+        code, err = stop(process, "SIGTERM", False)
+        try:
+            assert_stopped_cleanly(code, err, tmp_path / "out", tmp_path)
+            assert wait_for(lambda: not alive(workers), 10.0), alive(workers)
+        finally:
+            reap(workers)
+
     def test_kill_9_leaves_no_worker_and_the_next_run_cleans_up(self, voice_takes, tmp_path):
         process = start(sweep_args(voice_takes, tmp_path / "out"), tmp_path)
         assert wait_for(staging_with_file(tmp_path, "out"))

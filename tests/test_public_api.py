@@ -1,7 +1,9 @@
 """Tests for the package's top-level public API (emulate/__init__.py)."""
 
+import ast
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -22,6 +24,33 @@ class TestPublicApi:
         code = "import sys, emulate; print(sorted(m for m in sys.modules if m.startswith('emulate')))"
         out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
         assert out.stdout.strip() == "['emulate']"
+
+
+MODULES = sorted(Path(emulate.__file__).parent.rglob("*.py"))
+
+
+def _targets(node):
+    return node.targets if isinstance(node, ast.Assign) else [node.target]
+
+
+class TestEveryModuleDeclaresItsNames:
+    @pytest.mark.parametrize("path", MODULES, ids=[str(p.relative_to(Path(emulate.__file__).parent)) for p in MODULES])
+    def test_all_lists_only_names_the_module_defines_or_imports(self, path):
+        tree = ast.parse(path.read_text())
+        declared = [node for node in tree.body if isinstance(node, (ast.Assign, ast.AnnAssign))
+                    and "__all__" in [getattr(t, "id", None) for t in _targets(node)]]
+        assert declared, f"{path} has no __all__"
+        bound = set()
+        for node in ast.walk(tree):
+            if isinstance(node, (ast.FunctionDef, ast.ClassDef)) and node in tree.body:
+                bound.add(node.name)
+            elif isinstance(node, ast.Name) and isinstance(node.ctx, ast.Store):
+                bound.add(node.id)
+            elif isinstance(node, (ast.Import, ast.ImportFrom)):
+                bound |= {(alias.asname or alias.name).split(".")[0] for alias in node.names}
+        if isinstance(declared[0].value, ast.List) and all(isinstance(e, ast.Constant) for e in declared[0].value.elts):
+            names = ast.literal_eval(declared[0].value)
+            assert set(names) <= bound, set(names) - bound  # (the package's lazy names: TestPublicApi)
 
 
 class TestStructuredErrors:

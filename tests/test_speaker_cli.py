@@ -166,6 +166,20 @@ class TestPresetSave:
         shown = json.loads(run("preset", "show", "host-c", "--presets", tmp_path, "--json").output)
         assert shown["metrics"]["notch_hz"] == pytest.approx(payload["pick"]["notch_hz"], rel=1e-9)
 
+    def test_from_a_q_sweep_keeps_the_picked_q(self, takes, tmp_path):
+        out = tmp_path / "qsweep"
+        swept = run("sweep", takes[0], "--at", "6k", "--q-steps", 2, "--q", 1, "--out", out, "--workers", 1, "--json")
+        assert swept.exit_code == 0, swept.output
+        pick = json.loads(swept.output)["pick"]
+        result = run("preset", "save", "host-q", "--speaker", "Host Q", "--from-sweep", out, "--presets", tmp_path)
+        assert result.exit_code == 0, result.output
+        saved = presets.PresetStore(tmp_path).load("host-q")
+        assert saved.target.get("q", 0.25) == pick["q"] and saved.mix == pick["mix"]
+        network = saved.network()
+        # the bootstrap holds the picked Q: Q = 1/(4(1-K)) (Analog Devices MT-225); passive when 0.25
+        q = 0.25 if network.bootstrap is None else 1 / (4 * (1 - network.bootstrap))
+        assert q == pytest.approx(pick["q"], rel=0.05)  # the divider from preferred values: within 5 %
+
     def test_from_a_folder_that_is_not_a_sweep(self, tmp_path):
         result = run("preset", "save", "x", "--speaker", "X", "--from-sweep", tmp_path, "--presets", tmp_path)
         assert_one_line_error(result, "not a sweep summary")

@@ -64,6 +64,11 @@ class TestImportsPerCommand:
         for heavy in ("numba", "scipy", "matplotlib"):
             assert not under(modules, heavy), heavy
 
+    def test_response_with_rate_designs_without_numba(self, tmp_path):
+        # the digital design and its fidelity are numpy only; numba loads with the first block
+        modules = loaded_modules(["response", *PARTS, "--rate", "48000"], tmp_path)
+        assert not under(modules, "numba") and not under(modules, "matplotlib")
+
     def test_tolerance_without_plot_loads_no_plotting(self, tmp_path):
         modules = loaded_modules(["tolerance", *PARTS, "--draws", "200"], tmp_path)
         assert not under(modules, "matplotlib") and "emulate.report.plots" not in modules

@@ -11,13 +11,14 @@ import csv
 import io
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 from emulate.audio import stream as audio
 from emulate.voice import bands, sibilance, synth
-from emulate.work import sweep
+from emulate.work import reels, sweep
 from emulate.errors import BadValueError
 
 FS = 48000
@@ -110,19 +111,19 @@ class TestRunSweep:
         assert set(result.reels) == {str(t) for t in takes}
         for take in takes:
             info = audio.read_info(take)
-            gap = int(sweep.REEL_GAP_S * FS)
-            reel = audio.read_info(result.reels[str(take)])
+            gap = int(reels.REEL_GAP_S * FS)
+            reel = audio.read_info(result.reels[str(take)].path)
             assert reel.frames == info.frames * (len(SETTINGS_HZ) + 1) + gap * len(SETTINGS_HZ)
             assert (reel.channels, reel.subtype) == (info.channels, info.subtype)
 
     def test_reel_is_dry_then_each_setting_in_order(self, tmp_path, monkeypatch):
-        monkeypatch.setattr(sweep, "REEL_EXCERPT_S", 1.0)  # shorter than the take: a real excerpt
+        monkeypatch.setattr(reels, "REEL_EXCERPT_S", 1.0)  # shorter than the take: a real excerpt
         take = write_take(tmp_path / "host.wav", 2.5, subtype="FLOAT")  # float: samples compare exactly
         plan = sweep.SweepPlan(notches_hz=(8000.0, 4000.0))  # heard in rising order, not plan order
-        result = sweep.run_sweep([take], plan, tmp_path / "out", workers=1)
-        reel, _ = audio.read_all(result.reels[str(take)])
+        result = sweep.run_sweep([take], plan, tmp_path / "out", workers=1, match=False)
+        reel, _ = audio.read_all(result.reels[str(take)].path)
         dry, _ = audio.read_all(take)
-        n, gap = FS, int(sweep.REEL_GAP_S * FS)
+        n, gap = FS, int(reels.REEL_GAP_S * FS)
         assert len(reel) == 3 * n + 2 * gap
         start, stop = sibilance.most_sibilant_excerpt(dry, FS, seconds=1.0)
         np.testing.assert_array_equal(reel[:n], dry[start:stop])
@@ -220,17 +221,6 @@ class TestRunSweep:
         assert "reason" in result.pick and len(result.reels) == 1
 
 
-class TestWriteReel:
-    def test_length_and_gaps(self, tmp_path):
-        dry, wets = np.full((100, 2), 0.5), [np.full((100, 2), 0.25), np.full((100, 2), -0.25)]
-        path = sweep.write_reel(tmp_path / "r.wav", dry, wets, FS, "FLOAT")
-        reel, fs = audio.read_all(path)
-        gap = int(sweep.REEL_GAP_S * FS)
-        assert fs == FS and reel.shape == (300 + 2 * gap, 2)
-        np.testing.assert_array_equal(reel[100:100 + gap], 0.0)
-        np.testing.assert_array_equal(reel[-100:], -0.25)
-
-
 class TestRowsAsCsv:
     def test_header_and_numbers(self):
         text = sweep.rows_as_csv([{"setting": "a", "notch_hz": 1234.56789, "q": 0.25}])
@@ -260,3 +250,97 @@ class TestReadPick:
         (tmp_path / "summary.json").write_text('{"plan": {"notches_hz": [5000.0]}, "pick": %s}' % pick)
         with pytest.raises(BadValueError, match="not a sweep summary"):
             sweep.read_pick(tmp_path)
+
+
+class TestMixAndQSteps:
+    def test_mix_steps_in_equal_steps_to_the_top(self):
+        assert sweep.mix_steps(4) == (0.25, 0.5, 0.75, 1.0)
+        assert sweep.mix_steps(2, 0.8) == (0.4, 0.8)
+
+    def test_q_steps_equal_ratios_from_passive(self):
+        # passive balanced twin-T: Q = 1/4 (Analog Devices MT-225); geometric like numpy.geomspace
+        steps = sweep.q_steps(4, 2.0)
+        assert steps[0] == 0.25 and steps[-1] == 2.0
+        assert steps == pytest.approx(tuple(np.geomspace(0.25, 2.0, 4)), rel=1e-3)  # 3 significant digits
+
+    @pytest.mark.parametrize("call, match", [
+        (lambda: sweep.mix_steps(0), "mix steps 0: allowed a whole number from 1 to 64"),
+        (lambda: sweep.mix_steps(3, 1.5), r"mix 1.5: allowed \[0, 1\]"),
+        (lambda: sweep.q_steps(65), "Q steps 65"),
+        (lambda: sweep.q_steps(3, 0.1), r"Q \(top of the Q steps\) 0.1: allowed \[0.25, 20\]"),
+    ])
+    def test_bad_values(self, call, match):
+        with pytest.raises(BadValueError, match=match):
+            call()
+
+    @pytest.mark.parametrize("fields, match", [
+        ({"notches_hz": (4000.0, 6000.0), "mixes": (0.5, 1.0)}, "holds one notch"),
+        ({"notches_hz": (6000.0,), "mixes": (0.5,), "qs": (1.0,)}, "not both mix and Q"),
+        ({"notches_hz": (6000.0,), "mixes": (0.5, 0.501)}, r"0.005 \(mix\)"),
+    ])
+    def test_plan_refuses(self, fields, match):
+        with pytest.raises(BadValueError, match=match):
+            sweep.SweepPlan(**fields)
+
+    def test_plan_round_trips_with_steps(self):
+        plan = sweep.SweepPlan(notches_hz=(6000.0,), qs=(0.25, 1.0))
+        assert sweep.SweepPlan.from_dict(json.loads(json.dumps(sweep.SweepResult(plan, [], [], {}).as_dict()["plan"]))) \
+            == plan
+
+    def test_mix_sweep_rows_reels_and_pick(self, swept, tmp_path):
+        takes, _, _, _ = swept
+        plan = sweep.SweepPlan(notches_hz=(PLANTED_HZ,), mixes=(1.0, 0.5))
+        result = sweep.run_sweep(takes[:1], plan, tmp_path / "out", workers=1)
+        assert [r["mix"] for r in result.rows] == [1.0, 0.5] and result.plan.axis == "mix"
+        assert {r["notch_target_hz"] for r in result.rows} == {PLANTED_HZ}
+        # depth = 20 log10(1 - mix) (common practice): mix 0.5 notches at most 6 dB, so cuts less than mix 1
+        cuts = {r["mix"]: r["sibilance_reduction_db"] for r in result.rows}
+        assert cuts[0.5] < cuts[1.0] <= 60
+        assert result.pick["mix"] == 1.0 and "mix" in result.pick
+        cues = result.reels[str(takes[0])].cues
+        assert [c.setting for c in cues] == ["dry", "notch6000Hz-q0.25-mix0.50", "notch6000Hz-q0.25-mix1.00"]
+
+    def test_q_sweep_rows(self, swept, tmp_path):
+        takes, _, _, _ = swept
+        plan = sweep.SweepPlan(notches_hz=(PLANTED_HZ,), qs=(0.25, 2.0))
+        result = sweep.run_sweep(takes[:1], plan, tmp_path / "out", workers=1)
+        assert [r["q"] for r in result.rows] == [0.25, 2.0] and result.plan.axis == "q"
+        # a narrower notch (higher Q) costs less speech (ANSI S3.5 band importance spread wide)
+        cost = {r["q"]: r["intelligibility_cost"] for r in result.rows}
+        assert cost[2.0] < cost[0.25]
+        for row in result.rows:
+            assert row["notch_hz"] == pytest.approx(PLANTED_HZ, rel=0.03)  # E24/E12 parts: within 3 %
+
+
+class TestListeningOutputs:
+    def test_reels_are_loudness_matched_by_default(self, swept):
+        # BS.1770 (pyloudnorm via emulate.voice.loudness) of each reel segment equals the dry segment's;
+        # 24- and 16-bit reels: quantisation moves it far less than 0.05 LU
+        from emulate.voice.loudness import loudness_lufs
+
+        takes, _, result, _ = swept
+        for take in takes:
+            reel = result.reels[str(take)]
+            x, fs = audio.read_all(reel.path)
+            levels = [loudness_lufs(x[round(c.start_s * fs):round(c.end_s * fs)], fs) for c in reel.cues]
+            assert levels == pytest.approx([levels[0]] * len(levels), abs=0.05)
+            assert reel.matched and reel.cues[0].setting == "dry"
+            assert Path(reel.cues_path).exists()
+
+    def test_sweep_into_writes_page_dry_copies_and_removed(self, swept, tmp_path):
+        takes, plan, _, _ = swept
+        out = tmp_path / "out"
+        result = sweep.sweep_into(takes, sweep.SweepPlan(notches_hz=(4000.0, 6000.0)), out, workers=1,
+                                  removed=True)
+        page = (out / "index.html").read_text()
+        for take in takes:
+            assert (out / f"dry--{take.name}").read_bytes() == take.read_bytes()
+            removed = Path(result.removed[str(take)])
+            assert removed.parent == out and result.pick["setting"] in removed.name and removed.exists()
+            assert f'src="{removed.name}"' in page
+        assert not [p for p in out.iterdir() if p.name.startswith(".")]
+
+    def test_no_page_when_not_asked(self, swept, tmp_path):
+        takes, _, _, _ = swept
+        sweep.sweep_into(takes[:1], sweep.SweepPlan(notches_hz=(6000.0,)), tmp_path / "out", workers=1, page=False)
+        assert not (tmp_path / "out" / "index.html").exists()

@@ -303,3 +303,20 @@ class TestChunks:
         assert np.array_equal(whole.deviation, chunked.deviation)
         assert np.allclose(whole.notch_hz, chunked.notch_hz, rtol=1e-12)
         assert seen == [64, 64, 64, 64, 44]
+
+
+class TestRankCorrelation:
+    @pytest.mark.parametrize("seed, ties", [(0, False), (1, True), (2, True)])
+    def test_equals_scipy_spearmanr(self, seed, ties):
+        # Reference: scipy.stats.spearmanr (Pearson's correlation of average ranks); rounding only.
+        from scipy import stats
+
+        rng = np.random.default_rng(seed)
+        a = rng.normal(size=500)
+        b = 0.3 * a + rng.normal(size=500)
+        if ties:
+            a, b = np.round(a, 1), np.where(b > 1.0, 0.0, b)  # many equal values on both sides
+        assert tol.rank_correlation(a, b) == pytest.approx(stats.spearmanr(a, b).statistic, abs=1e-12)
+
+    def test_constant_side_gives_nan(self):
+        assert np.isnan(tol.rank_correlation([1.0, 1.0, 1.0], [1.0, 2.0, 3.0]))

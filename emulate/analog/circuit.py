@@ -32,6 +32,8 @@ import numpy as np
 from emulate.errors import CircuitError
 from emulate.analog.roots import pair_conjugates
 
+__all__ = ["GROUND", "SOURCE", "Circuit", "Compiled", "Rational"]
+
 GROUND = "gnd"
 SOURCE = "src"
 _CANCEL_RTOL = 1e-6

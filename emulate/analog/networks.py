@@ -36,6 +36,8 @@ from emulate.analog.circuit import GROUND, SOURCE, Circuit
 from emulate.errors import BadValueError
 from emulate.validate import check_range
 
+__all__ = ["PART_NAMES", "part_kind", "TwinT"]
+
 PART_NAMES = ("r1", "r2", "r3", "c1", "c2", "c3")
 
 

@@ -20,10 +20,15 @@ from typing import Callable
 import numpy as np
 
 from emulate.errors import EmulateWarning
+from emulate.search import golden_section_min
+
+__all__ = ["AUDIO_BAND_HZ", "EXACT_NULL_DB", "NotchMetrics", "is_exact_null", "db", "measure",
+           "measure_network", "measure_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
+           "SHALLOW_DB", "LOAD_FACTOR", "SOURCE_FACTOR", "check_twin_t", "warn_all"]
 
 AUDIO_BAND_HZ = (20.0, 20000.0)
 EXACT_NULL_DB = 200.0  # a notch deeper than this below the passband is an exact null in float64 (the one threshold)
-_GOLDEN = (math.sqrt(5) - 1) / 2
+_LOG_F_TOL = 1e-13  # the notch search stops within 1e-13 of log f
 _EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
 _PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
 
@@ -158,17 +163,8 @@ def find_notch(response: Callable, search_hz, points: int):
     magnitude = np.abs(response(grid[None, :]))
     best = np.clip(np.argmin(magnitude, axis=1), 1, points - 2)
     lo, hi = np.log(grid[best - 1]), np.log(grid[best + 1])
-    # golden-section search on log f, one new evaluation a step: 60 steps shrink
-    # the bracket by 0.618**60 = 3e-13
-    a, b = hi - _GOLDEN * (hi - lo), lo + _GOLDEN * (hi - lo)
-    fa, fb = _magnitude_at(response, a), _magnitude_at(response, b)
-    for _ in range(60):
-        left = fa < fb  # the minimum lies in [lo, b]: b becomes hi, a becomes b
-        hi, lo = np.where(left, b, hi), np.where(left, lo, a)
-        a, b = np.where(left, hi - _GOLDEN * (hi - lo), b), np.where(left, a, lo + _GOLDEN * (hi - lo))
-        probe = _magnitude_at(response, np.where(left, a, b))
-        fa, fb = np.where(left, probe, fb), np.where(left, fa, probe)
-    centre = (lo + hi) / 2
+    # on log f; 1e-13 of log f is 1e-13 relative in f
+    centre = golden_section_min(lambda log_f: _magnitude_at(response, log_f), lo, hi, _LOG_F_TOL)
     return np.exp(centre), db(_magnitude_at(response, centre))
 
 

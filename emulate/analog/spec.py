@@ -42,6 +42,10 @@ from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT, part_kind
 from emulate.validate import check_range
 
+__all__ = ["CIRCUIT_KEYS", "TARGET_KEYS", "network_from_table", "network_surroundings", "design_from_table",
+           "target_arguments", "table_from_network", "read_circuit_file", "network_from_document",
+           "preset_document", "network_from_preset"]
+
 CIRCUIT_KEYS = PART_NAMES + ("source", "load", "bootstrap", "depth_pot")
 TARGET_KEYS = ("notch", "q", "series", "cap_series", "impedance", "capacitor", "parts_per_position")
 

@@ -13,6 +13,8 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
                                  network_from_options)
 from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
+__all__ = ["tolerance_options", "PROGRESS_FROM_DRAWS", "tolerance_command", "sheet_command"]
+
 
 def tolerance_options(command):
     """Tolerances, distribution, draws, seed, spec and trim share (shared by both commands)."""

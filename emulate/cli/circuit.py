@@ -12,6 +12,8 @@ from emulate.analog.response import check_twin_t, measure_network
 from emulate.analog.stability import check_stability
 from emulate.cli.realbox import real_network, realbox_options, realbox_report, wants_levels
 
+__all__ = ["response", "design"]
+
 
 @main.command()
 @circuit_options
@@ -30,7 +32,7 @@ def response(rate, plot_path, force, as_json, **options):
     payload = summary.metrics_payload(network, metrics, found, stable)
     text = summary.response_text(network, metrics, found, stable)
     if rate is not None and stable.stable:
-        from emulate.dsp import emulation  # numba kernels: loaded only for --rate
+        from emulate.dsp import emulation  # the digital design (no numba): loaded only for --rate
 
         digital = emulation.digital_for(network, rate)
         payload["digital"] = summary.digital_payload(digital)

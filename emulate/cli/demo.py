@@ -8,6 +8,8 @@ from emulate import demo
 from emulate.report import summary
 from emulate.cli.options import emit, json_option, main, presets_option, run_quietly
 
+__all__ = ["demo_command"]
+
 
 @main.command("demo")
 @click.option("--out", "out_dir", default="demo-out", show_default=True, type=click.Path(file_okay=False),

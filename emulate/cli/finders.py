@@ -13,6 +13,8 @@ from emulate.cli.options import check_plot, emit, force_option, json_option, mai
 from emulate.report import summary
 from emulate.voice.takes import TakeSource
 
+__all__ = ["takes_argument", "plot_option", "series_option", "sibilance", "hum", "resonance"]
+
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
 _plot_path_option = click.option("--plot", "plot_path", type=click.Path(dir_okay=False),

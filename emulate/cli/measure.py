@@ -10,6 +10,8 @@ import click
 from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
 from emulate.errors import BadValueError
 
+__all__ = ["HEARING", "sweep_options", "measure", "stimulus", "analyse"]
+
 HEARING = ("protect your hearing: the sweep climbs to 20 kHz at a steady level; keep monitors low or off "
            "while recording it, and raise --level only as far as the recording needs")
 

@@ -18,6 +18,10 @@ import click
 from emulate import __version__, files, lifetime
 from emulate.errors import EmulateError, EmulateWarning
 
+__all__ = ["PART_HELP", "COMMAND_MODULES", "COMMAND_SUMMARY", "interrupted_line", "printable", "main",
+           "PRESETS_ENV_VAR", "presets_option", "store_from", "circuit_options", "network_from_options",
+           "force_option", "check_plot", "json_option", "emit", "run_quietly", "progress"]
+
 PART_HELP = {
     "r1": "R1, series resistor of the R-R-C T, ohms (e.g. 10k, 4k7)",
     "r2": "R2, series resistor of the R-R-C T, ohms",
@@ -49,7 +53,7 @@ COMMAND_SUMMARY = {
     "sibilance": "Find where one speaker's /s/ and /sh/ sit, over one or more takes.",
     "hum": "Find mains hum: exact frequency, drift, harmonics and notches with their circuits.",
     "resonance": "Find one narrow, persistent spectral peak (a ringing room mode, a stand or capsule).",
-    "sweep": "Render every take at every notch setting; reels, a summary table and a pick.",
+    "sweep": "Render every take at every setting; reels, a summary table, a pick and a listening page.",
     "preset": "Keep notch settings per speaker: save, list, show, delete.",
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
     "sheet": "Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.",

@@ -15,6 +15,8 @@ from emulate.dsp import emulation
 from emulate import files
 from emulate.report import summary
 
+__all__ = ["render"]
+
 
 @main.command()
 @click.argument("in_path", metavar="IN", type=click.Path(dir_okay=False))
@@ -30,14 +32,16 @@ from emulate.report import summary
               show_default=True, help="with --build: how parts spread within tolerance")
 @click.option("--seed", type=int, default=0, show_default=True, help="with --build: the tolerance run's seed")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="draw the take's spectrum before and after, notch marked (.png or .svg)")
-@force_option("an existing OUT (never IN, a folder, a FIFO or a device) and an existing --plot file")
+@click.option("--removed", "removed_path", type=click.Path(dir_okay=False),
+              help="also write what the notch removes from IN (dry minus wet, time-aligned) to this file")
+@force_option("an existing OUT (never IN, a folder, a FIFO or a device), --removed file and --plot file")
 @realbox_options
 @click.option("--with-noise", is_flag=True, help="add the box's own noise (resistors, op-amps) at the "
                                                   "studio level; needs --level or --full-scale")
 @json_option
 @run_quietly
-def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path, with_noise,
-           force, as_json, **options):
+def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distribution, seed, plot_path,
+           removed_path, with_noise, force, as_json, **options):
     """Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).
 
     OUT appears complete or not at all. An existing OUT is refused without --force;
@@ -56,10 +60,13 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     audio.check_out_path(in_path, out_path)
     files.check_new_output(out_path, force=force, what="OUT")
     audio.output_format(out_path)
+    _check_removed(in_path, out_path, removed_path, force)
     check_plot(plot_path, force)
-    processor = emulation.processor_for(network)
-    if wants_levels(options):
-        processor = _real_box(processor, network, options, with_noise, seed)
+
+    def make_processor():
+        made = emulation.processor_for(network)
+        return _real_box(made, network, options, with_noise, seed) if wants_levels(options) else made
+    processor = make_processor()
     with progress(info.frames, f"rendering {in_path}") as bar:
         report = audio.render_file(in_path, out_path, processor, progress=bar.update,
                                    subtype="FLOAT" if as_float else subtype, replace=force)
@@ -72,20 +79,45 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
         text += "\n" + _hits_text(processor.hits()) + f"\n  {HEARING_CAUTION}"
     if build is not None:
         text += f"\n  build {build}: {summary.network_line(network)}"
-    if plot_path:
-        from emulate.analog.response import measure
-        from emulate.report import plots
+    try:
+        if removed_path:
+            from emulate.dsp.removed import RemovedPart
 
-        try:
-            (dry, fs), (wet, _) = audio.read_all(in_path), audio.read_all(out_path)
-            label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
-            drawn = plots.plot_take_spectrum(dry, wet, fs, plot_path, notch_hz=measure(network.response).notch_hz,
-                                             label=label)
-            text += f"\n  wrote {drawn}"
-        except BaseException:  # the command failed as a whole: a new OUT goes too
-            files.discard(out_path)
-            raise
+            with progress(info.frames, f"rendering what the notch removes from {in_path}") as bar:
+                audio.render_file(in_path, removed_path, RemovedPart(make_processor()), progress=bar.update,
+                                  subtype="FLOAT" if as_float else subtype)
+            payload["removed"] = str(removed_path)
+            text += f"\n  wrote {removed_path} (what the notch removes: dry minus wet, time-aligned)"
+        if plot_path:
+            text += _plot(in_path, out_path, plot_path, network)
+    except BaseException:  # the command failed as a whole: a new OUT goes too
+        files.discard(out_path)
+        if removed_path:
+            files.discard(removed_path)
+        raise
     emit(as_json, payload, text)
+
+
+def _check_removed(in_path, out_path, removed_path, force: bool) -> None:
+    """The --removed file: never IN or OUT, an existing one only with --force."""
+    if not removed_path:
+        return
+    if Path(removed_path).resolve() == Path(out_path).resolve():
+        raise click.BadParameter("--removed must name another file than OUT", param_hint="--removed")
+    audio.check_out_path(in_path, removed_path)
+    files.check_new_output(removed_path, force=force, what="--removed file")
+    audio.output_format(removed_path)
+
+
+def _plot(in_path, out_path, plot_path, network) -> str:
+    from emulate.analog.response import measure
+    from emulate.report import plots
+
+    label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
+    # both files streamed a chunk at a time: memory stays flat with the take's length
+    drawn = plots.plot_take_spectrum(in_path, out_path, float(audio.read_info(in_path).samplerate), plot_path,
+                                     notch_hz=measure(network.response).notch_hz, label=label)
+    return f"\n  wrote {drawn}"
 
 
 def _real_box(processor, network, options, with_noise: bool, seed: int):

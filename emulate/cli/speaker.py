@@ -15,6 +15,9 @@ from emulate.cli.options import (check_plot, circuit_options, emit, force_option
 from emulate.analog.parts import parse_value
 from emulate.analog.response import measure
 
+__all__ = ["takes_argument", "sweep_command", "preset", "preset_save", "preset_list", "preset_show",
+           "preset_delete"]
+
 takes_argument = click.argument("takes", metavar="TAKE...", nargs=-1, required=True,
                                 type=click.Path(dir_okay=False))
 
@@ -38,7 +41,7 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--steps", type=int, default=6, show_default=True, help="settings, in equal ratios")
 @click.option("--at", help="explicit notch frequencies instead, Hz, comma-separated (4k,4.5k,5k)")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
-              help="folder for the renders, reels and summary (created)")
+              help="folder for the renders, reels, summary and listening page (created)")
 @click.option("--q", type=float, help="Q held for every setting (active network); default passive")
 @click.option("--series", help="resistor series, IEC 60063; default E24")
 @click.option("--cap-series", help="capacitor series, IEC 60063; default E12")
@@ -48,18 +51,30 @@ def _sweep_notches(from_hz, to_hz, steps, at):
 @click.option("--load", help="load resistance, ohms; default none")
 @click.option("--preset", help="hold what this preset holds (Q, impedance, mix, source, load); options override")
 @presets_option
+@click.option("--mix-steps", type=int, help="instead of notches: at the one --at notch, this many mixes "
+              "(depth) in equal steps up to --mix (default 1)")
+@click.option("--q-steps", type=int, help="instead of notches: at the one --at notch, this many values "
+              "of Q in equal ratios from 0.25 (passive) up to --q (default 2)")
 @click.option("--workers", type=int, help="parallel renders; default: one per core")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
-              help="draw the summary: reduction, loudness and speech cost against the notch (.png or .svg)")
+              help="draw the summary: reduction, loudness and speech cost against the setting (.png or .svg)")
+@click.option("--no-match", is_flag=True, help="reels and listening page at the raw levels (default: "
+              "loudness-matched to the dry take, ITU-R BS.1770)")
+@click.option("--removed", "with_removed", is_flag=True,
+              help="also render, per take, what the picked setting removes (dry minus wet, time-aligned)")
 @force_option("a non-empty --out folder (as a whole, once the new sweep is complete) and an existing "
               "--plot file")
 @json_option
 @run_quietly
 def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_series, impedance, mix,
-                  source, load, preset, presets_dir, workers, plot_path, force, as_json):
-    """Render every take at every notch setting; reels, a summary table and a pick.
+                  source, load, preset, presets_dir, mix_steps, q_steps, workers, plot_path, no_match,
+                  with_removed, force, as_json):
+    """Render every take at every setting; reels, a summary table, a pick and a listening page.
 
-    The --out folder appears complete or not at all; a take inside it is refused.
+    Steps the notch frequency, or at one notch the mix (--mix-steps) or the Q
+    (--q-steps). Reels and the page (index.html, opened from the folder with any
+    browser) are loudness-matched unless --no-match. The --out folder appears
+    complete or not at all; a take inside it is refused.
     """
     from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
 
@@ -68,8 +83,9 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
              "impedance_ohms": None if impedance is None else parse_value(impedance, "resistance")}
     given |= {k: v for k, v in spec.network_surroundings({"source": source, "load": load}).items()
               if (source if k == "source_ohms" else load) is not None}
-    plan = sweep.SweepPlan(notches_hz=_sweep_notches(from_hz, to_hz, steps, at),
-                           **(held | {k: v for k, v in given.items() if v is not None}))
+    held |= {k: v for k, v in given.items() if v is not None}
+    held |= _stepped(sweep, mix_steps, q_steps, held, from_hz or to_hz)
+    plan = sweep.SweepPlan(notches_hz=_sweep_notches(from_hz, to_hz, steps, at), **held)
     plan.network(plan.notches_hz[0])  # a bad plan fails here, before any work
     sweep.check_workers(workers)
     sweep.check_out(takes, out_dir, force=force)
@@ -81,15 +97,34 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
         from emulate.report import plots
 
         rows = [row | {"pick": row["setting"] == result.pick["setting"]} for row in result.rows]
-        written.append(plots.plot_sweep(rows, _under(plot_path, out_dir, staging)))
+        written.append(plots.plot_sweep(rows, _under(plot_path, out_dir, staging), x=_PLOT_AXIS[plan.axis]))
+        return written
 
     with progress(total, "sweeping") as bar:
         result = sweep.sweep_into(takes, plan, out_dir, force=force, workers=workers, progress=bar.update,
-                                  finish=draw if plot_path else None)
-    text = summary.sweep_text(result, Path(out_dir) / "summary.csv", Path(out_dir) / "summary.json")
+                                  finish=draw if plot_path else None, match=not no_match,
+                                  removed=with_removed)
+    text = summary.sweep_text(result, Path(out_dir) / "summary.csv", Path(out_dir) / "summary.json",
+                              Path(out_dir) / "index.html")
     if plot_path:
         text += f"\nwrote {plot_path}"
     emit(as_json, result.as_dict(), text)
+
+
+_PLOT_AXIS = {"notch": "notch_hz", "mix": "mix", "q": "q"}
+
+
+def _stepped(sweep, mix_steps, q_steps, held: dict, from_to) -> dict:
+    """The plan fields of a mix or Q sweep (empty for a notch sweep); one notch must be given with --at."""
+    if mix_steps is None and q_steps is None:
+        return {}
+    if mix_steps is not None and q_steps is not None:
+        raise click.UsageError("give --mix-steps or --q-steps, not both (a sweep steps one thing)")
+    if from_to:
+        raise click.UsageError("--mix-steps and --q-steps hold one notch: give it with --at, not --from/--to")
+    if mix_steps is not None:
+        return {"mixes": sweep.mix_steps(mix_steps, held.get("mix", 1.0))}
+    return {"qs": sweep.q_steps(q_steps, held.get("q") or sweep.Q_STEPS_TOP)}
 
 
 def _under(path, out_dir, staging) -> Path:
@@ -198,13 +233,16 @@ def _from_sweep(folder, mix) -> dict:
     from emulate.work import sweep  # the process pool and reels: loaded only for sweeps
 
     plan, pick = sweep.read_pick(folder)
-    design = plan.design(pick["notch_target_hz"])
+    setting = sweep.Setting(pick["notch_target_hz"], pick.get("q", plan.q), pick.get("mix", plan.mix))
+    if setting.q == sweep.PASSIVE_Q and plan.q is None:
+        setting = sweep.Setting(setting.notch_hz, None, setting.mix)
+    design = plan.design(setting)
     target = {"notch": f"{pick['notch_target_hz']:.6g}", "series": plan.series}
-    if plan.q is not None:
-        target["q"] = plan.q
+    if setting.q is not None:
+        target["q"] = setting.q
     return {"circuit": spec.table_from_network(design.built), "target": target, "build": _build_note(design),
-            "mix": plan.mix if mix is None else mix,
-            "made_by": f"sweep pick: {pick['setting']} of {len(plan.notches_hz)}: {pick['reason']}"}
+            "mix": setting.mix if mix is None else mix,
+            "made_by": f"sweep pick: {pick['setting']} of {len(plan.settings)}: {pick['reason']}"}
 
 
 @preset.command("list")

@@ -67,8 +67,8 @@ All designs are causal IIR sections at the base rate, no oversampling; the
 latency is 0 except where the phase all-pass is used (1 to 4 samples).
 
 Only numpy is imported: the zpk -> sos pairing, the response evaluation of zpk
-and sos on a frequency grid and the bounded null search are small module-private
-routines here, so rendering does not load scipy.signal or scipy.optimize (about
+and sos on a frequency grid are small module-private routines here and the bounded
+null search is the package's one golden-section search (:mod:`emulate.search`), so rendering does not load scipy.signal or scipy.optimize (about
 50 MB of resident memory).  The tests check them against scipy.signal.zpk2sos,
 freqs_zpk and sosfreqz.
 """
@@ -82,7 +82,8 @@ import numpy as np
 
 from emulate.analog.roots import upper_and_real
 from emulate.errors import BadValueError, CircuitError
-from emulate.validate import check_range
+from emulate.search import golden_section_min
+from emulate.validate import check_range, check_sample_rate_hz
 
 __all__ = [
     "DigitalNotch",
@@ -94,6 +95,7 @@ __all__ = [
     "fidelity_error_db",
     "phase_band_hz",
     "phase_error_deg",
+    "worst_error_db",
 ]
 
 # Response level below which the fidelity target does not apply (dB).
@@ -166,32 +168,6 @@ class DigitalNotch:
 
 
 # --- validators (one per concept) -------------------------------------------
-
-
-def check_sample_rate_hz(fs):
-    """Return ``fs`` as float after checking it is a finite rate > 0 Hz.
-
-    Parameters
-    ----------
-    fs : float
-        Sample rate in Hz.
-
-    Returns
-    -------
-    float
-
-    Raises
-    ------
-    BadValueError
-        If ``fs`` is not a finite number > 0.
-
-    Example
-    -------
-    >>> check_sample_rate_hz(48000)
-    48000.0
-    """
-    check_range("sample rate (Hz)", fs, 0.0, math.inf, low_open=True, high_open=True)
-    return float(fs)
 
 
 def _check_notch_hz(notch_hz, fs, *, below_nyquist=True):
@@ -535,31 +511,6 @@ def _sos_response_z(sos, f_hz, fs):
     return np.prod(num / den, axis=1)
 
 
-# Golden-section ratio (3 - sqrt 5) / 2: the interior point's share of a bracket.
-_GOLDEN = (3.0 - math.sqrt(5.0)) / 2.0
-
-
-def _golden_min(fun, a, b, xtol):
-    """Minimiser of a unimodal ``fun`` on [a, b] to within ``xtol`` (golden-section search).
-
-    Keeps a bracket [a, b] with two interior points and drops the side of the
-    worse one, shrinking the bracket by 0.618 per evaluation (Kiefer 1953;
-    Press et al., Numerical Recipes, 3rd ed., sec. 10.2).
-    """
-    x1, x2 = a + _GOLDEN * (b - a), b - _GOLDEN * (b - a)
-    f1, f2 = fun(x1), fun(x2)
-    while b - a > xtol:
-        if f1 <= f2:
-            b, x2, f2 = x2, x1, f1
-            x1 = a + _GOLDEN * (b - a)
-            f1 = fun(x1)
-        else:
-            a, x1, f1 = x1, x2, f2
-            x2 = b - _GOLDEN * (b - a)
-            f2 = fun(x2)
-    return x1 if f1 <= f2 else x2
-
-
 # --- stage 3: checks ---------------------------------------------------------
 
 
@@ -712,6 +663,39 @@ def phase_error_deg(z, p, k, sos, fs, band_hz, latency_samples=0):
     return _errors(z, p, k, sos, fs, band_hz, latency_samples)[1]
 
 
+def worst_error_db(h_analog, h_digital, floor_db: float = FLOOR_DB) -> float:
+    """Largest |dB| difference between two responses wherever the analog is above ``floor_db``.
+
+    The package's one worst-error measure: the design's fidelity figure and the
+    pictures' caption both come from it.  The caller picks the frequencies (the
+    fidelity band, a picture's grid from 20 Hz up).
+
+    Parameters
+    ----------
+    h_analog, h_digital : array_like of complex
+        The two responses on the same frequencies.
+    floor_db : float, optional
+        Analog level (dB) at or below which a point is not compared (default -30 dB).
+
+    Returns
+    -------
+    float
+        Worst |dB| error, 0.0 where the analog never rises above ``floor_db``.
+
+    Example
+    -------
+    >>> round(worst_error_db([1.0, 0.5, 1e-3], [1.0, 0.25, 1.0]), 3)  # 1e-3 is -60 dB: not compared
+    6.021
+    """
+    h_analog, h_digital = np.asarray(h_analog), np.asarray(h_digital)
+    with np.errstate(divide="ignore"):
+        level = 20.0 * np.log10(np.abs(h_analog))
+        keep = level > floor_db
+        if not np.any(keep):
+            return 0.0
+        return float(np.max(np.abs(20.0 * np.log10(np.abs(h_digital[keep])) - level[keep])))
+
+
 def _errors(z, p, k, sos, fs, band_hz, latency_samples):
     """(worst |dB| error, worst |phase| error in degrees) where the analog is above -30 dB."""
     fs = check_sample_rate_hz(fs)
@@ -740,11 +724,7 @@ class _Reference:
 
     def magnitude_error_db(self, sos):
         """Worst |dB| error where the analog is above -30 dB (0.0 where it never is)."""
-        if not np.any(self.keep):
-            return 0.0
-        with np.errstate(divide="ignore"):
-            db_d = 20.0 * np.log10(np.abs(self.digital(sos)[self.keep]))
-        return float(np.max(np.abs(db_d - self.db[self.keep])))
+        return worst_error_db(self.h, self.digital(sos))
 
     def phase_error_rad(self, sos, latency_samples=0):
         """Digital w (rad/sample) and phase(H_d / H_a) (rad) over the phase part of the grid."""
@@ -771,7 +751,7 @@ def _null_hz(magnitude, near_hz, hi_hz):
     i = int(np.argmin(magnitude(f)))
     step = f[1] - f[0]
     a, b = max(lo, f[i] - step), min(hi, f[i] + step)
-    return float(_golden_min(lambda x: float(magnitude(np.array([x]))[0]), a, b, near_hz * 1e-9))
+    return golden_section_min(magnitude, a, b, near_hz * 1e-9)
 
 
 def _digital_null_hz(sos, fs, near_hz):

@@ -33,6 +33,8 @@ from emulate.analog.response import measure
 from emulate.analog.stability import check_stability
 from emulate.errors import CircuitError
 
+__all__ = ["DESIGN_TOLERANCE_DB", "FAR_ROOT_HZ", "processor_for", "digital_for", "audio_band_zpk"]
+
 
 DESIGN_TOLERANCE_DB = 0.05  # half the 0.1 dB fidelity target: margin for the worst grid cases
 FAR_ROOT_HZ = 500e3

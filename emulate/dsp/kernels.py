@@ -12,20 +12,12 @@ from __future__ import annotations
 import numpy as np  # noqa: F401  (the docstring examples use it)
 from numba import njit
 
+from emulate.dsp.state_layout import (RAMP_STEP, RAMP_TARGET, RAMP_VALUE, TALLY_BOTTOM, TALLY_CLIPPED,
+                                       TALLY_NON_FINITE, TALLY_TOP)
+
 __all__ = ["sos_filter", "ramp_blend", "delay_line", "codes_to_float", "encode_codes",
            "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET", "TALLY_TOP", "TALLY_BOTTOM", "TALLY_CLIPPED",
            "TALLY_NON_FINITE"]
-
-# Layout of a ramp state array (float64[3]).
-RAMP_VALUE = 0
-RAMP_STEP = 1
-RAMP_TARGET = 2
-
-# Layout of an encoder tally array (float64[4]), carried across blocks.
-TALLY_TOP = 0  # largest scaled sample so far (-inf before any)
-TALLY_BOTTOM = 1  # smallest scaled sample so far (+inf before any)
-TALLY_CLIPPED = 2  # samples whose nearest code lay outside the code range
-TALLY_NON_FINITE = 3  # NaN/Inf samples met
 
 # splitmix64 (Steele, Lea & Flood, "Fast splittable pseudorandom number generators",
 # OOPSLA 2014): a 64-bit counter, stepped by the golden gamma and mixed.

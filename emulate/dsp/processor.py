@@ -20,9 +20,10 @@ import math
 
 import numpy as np
 
-from emulate.dsp import digital, kernels
+from emulate.dsp import digital
 from emulate.dsp.depth import check_mix
 from emulate.dsp.digital import check_sample_rate_hz, design_sections
+from emulate.dsp.state_layout import RAMP_STEP, RAMP_TARGET, RAMP_VALUE
 from emulate.errors import BadValueError, EmulateError
 from emulate.validate import check_count, check_range
 
@@ -35,6 +36,13 @@ def _check_smoothing_ms(smoothing_ms):
     return float(smoothing_ms)
 
 
+def _kernels():
+    """The numba kernels, loaded on the first block: a design or a response needs no numba."""
+    from emulate.dsp import kernels
+
+    return kernels
+
+
 class _Stage:
     """One digital design with its per-channel filter state."""
 
@@ -44,7 +52,7 @@ class _Stage:
 
     def run(self, x):
         out = np.empty_like(x)
-        kernels.sos_filter(self.design.sos, x, self.state, out)
+        _kernels().sos_filter(self.design.sos, x, self.state, out)
         return out
 
 
@@ -196,9 +204,9 @@ class NotchProcessor:
         if self._fs is None:
             self._mix_ramp[:] = (self._mix, 1.0, self._mix)
             return
-        distance = abs(self._mix - self._mix_ramp[kernels.RAMP_VALUE])
-        self._mix_ramp[kernels.RAMP_STEP] = max(distance, 1e-12) / self._ramp_samples()
-        self._mix_ramp[kernels.RAMP_TARGET] = self._mix
+        distance = abs(self._mix - self._mix_ramp[RAMP_VALUE])
+        self._mix_ramp[RAMP_STEP] = max(distance, 1e-12) / self._ramp_samples()
+        self._mix_ramp[RAMP_TARGET] = self._mix
 
     def set_circuit(self, z, p, k, notch_hz):
         """Switch to a new analog circuit, crossfading from the old filter over the smoothing time.
@@ -307,14 +315,14 @@ class NotchProcessor:
         x = self._check_block(block)
         wet = self._stage.run(x)
         if self._old is not None:
-            kernels.ramp_blend(self._old.run(x), wet, self._fade, wet)
-            if self._fade[kernels.RAMP_VALUE] >= 1.0:
+            _kernels().ramp_blend(self._old.run(x), wet, self._fade, wet)
+            if self._fade[RAMP_VALUE] >= 1.0:
                 self._end_fade()
         if self._old is None and self._mix_settled_at(1.0):
             return wet  # what ramp_blend gives at g = 1 (0 * dry + 1 * wet), without the pass
         dry = self._dry(x)
         out = np.empty_like(x)
-        kernels.ramp_blend(dry, wet, self._mix_ramp, out)
+        _kernels().ramp_blend(dry, wet, self._mix_ramp, out)
         return out
 
     # --- helpers -------------------------------------------------------------
@@ -324,7 +332,7 @@ class NotchProcessor:
 
     def _mix_settled_at(self, value):
         ramp = self._mix_ramp
-        return ramp[kernels.RAMP_VALUE] == ramp[kernels.RAMP_TARGET] == value
+        return ramp[RAMP_VALUE] == ramp[RAMP_TARGET] == value
 
     def _ramp_samples(self):
         return max(1.0, round(self._smoothing_ms * 1e-3 * self._fs))
@@ -344,7 +352,7 @@ class NotchProcessor:
         if self._delay is None:
             return x
         out = np.empty_like(x)
-        kernels.delay_line(x, self._delay[0], self._delay[1], out)
+        _kernels().delay_line(x, self._delay[0], self._delay[1], out)
         return out
 
     def _require_prepared(self):

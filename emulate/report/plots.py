@@ -18,10 +18,17 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from emulate.audio.spectrum import average_power_density
 from emulate.errors import BadValueError
 from emulate.files import atomic_path, check_picture_path
 from emulate.analog.parts import format_value
-from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null, measure
+from emulate.analog.response import db, measure
+from emulate.dsp.digital import worst_error_db
+from emulate.report.summary import cut_text
+
+__all__ = ["FIG_SIZE_PX", "DPI", "FLOOR_DB", "SWEEP_KEYS", "circuit_words", "digital_response",
+           "plot_response", "plot_tolerance", "plot_take_spectrum", "plot_sweep", "plot_measured",
+           "plot_finding"]
 
 FIG_SIZE_PX = (1200, 800)
 DPI = 100
@@ -113,13 +120,6 @@ def digital_response(network, fs: float, f_hz) -> tuple[np.ndarray, float]:
     return processor.frequency_response(f_hz), processor.fidelity_db
 
 
-def worst_error_db(f_hz, h_analog, h_digital, floor_db: float = -30.0) -> float:
-    """Largest |dB| difference from 20 Hz up wherever the analog is above ``floor_db`` (dB)."""
-    level = db(h_analog)
-    keep = (np.asarray(f_hz) >= 20.0) & (level > floor_db)
-    return float(np.max(np.abs(db(h_digital)[keep] - level[keep]))) if np.any(keep) else 0.0
-
-
 def plot_response(network, path, fs: float | None = None, label: str | None = None) -> Path:
     """Analog magnitude and phase of ``network``, with the digital emulation at ``fs`` overlaid.
 
@@ -160,12 +160,12 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     mag.plot(f, _level_db(h), color=_ANALOG, label="analog (exact)")
     phase.plot(f, np.degrees(np.angle(h)), color=_ANALOG)
     title = (f"{label + ': ' if label else ''}{circuit_words(network)}\n"
-             f"notch {metrics.notch_hz:.1f} Hz, {_depth_words(metrics.depth_below_passband_db)}")
+             f"notch {metrics.notch_hz:.1f} Hz, {cut_text(metrics.depth_below_passband_db)}")
     if fs is not None:
         h_d, fidelity = digital_response(network, fs, f)
         mag.plot(f, _level_db(h_d), color=_DIGITAL, linestyle="--", label=f"digital at {fs:g} Hz")
         phase.plot(f, np.degrees(np.angle(h_d)), color=_DIGITAL, linestyle="--")
-        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(f, h, h_d):.3f} dB (20 Hz-{top:.0f} Hz, "
+        figure.text(0.01, 0.005, f"digital worst error {worst_error_db(h[f >= 20.0], h_d[f >= 20.0]):.3f} dB (20 Hz-{top:.0f} Hz, "
                     f"where analog above -30 dB); wet path {fidelity:.3f} dB", color=_DIGITAL, fontsize=11,
                     va="bottom")
     mag.axvline(metrics.notch_hz, color=_MARK, linewidth=1.0, linestyle=":")
@@ -177,11 +177,6 @@ def plot_response(network, path, fs: float | None = None, label: str | None = No
     phase.set_ylim(-100, 100)
     _frequency_axis(phase, (10.0, top))
     return _save(figure, path)
-
-
-def _depth_words(depth_db: float) -> str:
-    return (f"exact null (deeper than {EXACT_NULL_DB:.0f} dB)" if is_exact_null(depth_db)
-            else f"{depth_db:.1f} dB below the passband")
 
 
 # --- tolerance ----------------------------------------------------------------------
@@ -231,17 +226,10 @@ def plot_tolerance(result, path, label: str | None = None) -> Path:
 
 # --- takes ----------------------------------------------------------------------------
 
-def _average_spectrum_db(x, fs: float):
-    from scipy import signal  # about 0.3 s to import: only the take pictures need it
-
-    x = np.asarray(x, float)
-    if x.ndim == 1:
-        x = x[:, None]
-    if x.ndim != 2 or x.shape[0] < 16:
-        raise BadValueError(f"take of shape {x.shape}: needs (frames, channels) with at least 16 frames")
-    segment = min(8192, x.shape[0])
-    f, power = signal.welch(x, fs=fs, nperseg=segment, axis=0)
-    return f[1:], 10 * np.log10(np.maximum(np.mean(power, axis=1)[1:] * fs / 2, 1e-20))
+def _average_spectrum_db(take, fs: float):
+    """Welch-averaged level per band of a take (an array or a file, streamed), dB re full scale."""
+    f, density = average_power_density(take, fs)
+    return f[1:], 10 * np.log10(np.maximum(density[1:] * fs / 2, 1e-20))
 
 
 def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, label: str | None = None) -> Path:
@@ -249,8 +237,10 @@ def plot_take_spectrum(dry, wet, fs: float, path, notch_hz=None, band_hz=None, l
 
     Parameters
     ----------
-    dry, wet : ndarray, (frames, channels) float
-        The take before and after; channels are averaged (Welch, 8192-point Hann).
+    dry, wet : ndarray, (frames, channels) float, or str or Path
+        The take before and after, as samples or as sound files at ``fs`` (read a
+        chunk at a time: memory does not grow with their length); channels are
+        averaged (Welch, 8192-point Hann; :mod:`emulate.audio.spectrum`).
         ``wet`` may be None: the take alone (e.g. where its sibilance sits).
     fs : float
         Sample rate, Hz (> 0).
@@ -306,8 +296,8 @@ def _check_rows(rows) -> list[dict]:
     return sorted(rows, key=lambda row: float(row["notch_hz"]))
 
 
-def plot_sweep(rows, path) -> Path:
-    """Sweep summary: per notch setting, sibilance-band reduction, loudness change and intelligibility cost.
+def plot_sweep(rows, path, *, x: str = "notch_hz") -> Path:
+    """Sweep summary: per setting, sibilance-band reduction, loudness change and intelligibility cost.
 
     Parameters
     ----------
@@ -317,6 +307,9 @@ def plot_sweep(rows, path) -> Path:
         ``pick=True`` is marked.
     path : str or Path
         PNG to write.
+    x : str
+        What the sweep stepped, the row key on the horizontal axis: ``notch_hz`` (log
+        frequency axis), ``mix`` or ``q`` (linear and log axes).
 
     Raises
     ------
@@ -332,7 +325,7 @@ def plot_sweep(rows, path) -> Path:
     """
     rows = _check_rows(rows)
     check_picture_path(path)
-    f = np.array([float(row["notch_hz"]) for row in rows])
+    f = np.array([float(row[x]) for row in rows])
     figure, (levels, cost) = _figure(2)
     levels.plot(f, [row["sibilance_reduction_db"] for row in rows], "o-", color=_ANALOG,
                 label="sibilance-band cut (dB, positive = quieter)")
@@ -342,19 +335,26 @@ def plot_sweep(rows, path) -> Path:
     for row in rows:
         if row.get("pick"):
             for ax in (levels, cost):
-                ax.axvline(float(row["notch_hz"]), color=_MARK, linewidth=1.2, linestyle=":")
-            levels.annotate(f"pick: {float(row['notch_hz']):.0f} Hz", (float(row["notch_hz"]),
+                ax.axvline(float(row[x]), color=_MARK, linewidth=1.2, linestyle=":")
+            levels.annotate(f"pick: {_SWEEP_AXES[x][1].format(float(row[x]))}", (float(row[x]),
                             row["sibilance_reduction_db"]), textcoords="offset points", xytext=(8, 8),
                             color=_MARK)
     levels.set_ylabel("dB")
-    levels.set_title("notch sweep: what each setting does to the take")
+    levels.set_title(f"{_SWEEP_AXES[x][0]} sweep: what each setting does to the take")
     levels.legend(loc="best")
     cost.set_ylabel("intelligibility cost (SII-weighted)")
     cost.legend(loc="best")
-    span = (f.min() / 1.1, f.max() * 1.1)
-    _frequency_axis(cost, span)
-    cost.set_xlabel("notch frequency (Hz)")
+    if x == "notch_hz":
+        _frequency_axis(cost, (f.min() / 1.1, f.max() * 1.1))
+    elif x == "q":
+        cost.set_xscale("log")
+    cost.set_xlabel(_SWEEP_AXES[x][2])
     return _save(figure, path)
+
+
+_SWEEP_AXES = {"notch_hz": ("notch", "{:.0f} Hz", "notch frequency (Hz)"),
+               "mix": ("mix", "mix {:.2f}", "mix (wet share, 0..1)"),
+               "q": ("Q", "Q {:g}", "Q")}
 
 
 def plot_measured(f_hz, measured_db, model_db, fitted_db, path, *, title: str = "measured and model") -> Path:

@@ -39,11 +39,12 @@ from emulate.analog.stability import margin_warning
 from emulate.analog.design import HUM_MIN_CUT_DB, divider_for
 from emulate.analog.makeup import Makeup, buyable, coarsest_series
 from emulate.analog.networks import TwinT, part_kind
-from emulate.analog.response import EXACT_NULL_DB, is_exact_null, measure
+from emulate.analog.response import measure
 from emulate.analog.tolerance import TOL_PARTS, divider_k
 from emulate.errors import BadValueError
 from emulate import files
 from emulate.files import atomic_path
+from emulate.report.summary import cut_text, db_text
 from emulate.report.netlist import MIXER_FEEDBACK_OHMS, SUPPLY_VOLTS, Element, netlist_text, whole_circuit
 
 __all__ = ["write_sheet", "compose", "parts_rows", "trim_rows", "divider_of", "assumed_rows", "depth_control_text", "part_type",
@@ -230,25 +231,19 @@ def _divider_text(network: TwinT, design, tolerances) -> list[str]:
 def _figures_rows(network: TwinT, design) -> list[list[str]]:
     """Depth figures that say what they are: the network alone at full notch, and at the chosen mix."""
     wet = measure(network.wet().response)
-    rows = [["network alone, full notch", f"{wet.notch_hz:.2f} Hz", _depth_words(wet),
+    rows = [["network alone, full notch", f"{wet.notch_hz:.2f} Hz", cut_text(wet.depth_below_passband_db),
              "no -3 dB band" if math.isnan(wet.q) else f"{wet.q:.3f}",
-             f"{_signed(wet.passband_low_db)} / {_signed(wet.passband_high_db)} dB"]]
+             f"{db_text(wet.passband_low_db)} / {db_text(wet.passband_high_db)} dB"]]
     if network.mix < 1.0 or network.depth_pot_ohms is not None:
         at_mix = measure(network.response)
         how = f"pot at {network.mix:.2f}" if network.depth_pot_ohms is not None else f"mix {network.mix:.2f}"
         rows.append([f"whole circuit, {how}", f"{at_mix.notch_hz:.2f} Hz",
                      f"{at_mix.depth_below_passband_db:.1f} dB of cut at the notch", "-",
-                     f"{_signed(at_mix.passband_low_db)} / {_signed(at_mix.passband_high_db)} dB"])
+                     f"{db_text(at_mix.passband_low_db)} / {db_text(at_mix.passband_high_db)} dB"])
     if design is not None:
         rows.append([f"at the target {design.target_hz:.2f} Hz", f"{100 * design.notch_error:+.3f} % off",
                      f"{design.target_cut_db:.1f} dB of cut at the target (full notch)", "-", "-"])
     return rows
-
-
-def _depth_words(metrics) -> str:
-    if is_exact_null(metrics.depth_below_passband_db):
-        return f"exact null (more than {EXACT_NULL_DB:.0f} dB of cut)"
-    return f"{metrics.depth_below_passband_db:.1f} dB of cut below the passband"
 
 
 def depth_control_text(network: TwinT) -> list[str]:
@@ -338,8 +333,6 @@ def _hum_blocks(design) -> list[Block]:
                               f"{HUM_MIN_CUT_DB:g} dB). Nearest fix:", *design.fix.lines()))]
 
 
-def _signed(value_db: float) -> str:
-    return f"{value_db:.2f}".replace("-0.00", "0.00")
 
 
 def _tolerance_blocks(result) -> list[Block]:

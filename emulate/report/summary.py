@@ -15,6 +15,14 @@ from emulate.analog.networks import part_kind
 from emulate.analog.parts import format_value
 from emulate.analog.response import EXACT_NULL_DB, db, is_exact_null
 
+__all__ = ["TABLE_HZ", "IDEAL_NULL_DB", "finite_or_null", "json_text", "network_line", "SEARCH_TEXT",
+           "db_text", "cut_text", "depth_text", "metrics_lines", "warning_lines", "table_lines",
+           "response_text", "metrics_payload", "table_rows", "design_payload", "design_text",
+           "unmeasured_lines", "corner_line", "render_text", "shortfall_lines", "fidelity_payload",
+           "digital_payload", "digital_text", "sibilance_payload", "suggestion_line", "sibilance_text",
+           "hum_payload", "hum_text", "resonance_payload", "resonance_text", "sweep_text", "preset_payload",
+           "preset_list_text", "preset_text", "LISTENING_CAUTION", "demo_payload", "demo_text"]
+
 # ISO 266 preferred octave-band centres, plus the audio band's ends
 TABLE_HZ = (20.0, 31.5, 63.0, 125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.0, 8000.0, 16000.0, 20000.0)
 IDEAL_NULL_DB = -EXACT_NULL_DB  # table floor: deeper is an exact null
@@ -82,30 +90,49 @@ def network_line(network) -> str:
 SEARCH_TEXT = "1 Hz - 200 kHz"  # the band response.measure searches by default
 
 
+def db_text(value_db: float) -> str:
+    """A level or gain in dB with two decimals, never a negative zero (the one dB formatter).
+
+    Example
+    -------
+    >>> db_text(-0.001), db_text(-3.0103)
+    ('0.00', '-3.01')
+    """
+    return f"{value_db:.2f}".replace("-0.00", "0.00")
+
+
+def cut_text(depth_below_passband_db: float) -> str:
+    """How deep a notch cuts, in words: dB of cut below the passband, or an exact null.
+
+    Example
+    -------
+    >>> cut_text(42.04), cut_text(300.0)
+    ('42.0 dB of cut below the passband', 'exact null (more than 200 dB of cut)')
+    """
+    if is_exact_null(depth_below_passband_db):
+        return f"exact null (more than {EXACT_NULL_DB:.0f} dB of cut)"
+    return f"{depth_below_passband_db:.1f} dB of cut below the passband"
+
+
 def depth_text(metrics) -> str:
     if is_exact_null(metrics.depth_below_passband_db):
-        return f"more than {EXACT_NULL_DB:.0f} dB below the passband (an exact null)"
-    return f"{metrics.depth_db:.1f} dB ({metrics.depth_below_passband_db:.1f} dB below the passband)"
+        return cut_text(metrics.depth_below_passband_db)
+    return f"{metrics.depth_db:.1f} dB ({cut_text(metrics.depth_below_passband_db)})"
 
 
 def metrics_lines(metrics) -> list[str]:
     if not metrics.in_range:
         return [f"  notch      no notch in range {SEARCH_TEXT} (the response is lowest at the edge, "
                 f"{metrics.notch_hz:.4g} Hz, {metrics.depth_db:.1f} dB)",
-                f"  passband   {_signed(metrics.passband_low_db)} dB low, {_signed(metrics.passband_high_db)} dB high"]
+                f"  passband   {db_text(metrics.passband_low_db)} dB low, {db_text(metrics.passband_high_db)} dB high"]
     width = ("not 3 dB deep: no -3 dB band" if math.isnan(metrics.q) else
              f"-3 dB from {metrics.lower_hz:.1f} Hz to {metrics.upper_hz:.1f} Hz, Q {metrics.q:.3f}")
     return [
         f"  notch      {metrics.notch_hz:.2f} Hz",
         f"  depth      {depth_text(metrics)}",
         f"  width      {width}",
-        f"  passband   {_signed(metrics.passband_low_db)} dB low, {_signed(metrics.passband_high_db)} dB high",
+        f"  passband   {db_text(metrics.passband_low_db)} dB low, {db_text(metrics.passband_high_db)} dB high",
     ]
-
-
-def _signed(value_db: float) -> str:
-    """Two decimals without a negative zero."""
-    return f"{value_db:.2f}".replace("-0.00", "0.00")
 
 
 def warning_lines(found) -> list[str]:
@@ -394,7 +421,7 @@ def resonance_text(take, report, designed) -> str:
     return "\n".join(lines + _notch_lines(designed))
 
 
-def sweep_text(result, csv_path, json_path) -> str:
+def sweep_text(result, csv_path, json_path, page_path=None) -> str:
     """The sweep table; cuts are positive dB (quieter), the loudness change a signed gain."""
     rows = ["  setting                      asked      as built   sibilance cut  loudness  relative cut  speech cost"]
     for row in result.rows:
@@ -403,12 +430,17 @@ def sweep_text(result, csv_path, json_path) -> str:
                     f"({row.get('notch_error_percent', 0.0):+.2f} %) {row['sibilance_reduction_db']:>6.1f} dB"
                     f" {row['loudness_change_db']:>+6.1f} dB {row['relative_reduction_db']:>8.1f} dB"
                     f" {row['intelligibility_cost']:>9.1%}{mark}")
-    reels = [f"  {reel}" for reel in result.reels.values()]
-    return "\n".join([f"swept {len(result.plan.notches_hz)} settings x {len(result.reels)} takes "
-                      f"({len(result.jobs)} renders)", *rows,
+    reels = [f"  {reel.path} (cues: {reel.cues_path})" + (f"; {reel.note()}" if reel.note() else "")
+             for reel in result.reels.values()]
+    removed = [f"what {result.pick['setting']} removes (dry minus wet):", *(f"  {p}" for p in result.removed.values())]
+    return "\n".join([f"swept {len(result.plan.settings)} settings x {len(result.reels)} takes "
+                      f"({len(result.jobs)} renders), stepping the {result.plan.axis_words}", *rows,
                       f"pick: {result.pick['setting']}: {result.pick['reason']}",
-                      "listening reels (dry first, then each setting in order):", *reels,
-                      f"summary: {csv_path}, {json_path}"])
+                      "listening reels (dry first, then each setting in order"
+                      + (", loudness-matched):" if all(r.matched for r in result.reels.values()) else ", raw levels):"),
+                      *reels, *(removed if result.removed else []),
+                      f"summary: {csv_path}, {json_path}",
+                      *([f"listening page: {page_path}"] if page_path else [])])
 
 
 def preset_payload(preset) -> dict:

@@ -26,8 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.validate import check_range
-from emulate.validate import check_count
+from emulate.validate import check_count, check_range, check_sample_rate_hz
 
 __all__ = [
     "TakeSchedule",
@@ -97,16 +96,7 @@ class TakeSchedule:
 
 def _check_fs(fs: float) -> float:
     """Validate a sample rate in Hz; the allowed range is [8000, 384000]."""
-    check_range("sample rate (Hz)", fs, MIN_FS_HZ, MAX_FS_HZ)
-    return float(fs)
-
-
-def _check_range(value: float, name: str, *, low: float = 0.0, high: float = np.inf) -> float:
-    """Validate a finite ``low < value <= high`` (the one range check of this module)."""
-    value = float(value)
-    if not (np.isfinite(value) and low < value <= high):
-        raise BadValueError(f"{name} = {value!r} is out of range; allowed > {low:g} and <= {high:g}")
-    return value
+    return check_sample_rate_hz(fs, MIN_FS_HZ, MAX_FS_HZ)
 
 
 def _check_band(band_hz: tuple[float, float], fs: float, name: str) -> tuple[float, float]:
@@ -153,7 +143,7 @@ def take_schedule(seconds: float, *, seed: int = 0) -> TakeSchedule:
     >>> s.bursts_s[0][0]
     0.1
     """
-    seconds = _check_range(seconds, "seconds", high=3600.0)
+    seconds = check_range("seconds", seconds, 0.0, 3600.0, low_open=True)
     rng = np.random.default_rng([seed, 1])
     syllables, bursts = [], []
     t, next_pause = 0.1, rng.uniform(2.0, 3.0)
@@ -343,16 +333,16 @@ def voice_like_take(
     (48000, 1)
     """
     fs = _check_fs(fs)
-    n = round(_check_range(seconds, "seconds", high=3600.0) * fs)
-    pitch_hz = _check_range(pitch_hz, "pitch_hz", low=40.0, high=500.0)
+    n = round(check_range("seconds", seconds, 0.0, 3600.0, low_open=True) * fs)
+    pitch_hz = check_range("pitch_hz", pitch_hz, 40.0, 500.0, low_open=True)
     channels = check_count("channels", channels, 1, MAX_CHANNELS)
-    level_dbfs = _check_range(level_dbfs, "level_dbfs", low=-120.0, high=0.0)
+    level_dbfs = check_range("level_dbfs", level_dbfs, -120.0, 0.0, low_open=True)
     rng = np.random.default_rng([seed, 2])
     schedule = take_schedule(seconds, seed=seed)
     voiced = _voiced(fs, _pitch_track(fs, n, pitch_hz, rng, schedule.syllables_s), schedule.syllables_s, rng)
     mix = voiced
     if sibilance_hz is not None and schedule.bursts_s:
-        centre = _check_range(sibilance_hz, "sibilance_hz", high=0.45 * fs)
+        centre = check_range("sibilance_hz", sibilance_hz, 0.0, 0.45 * fs, low_open=True)
         width = 0.5 * centre if sibilance_width_hz is None else float(sibilance_width_hz)
         band = _check_band((centre - width / 2.0, centre + width / 2.0), fs, "sibilant band")
         levels_db = rng.uniform(*_BURST_DB_RANGE, size=len(schedule.bursts_s))
@@ -417,13 +407,13 @@ def bursts_over_tone(
     (16000, 1)
     """
     fs = _check_fs(fs)
-    n = round(_check_range(seconds, "seconds", high=3600.0) * fs)
+    n = round(check_range("seconds", seconds, 0.0, 3600.0, low_open=True) * fs)
     band = _check_band(band_hz, fs, "band_hz")
-    period_s = _check_range(period_s, "period_s", high=seconds)
-    burst_s = _check_range(burst_s, "burst_s", high=period_s)
-    burst_db = _check_range(burst_db, "burst_db", low=-60.0, high=40.0)
+    period_s = check_range("period_s", period_s, 0.0, seconds, low_open=True)
+    burst_s = check_range("burst_s", burst_s, 0.0, period_s, low_open=True)
+    burst_db = check_range("burst_db", burst_db, -60.0, 40.0, low_open=True)
     rng = np.random.default_rng([seed, 3])
-    pitch = np.full(n, _check_range(pitch_hz, "pitch_hz", low=40.0, high=500.0))
+    pitch = np.full(n, check_range("pitch_hz", pitch_hz, 40.0, 500.0, low_open=True))
     tone = _voiced(fs, pitch, ((0.0, n / fs),), rng)
     starts = np.arange(0.1, seconds - burst_s, period_s)
     gate = _gate(n, fs, [(s, s + burst_s) for s in starts])

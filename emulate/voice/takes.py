@@ -19,7 +19,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.validate import check_range
+from emulate.validate import check_band_hz as check_band
+from emulate.validate import check_sample_rate_hz, check_seconds
 
 __all__ = [
     "MAX_FS_HZ",
@@ -53,8 +54,7 @@ def check_fs(fs: float) -> float:
     >>> check_fs(48000)
     48000.0
     """
-    check_range("sample rate (Hz)", fs, MIN_FS_HZ, MAX_FS_HZ)
-    return float(fs)
+    return check_sample_rate_hz(fs, MIN_FS_HZ, MAX_FS_HZ)
 
 
 def as_take(x, name: str = "take") -> np.ndarray:
@@ -89,52 +89,6 @@ def as_take(x, name: str = "take") -> np.ndarray:
             f"{name} holds {np.count_nonzero(~np.isfinite(arr))} NaN/inf samples; all must be finite"
         )
     return arr
-
-
-def check_band(band_hz, fs: float, name: str = "band_hz") -> tuple[float, float]:
-    """Validate a band ``(lo, hi)`` in Hz with ``0 < lo < hi``; clip ``hi`` to Nyquist.
-
-    After clipping, ``lo`` must still lie below Nyquist (``fs / 2``).
-
-    Raises
-    ------
-    BadValueError
-        Not a pair of numbers, or out of order, or ``lo`` at or above Nyquist.
-
-    Example
-    -------
-    >>> check_band((2000, 30000), 48000)
-    (2000.0, 24000.0)
-    """
-    try:
-        lo, hi = (float(v) for v in band_hz)
-    except (TypeError, ValueError):
-        raise BadValueError(f"{name} = {band_hz!r} is not a (lo, hi) pair of frequencies in Hz") from None
-    nyquist = fs / 2.0
-    if not (0.0 < lo < hi and lo < nyquist):
-        raise BadValueError(
-            f"{name} = ({lo:g}, {hi:g}) Hz is not allowed; need 0 < lo < hi and lo < {nyquist:g} Hz (Nyquist)"
-        )
-    return lo, min(hi, nyquist)
-
-
-def check_seconds(seconds: float, name: str) -> float:
-    """Validate a positive finite duration in seconds.
-
-    Raises
-    ------
-    BadValueError
-        Not finite or not above 0.
-
-    Example
-    -------
-    >>> check_seconds(2, "seconds")
-    2.0
-    """
-    seconds = float(seconds)
-    if not (np.isfinite(seconds) and seconds > 0.0):
-        raise BadValueError(f"{name} = {seconds!r} s is not allowed; need a finite duration > 0 s")
-    return seconds
 
 
 def dbfs(mean_square):

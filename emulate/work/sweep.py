@@ -4,9 +4,10 @@ The pipeline, top to bottom:
 
 1. settings: one notch frequency per step (geometric steps from ``from_hz`` to
    ``to_hz``, or an explicit list), the rest held (series, impedance, Q, mix,
-   source, load); each is designed and snapped to preferred values
-   (:func:`emulate.analog.design.design_twin_t`), so the as-built notch is what these
-   parts give, not the target;
+   source, load); or, at one held notch, one mix (depth) or one Q per step
+   (:func:`mix_steps`, :func:`q_steps`). Each is designed and snapped to preferred
+   values (:func:`emulate.analog.design.design_twin_t`), so the as-built notch is what
+   these parts give, not the target;
 2. jobs: take x setting, rendered in parallel over the machine's cores
    (processes: each job designs its processor, streams the take through it into
    the output folder, and measures dry against wet);
@@ -14,8 +15,11 @@ The pipeline, top to bottom:
    that take), loudness change (ITU-R BS.1770 via pyloudnorm) and intelligibility
    cost (ANSI S3.5-1997 band importance; :func:`emulate.voice.bands.intelligibility_cost`);
 4. reels: per take, the most sibilant few seconds dry, then at each setting in
-   order, separated by short silences;
-5. summary: per setting the means over takes, and a pick with its reason.
+   order, separated by short silences, loudness-matched to the dry excerpt unless
+   asked not to (:mod:`emulate.work.reels`);
+5. summary: per setting the means over takes, and a pick with its reason;
+6. on request, per take, what the picked notch removes (dry minus wet, time-aligned;
+   :mod:`emulate.dsp.removed`).
 
 The pick maximises the *relative* reduction: how much further the sibilance band
 falls than the programme as a whole (sibilance-band reduction plus loudness
@@ -31,6 +35,7 @@ import dataclasses
 import json
 import math
 import os
+import shutil
 from concurrent.futures import Future
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -41,16 +46,38 @@ from emulate import files, lifetime
 from emulate.audio import stream as audio
 from emulate.dsp import emulation
 from emulate.voice import compare, sibilance
+from emulate.work import reels
+from emulate.dsp.removed import RemovedPart
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.response import measure
 from emulate.report.summary import json_text, rows_as_csv
 from emulate.validate import check_count, check_range
 
+__all__ = ["TIE_DB", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
+           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
+           "MEASURES", "summarise", "pick_setting", "rows_as_csv", "read_pick", "check_out",
+           "sweep_into", "write_summary"]
+
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
-REEL_GAP_S = 0.6
-REEL_EXCERPT_S = 3.0
 MAX_STEPS = 64
+PASSIVE_Q = 0.25  # the passive balanced twin-T (Analog Devices MT-225)
+Q_STEPS_TOP = 2.0  # the highest Q of a Q sweep when none is given (a judgement call)
+
+
+@dataclass(frozen=True)
+class Setting:
+    """One setting of a sweep: the notch asked for (Hz), its Q (None: passive) and the mix (0..1)."""
+
+    notch_hz: float
+    q: float | None
+    mix: float
+
+    @property
+    def label(self) -> str:
+        """A file-name-safe label that says the setting, e.g. ``notch4520Hz-q0.25-mix1.00``."""
+        q = PASSIVE_Q if self.q is None else self.q
+        return f"notch{self.notch_hz:.0f}Hz-q{q:g}-mix{self.mix:.2f}"
 MAX_WORKERS = 256
 
 
@@ -66,30 +93,102 @@ class SweepPlan:
     mix: float = 1.0
     source_ohms: float = 0.0
     load_ohms: float = math.inf
+    mixes: tuple[float, ...] = ()  # step the mix at the one notch instead (``mix`` is then unused)
+    qs: tuple[float, ...] = ()  # step the Q at the one notch instead (``q`` is then unused)
 
     def __post_init__(self):
-        labels = [setting_label(f, self) for f in self.notches_hz]
+        if self.mixes and self.qs:
+            raise BadValueError("a sweep steps one thing: the notch, the mix or the Q; not both mix and Q")
+        if (self.mixes or self.qs) and len(self.notches_hz) != 1:
+            raise BadValueError(f"a mix or Q sweep holds one notch; got {len(self.notches_hz)} notch "
+                                "frequencies (give one with --at)")
+        labels = [s.label for s in self.settings]
         if not labels or len(set(labels)) != len(labels):
-            raise BadValueError(f"sweep settings {[round(f) for f in self.notches_hz]} Hz: give one or more "
-                                "notch frequencies, no two within 0.5 Hz (each names its renders)")
+            raise BadValueError(f"sweep settings {labels}: give one or more settings, no two within 0.5 Hz "
+                                "(notch), 0.005 (mix) or alike to 3 digits (Q); each names its renders")
+
+    @property
+    def axis(self) -> str:
+        """What the sweep steps: ``notch``, ``mix`` or ``q``."""
+        return "mix" if self.mixes else "q" if self.qs else "notch"
+
+    @property
+    def axis_words(self) -> str:
+        """What the sweep steps, for people: ``notch frequency``, ``mix`` or ``Q``."""
+        return {"notch": "notch frequency", "mix": "mix", "q": "Q"}[self.axis]
+
+    @property
+    def settings(self) -> tuple[Setting, ...]:
+        """Every setting, in the order given."""
+        if self.mixes:
+            return tuple(Setting(self.notches_hz[0], self.q, m) for m in self.mixes)
+        if self.qs:
+            return tuple(Setting(self.notches_hz[0], q, self.mix) for q in self.qs)
+        return tuple(Setting(f, self.q, self.mix) for f in self.notches_hz)
+
+    @property
+    def heard(self) -> tuple[Setting, ...]:
+        """The settings in the order a reel plays them: rising along the swept axis."""
+        return tuple(sorted(self.settings, key=lambda s: (s.notch_hz, _q_value(s.q), s.mix)))
 
     @classmethod
     def from_dict(cls, table: dict) -> "SweepPlan":
         """The plan :meth:`SweepResult.as_dict` wrote (``None`` load: no load)."""
-        table = dict(table) | {"notches_hz": tuple(table["notches_hz"])}
+        table = dict(table)
+        for key in ("notches_hz", "mixes", "qs"):
+            table[key] = tuple(table.get(key) or ())
         if table.get("load_ohms") is None:
             table["load_ohms"] = math.inf
         return cls(**table)
 
-    def design(self, notch_hz: float):
-        """The design (ideal and as built) for one setting."""
-        return design_twin_t(notch_hz, q=self.q, series=self.series, cap_series=self.cap_series,
+    def design(self, setting: "Setting | float"):
+        """The design (ideal and as built) for one setting (or a notch frequency at the held Q)."""
+        setting = self._setting(setting)
+        return design_twin_t(setting.notch_hz, q=setting.q, series=self.series, cap_series=self.cap_series,
                              impedance_ohms=self.impedance_ohms, source_ohms=self.source_ohms,
                              load_ohms=self.load_ohms)
 
-    def network(self, notch_hz: float):
-        """The as-built network for one setting, at the plan's mix."""
-        return self.design(notch_hz).built.replace(mix=self.mix)
+    def network(self, setting: "Setting | float"):
+        """The as-built network for one setting (or a notch frequency at the held Q and mix)."""
+        setting = self._setting(setting)
+        return self.design(setting).built.replace(mix=setting.mix)
+
+    def _setting(self, setting) -> Setting:
+        return setting if isinstance(setting, Setting) else Setting(float(setting), self.q, self.mix)
+
+
+def _q_value(q: float | None) -> float:
+    return PASSIVE_Q if q is None else q
+
+
+def mix_steps(steps: int, top: float = 1.0) -> tuple[float, ...]:
+    """``steps`` mixes in equal steps up to ``top`` (``top/steps`` .. ``top``), rounded to 0.01.
+
+    The depth of each follows from the mix (:func:`emulate.dsp.depth.mix_to_depth_db`).
+
+    Example
+    -------
+    >>> mix_steps(4)
+    (0.25, 0.5, 0.75, 1.0)
+    """
+    check_count("mix steps", steps, 1, MAX_STEPS)
+    check_range("mix", top, 0.0, 1.0)
+    return tuple(round(top * i / steps, 2) for i in range(1, int(steps) + 1))
+
+
+def q_steps(steps: int, top: float = Q_STEPS_TOP) -> tuple[float, ...]:
+    """``steps`` values of Q in equal ratios from the passive 0.25 to ``top``, to 3 significant digits.
+
+    Example
+    -------
+    >>> q_steps(3, 1.0)
+    (0.25, 0.5, 1.0)
+    """
+    check_count("Q steps", steps, 1, MAX_STEPS)
+    check_range("Q (top of the Q steps)", top, PASSIVE_Q, 20.0)
+    if steps == 1:
+        return (float(top),)
+    return tuple(float(f"{q:.3g}") for q in np.geomspace(PASSIVE_Q, top, int(steps)))
 
 
 def held_by(network) -> dict:
@@ -124,6 +223,9 @@ def notch_steps(from_hz: float, to_hz: float, steps: int) -> tuple[float, ...]:
 @dataclass(frozen=True)
 class JobResult:
     take: str
+    setting: str
+    q: float
+    mix: float
     notch_target_hz: float
     notch_hz: float
     path: str
@@ -138,12 +240,14 @@ class SweepResult:
     jobs: list[JobResult]
     rows: list[dict]
     pick: dict
-    reels: dict[str, str] = field(default_factory=dict)
+    reels: dict[str, reels.Reel] = field(default_factory=dict)
+    removed: dict[str, str] = field(default_factory=dict)  # take -> what the picked notch removes
 
     def as_dict(self) -> dict:
         """Plain JSON-ready data; non-finite numbers (no load, a silenced band) become None."""
-        return _finite({"plan": asdict(self.plan), "rows": self.rows, "pick": self.pick,
-                        "reels": self.reels, "jobs": [asdict(job) for job in self.jobs]})
+        return _finite({"plan": asdict(self.plan), "axis": self.plan.axis, "rows": self.rows,
+                        "pick": self.pick, "reels": {t: r.as_dict() for t, r in self.reels.items()},
+                        "removed": self.removed, "jobs": [asdict(job) for job in self.jobs]})
 
 
 def _finite(value):
@@ -155,46 +259,73 @@ def _finite(value):
 
 
 def setting_label(notch_hz: float, plan: SweepPlan) -> str:
-    """A file-name-safe label that says the setting, e.g. ``notch4520Hz-q0.25-mix1.00``."""
-    q = 0.25 if plan.q is None else plan.q
-    return f"notch{notch_hz:.0f}Hz-q{q:g}-mix{plan.mix:.2f}"
+    """The label of the setting at ``notch_hz`` with the plan's held Q and mix (:attr:`Setting.label`)."""
+    return Setting(notch_hz, plan.q, plan.mix).label
 
 
-def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, progress=None) -> SweepResult:
+def render_path(out_dir, take, label: str) -> Path:
+    """Where a sweep writes ``take`` at the setting ``label``."""
+    return Path(out_dir) / f"{Path(take).stem}--{label}.wav"
+
+
+def removed_path(out_dir, take, label: str) -> Path:
+    """Where a sweep writes what the setting ``label`` removes from ``take``."""
+    return Path(out_dir) / f"removed--{Path(take).stem}--{label}.wav"
+
+
+def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, progress=None,
+              match: bool = True, removed: bool = False) -> SweepResult:
     """Render every take at every setting into ``out_dir``; reels and summary beside them.
 
     ``progress(n)`` is called with the frames finished, across the whole job
     (takes x settings). ``workers`` defaults to the machine's cores; designs,
     sibilance bands and renders run on the same pool; the reels are put together
-    here from the excerpts the renders return.
+    here from the excerpts the renders return, loudness-matched unless ``match`` is
+    False. With ``removed``, each take is rendered once more at the picked setting as
+    dry minus wet (:class:`emulate.dsp.removed.RemovedPart`).
     """
     takes = [Path(t) for t in takes]
     frames = _check_takes(takes)
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
-    with _executor(workers, len(takes) * len(plan.notches_hz)) as pool:
+    settings = plan.settings
+    with _executor(workers, len(takes) * len(settings)) as pool:
         # designs and dry takes in one wave, so neither waits for the other
-        network_futures = [pool.submit(plan.network, target) for target in plan.notches_hz]
+        network_futures = [pool.submit(plan.network, setting) for setting in settings]
         dry_futures = [pool.submit(_dry_take, t) for t in takes]
-        networks = [f.result() for f in network_futures]
+        networks = {s.label: f.result() for s, f in zip(settings, network_futures)}
         dries = {t: f.result() for t, f in zip(takes, dry_futures)}
-        jobs = [(t, target, net, dries[t].levels, dries[t].excerpt,
-                 out_dir / f"{t.stem}--{setting_label(target, plan)}.wav")
-                for t in takes for target, net in zip(plan.notches_hz, networks)]
+        jobs = [(t, s, networks[s.label], dries[t].levels, dries[t].excerpt, render_path(out_dir, t, s.label))
+                for t in takes for s in settings]
         futures = [pool.submit(_render_job, *job) for job in jobs]
         results, excerpts = [], {}
         for future, job in zip(futures, jobs):
-            result, excerpts[job[0], job[1]] = future.result()
+            result, excerpts[job[0], job[1].label] = future.result()
             results.append(result)
             if progress is not None:
                 progress(frames[job[0]])
-    # reels from the excerpts the jobs returned: no render is read again
-    reels = {str(t): str(write_reel(out_dir / f"reel--{t.stem}.wav", dries[t].excerpt_audio,
-                                    [excerpts[t, f] for f in sorted(plan.notches_hz)], dries[t].fs,
-                                    dries[t].subtype))
-             for t in takes}
-    rows = summarise(results, plan)
-    return SweepResult(plan, results, rows, pick_setting(rows), reels)
+        rows = summarise(results, plan)
+        pick = pick_setting(rows)
+        chosen = networks[pick["setting"]]
+        removing = {str(t): pool.submit(_render_removed, t, chosen, removed_path(out_dir, t, pick["setting"]))
+                    for t in (takes if removed else [])}
+        # reels from the excerpts the jobs returned (no render is read again), while the pool removes
+        made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
+                for t in takes}
+        removed_paths = {take: str(future.result()) for take, future in removing.items()}
+    return SweepResult(plan, results, rows, pick, made, removed_paths)
+
+
+def _reel(out_dir: Path, take: Path, dry: "_DryTake", wets, plan: SweepPlan, match: bool) -> reels.Reel:
+    segments = [reels.Segment("dry", dry.excerpt_audio)]
+    segments += [reels.Segment(s.label, wet) for s, wet in zip(plan.heard, wets)]
+    return reels.write_reel(out_dir / f"reel--{take.stem}.wav", segments, dry.fs, dry.subtype, match=match)
+
+
+def _render_removed(take: Path, network, out_path: Path) -> Path:
+    """What ``network`` removes from ``take`` (runs in a worker process), written to ``out_path``."""
+    audio.render_file(take, out_path, RemovedPart(emulation.processor_for(network)))
+    return out_path
 
 
 class _Inline:
@@ -262,7 +393,7 @@ class _DryTake:
 def _dry_take(take: Path) -> _DryTake:
     x, fs = audio.read_all(take)
     report = sibilance.find_sibilance(x, fs)
-    start, stop = sibilance.most_sibilant_excerpt(x, fs, seconds=min(REEL_EXCERPT_S, len(x) / fs))
+    start, stop = sibilance.most_sibilant_excerpt(x, fs, seconds=min(reels.REEL_EXCERPT_S, len(x) / fs))
     band_hz = report.band_hz if report.usable else report.search_band_hz
     levels = compare.take_levels(x, fs, band_hz)
     _check_measurable(take, levels)
@@ -278,14 +409,15 @@ def _check_measurable(take: Path, levels) -> None:
                             "(nothing was rendered)") from None
 
 
-def _render_job(take: Path, target_hz: float, network, dry_levels, excerpt, out_path: Path):
+def _render_job(take: Path, setting: Setting, network, dry_levels, excerpt, out_path: Path):
     """One take at one setting (runs in a worker process): its result and its reel excerpt."""
     processor = emulation.processor_for(network)
     audio.render_file(take, out_path, processor)
     wet, fs = audio.read_all(out_path)
     measures = compare.compare_levels(dry_levels, compare.take_levels(wet, fs, dry_levels.band_hz))
-    result = JobResult(take=str(take), notch_target_hz=target_hz,
-                       notch_hz=measure(network.response).notch_hz, path=str(out_path), **measures)
+    result = JobResult(take=str(take), setting=setting.label, q=_q_value(setting.q), mix=setting.mix,
+                       notch_target_hz=setting.notch_hz, notch_hz=measure(network.response).notch_hz,
+                       path=str(out_path), **measures)
     return result, wet[excerpt[0]:excerpt[1]]
 
 
@@ -296,11 +428,12 @@ def summarise(results: list[JobResult], plan: SweepPlan) -> list[dict]:
     """One row per setting: the asked and the as-built notch (designed by the same search as
     ``design``) and the means of each measure over takes."""
     rows = []
-    for target in plan.notches_hz:
-        mine = [r for r in results if r.notch_target_hz == target]
-        row = {"setting": setting_label(target, plan), "notch_target_hz": target,
+    for setting in plan.settings:
+        mine = [r for r in results if r.setting == setting.label]
+        target = setting.notch_hz
+        row = {"setting": setting.label, "notch_target_hz": target,
                "notch_hz": mine[0].notch_hz, "notch_error_percent": 100 * (mine[0].notch_hz / target - 1),
-               "q": 0.25 if plan.q is None else plan.q, "mix": plan.mix}
+               "q": _q_value(setting.q), "mix": setting.mix}
         row |= {name: float(np.mean([getattr(r, name) for r in mine])) for name in MEASURES}
         row["relative_reduction_db"] = row["sibilance_reduction_db"] + row["loudness_change_db"]
         rows.append(row)
@@ -318,49 +451,7 @@ def pick_setting(rows: list[dict]) -> dict:
            + (f" within {TIE_DB:g} dB, and at the lowest speech cost ({best['intelligibility_cost']:.1%})"
               if len(near) > 1 else f"; speech cost {best['intelligibility_cost']:.1%}"))
     return {"setting": best["setting"], "notch_hz": best["notch_hz"],
-            "notch_target_hz": best["notch_target_hz"], "reason": why}
-
-
-def write_reel(reel_path, dry, wets, fs: int, subtype: str) -> Path:
-    """Write a listening reel: the dry excerpt, then each wet excerpt in turn, ``REEL_GAP_S`` apart.
-
-    Parameters
-    ----------
-    reel_path : path-like
-        The reel file (written atomically).
-    dry : numpy.ndarray
-        The dry excerpt, ``(frames, channels)``.
-    wets : list of numpy.ndarray
-        The same excerpt at each setting, in the order they are heard.
-    fs : int
-        Sample rate, Hz.
-    subtype : str
-        Sample format of the reel (the take's).
-
-    Returns
-    -------
-    pathlib.Path
-        ``reel_path``; its length is ``len(dry) * (1 + len(wets))`` plus one gap per wet excerpt.
-
-    Raises
-    ------
-    BadValueError, AudioFileError
-        As :func:`emulate.audio.stream.write_array`.
-
-    Example
-    -------
-    >>> import tempfile, os
-    >>> p = write_reel(os.path.join(tempfile.mkdtemp(), "r.wav"), np.ones((10, 1)) / 2,
-    ...                [np.zeros((10, 1))], 48000, "PCM_24")
-    >>> audio.read_info(p).frames
-    28820
-    """
-    gap = np.zeros((int(REEL_GAP_S * fs), dry.shape[1]))
-    pieces = [dry]
-    for wet in wets:
-        pieces += [gap, wet]
-    audio.write_array(reel_path, np.concatenate(pieces), fs, subtype=subtype)
-    return Path(reel_path)
+            "notch_target_hz": best["notch_target_hz"], "q": best["q"], "mix": best["mix"], "reason": why}
 
 
 _PICK_KEYS = ("setting", "notch_target_hz", "reason")
@@ -402,14 +493,19 @@ def check_out(takes, out_dir, *, force: bool) -> Path:
 
 
 def sweep_into(takes, plan: SweepPlan, out_dir, *, force: bool = False, workers: int | None = None,
-               progress=None, finish=None) -> SweepResult:
+               progress=None, finish=None, match: bool = True, removed: bool = False,
+               page: bool = True) -> SweepResult:
     """Run a sweep and write its folder atomically: all of it appears, or nothing does.
 
     Everything is written into a hidden folder beside ``out_dir`` and renamed onto it at
     the end (an existing folder, allowed only with ``force``, is replaced then). The
-    result's paths name ``out_dir``. ``finish(result, folder)``, if given, runs last,
-    before the rename (e.g. a picture written elsewhere). On any error or interruption
-    the hidden folder is removed and the workers are ended.
+    result's paths name ``out_dir``. ``finish(result, folder)``, if given, runs before the
+    listening page and the rename (e.g. a picture written elsewhere); the pictures it
+    returns (paths, or None) are shown on the page. With ``page``, each take is copied
+    into the folder (``dry--NAME``) and ``index.html`` written
+    (:mod:`emulate.report.listening`). ``match`` and ``removed`` are as for
+    :func:`run_sweep`. On any error or interruption the hidden folder is removed and the
+    workers are ended.
 
     Raises
     ------
@@ -422,11 +518,32 @@ def sweep_into(takes, plan: SweepPlan, out_dir, *, force: bool = False, workers:
     check_workers(workers)
     with files.parents_made(out_dir), files.atomic_path(out_dir) as staging:
         staging.mkdir()
-        result = _moved(run_sweep(takes, plan, staging, workers=workers, progress=progress), staging, out_dir)
+        result = _moved(run_sweep(takes, plan, staging, workers=workers, progress=progress, match=match,
+                                  removed=removed), staging, out_dir)
         write_summary(result, staging)
-        if finish is not None:
-            finish(result, staging)
+        pictures = (finish(result, staging) if finish is not None else None) or ()
+        if page:
+            write_listening_page(result, out_dir, into=staging, pictures=pictures, match=match)
     return result
+
+
+def write_listening_page(result: SweepResult, out_dir, *, into=None, pictures=(), match: bool = True) -> Path:
+    """Copy each take into the folder (the page plays only what is inside it) and write ``index.html``.
+
+    ``out_dir`` is the folder the result's paths name; ``into`` the folder actually written
+    (a staging folder renamed to ``out_dir`` later; default ``out_dir``). Returns the page's path.
+    """
+    from emulate.report import listening  # the page: loaded only when written
+
+    out_dir = Path(out_dir)
+    staging = out_dir if into is None else Path(into)
+    dries = {}
+    for take in result.reels:
+        copy = staging / f"dry--{Path(take).name}"
+        shutil.copyfile(take, copy)  # byte for byte: the dry take as it is
+        dries[take] = str(out_dir / copy.name)
+    page = listening.page_from_sweep(result, pictures=pictures, matched=match, dries=dries)
+    return listening.write_page(page, out_dir, into=staging)
 
 
 def _moved(result: SweepResult, staging: Path, out_dir: Path) -> SweepResult:
@@ -434,7 +551,9 @@ def _moved(result: SweepResult, staging: Path, out_dir: Path) -> SweepResult:
     def final(path) -> str:
         return str(out_dir / Path(path).relative_to(staging))
     result.jobs = [dataclasses.replace(job, path=final(job.path)) for job in result.jobs]
-    result.reels = {take: final(reel) for take, reel in result.reels.items()}
+    result.reels = {take: dataclasses.replace(reel, path=final(reel.path), cues_path=final(reel.cues_path))
+                    for take, reel in result.reels.items()}
+    result.removed = {take: final(path) for take, path in result.removed.items()}
     return result
 
 

@@ -37,7 +37,7 @@ import soundfile as sf
 
 ROOT = Path(__file__).resolve().parents[2]
 PARTS = ["--r1", "10k", "--r2", "10k", "--r3", "5k", "--c1", "2n2", "--c2", "2n2", "--c3", "4n4"]
-WATCHED = ("numpy", "scipy", "numba", "matplotlib", "pyloudnorm", "emulate.work.sweep")
+WATCHED = ("numpy", "scipy", "scipy.signal", "scipy.stats", "numba", "matplotlib", "pyloudnorm", "emulate.work.sweep")
 GOALS_S = {"help": 0.2, "response": 0.5}
 PLOT_GOAL_S = 2.0
 
