@@ -508,7 +508,8 @@ def _cases() -> list[Case]:
         _c("batch truncated flac", f"batch {B} --takes {{w}}/cut.flac --out {{w}}/renders", 1, "damaged or cut short"),
         _c("regression_batch_interrupted_keeps_only_complete_renders", f"batch {B} --takes {{w}}/season "
            "--out {w}/renders --workers 1", 1, "interrupted.*kept.*resume", inject="interrupt_batch",
-           may_keep=("renders", "renders/a", "renders/a/take.wav", "renders/summary.*")),
+           may_keep=("renders", "renders/a", "renders/a/take.wav", "renders/summary.*", "renders/index.html",
+                     "renders/listening", "renders/listening/a", "renders/listening/a/take.wav--*.wav")),
         _c("batch full disk", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 1,
            "writing failed", inject="disk_full"),
         # --- the group ------------------------------------------------------------------------

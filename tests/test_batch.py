@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import shutil
 import time
 from pathlib import Path
 
@@ -264,13 +265,15 @@ class TestRunBatch:
 
     def test_a_current_render_without_summary_is_measured_not_rendered(self, season):
         first = self.run(season)
-        (season / "renders" / "summary.json").unlink()
-        (season / "renders" / "summary.csv").unlink()
+        for name in ("summary.json", "summary.csv", "index.html"):  # the summaries lost, the renders kept
+            (season / "renders" / name).unlink()
+        shutil.rmtree(season / "renders" / "listening")
         second = self.run(season)
         assert [r.status for r in second] == ["kept"] * 3
         for a, b in zip(first, second):
             assert b.sibilance_band_change_db == pytest.approx(a.sibilance_band_change_db, abs=0.05)
             assert b.clipped_samples is None  # not known from the file alone
+        assert len(list((season / "renders" / "listening").rglob("*--dry.wav"))) == 3  # the page's excerpts again
 
     def test_regression_an_interrupted_batch_keeps_only_complete_renders(self, season):
         checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
@@ -289,7 +292,8 @@ class TestRunBatch:
             batch.run_batch(checked, StopsAfterOne(1))
         out = season.resolve() / "renders"
         left = relative([p for p in out.rglob("*") if p.is_file()], out)
-        assert left == ["host-a/ep1/t1.wav", "summary.csv", "summary.json"]
+        assert left == ["host-a/ep1/t1.wav", "index.html", "listening/host-a/ep1/t1.wav--dry.wav",
+                        "listening/host-a/ep1/t1.wav--wet.wav", "summary.csv", "summary.json"]
         assert not (out / "host-b").exists()  # the folder it made, left empty, is gone
         assert len(json.loads((out / "summary.json").read_text())["takes"]) == 1
 
@@ -412,3 +416,33 @@ class TestBatchStopsOnADamagedTake:
         rows = json.loads((season / "renders" / "summary.json").read_text())["takes"]
         assert [Path(r["output"]).name for r in rows] == ["t1.wav"]
         assert not (season / "renders" / "host-a" / "t2.flac").exists()
+
+
+class TestListeningPage:
+    def test_one_section_per_take_and_every_player_plays_a_file_there(self, season):
+        import re
+        from urllib.parse import unquote
+
+        results = batch.run_batch(batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season)),
+                                  batch.LocalRunner(1))
+        out = season.resolve() / "renders"
+        page = (out / "index.html").read_text()
+        assert page.count('class="take"') == len(results) == 3
+        sources = [unquote(src) for src in re.findall(r'<audio controls preload="metadata" src="([^"]+)"', page)]
+        assert len(sources) == 6 and all((out / src).is_file() for src in sources)
+        assert "sibilance band" in page and "Host B" in page
+
+    def test_excerpts_line_up_with_the_take_and_the_render(self, season):
+        results = batch.run_batch(batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season)),
+                                  batch.LocalRunner(1))
+        out = season.resolve() / "renders"
+        for r in results:
+            dry_path, wet_path = batch.excerpt_paths(out, r.output)
+            take, render = sf.read(r.take, always_2d=True)[0], sf.read(r.output, always_2d=True)[0]
+            dry, wet = sf.read(dry_path, always_2d=True)[0], sf.read(wet_path, always_2d=True)[0]
+            first = min(len(take) - len(dry), int(len(take) * batch.EXCERPT_FROM))
+            np.testing.assert_array_equal(dry, take[first:first + len(dry)])  # 16-bit codes kept exactly in 24 bits
+            # the render is the same samples dithered to 16 bits: TPDF dither of +-1 LSB then rounding
+            # moves a sample at most 1.5 LSB (Lipshitz, Wannamaker & Vanderkooy, JAES 1992); the excerpt
+            # is the undithered 24-bit one. One sample out of line would differ far more.
+            assert np.max(np.abs(wet - render[first:first + len(wet)])) <= 1.5 * 2.0 ** -15 + 2.0 ** -23

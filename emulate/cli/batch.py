@@ -108,6 +108,6 @@ def _text(results, the_plan, totals: dict) -> str:
         lines.append(f"warning: {totals['clipped_takes']} render(s) clipped; lower the take's level or render "
                      "to a float format")
     out = Path(the_plan.out)
-    lines.append(f"wrote {out / 'summary.csv'} and {out / 'summary.json'}")
+    lines.append(f"wrote {out / 'summary.csv'}, {out / 'summary.json'} and the listening page {out / 'index.html'}")
     lines.append(f"caution: {HEARING_NOTE}")
     return "\n".join(lines)

@@ -18,7 +18,12 @@ The pipeline, top to bottom:
             (:func:`emulate.audio.stream.render_file`, written atomically) with meters on
             the dry and the wet blocks, so the summary costs no second reading;
 5. summary  ``summary.csv`` and ``summary.json`` in the output folder: per take the
-            sibilance-band change, loudness change, peak, clipped samples and time.
+            sibilance-band change, loudness change, peak, clipped samples and time;
+6. page     ``index.html`` (:mod:`emulate.report.listening`): per take a dry and a wet
+            player, level-matched, and its summary row. They play listening excerpts
+            the job writes beside the render's mirror under ``listening/`` (``EXCERPT_S``
+            seconds from a quarter of the way in, dry and wet, 24-bit WAV that browsers
+            play), so the page travels with the folder without a copy of every take.
 
 The summary's figures are measured on the whole take, block by block, in bounded
 memory (:class:`emulate.voice.compare.LevelsMeter`): the level in the sibilance band
@@ -52,7 +57,10 @@ __all__ = ["Batch", "ClusterRunner", "LocalRunner", "SUMMARY_KIND", "TakeJob", "
            "run_batch", "run_job", "sibilance_band_of", "totals", "write_summary"]
 
 SUMMARY_KIND = "emulate batch"  # summary.json's "kind": marks an output folder as a batch's
-SUMMARY_FILES = ("summary.csv", "summary.json")
+SUMMARY_FILES = ("summary.csv", "summary.json", "index.html")
+LISTENING_FOLDER = "listening"  # the page's excerpts, under the output folder
+EXCERPT_S = 20.0  # seconds of each take heard on the page (the whole take when shorter)
+EXCERPT_FROM = 0.25  # where the excerpt starts, as a share of the take
 MAX_WORKERS = 256
 BAND_HALF_OCTAVES = 1  # the sibilance band: this many half-octaves either side of the notch
 
@@ -72,6 +80,12 @@ class TakeJob:
     fs: int
     action: str = "render"  # or "measure": an earlier run's render whose figures were not kept
     replace: bool = False  # whether an existing file at out_path may be replaced
+    excerpts: tuple[str, str] | None = None  # the page's dry and wet excerpt files
+
+    def excerpt_window(self) -> tuple[int, int]:
+        """The excerpt's first frame and its length in frames."""
+        length = min(self.frames, int(EXCERPT_S * self.fs))
+        return min(self.frames - length, int(self.frames * EXCERPT_FROM)), length
 
 
 @dataclass(frozen=True)
@@ -166,16 +180,17 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
     for index, planned in enumerate(takes):
         info = audio.read_info(planned.take)
         network, preset_path = presets[planned.speaker.preset]
+        _check_not_listening(out, planned.out_path)
         job = TakeJob(index, str(planned.take), str(planned.out_path), planned.speaker.name,
                       planned.speaker.preset, network,
                       sibilance_band_of(notches[planned.speaker.preset], info.samplerate), info.frames,
-                      info.samplerate)
+                      info.samplerate, excerpts=excerpt_paths(out, planned.out_path))
         state = _output_state(planned, info.frames, preset_path)
         if redo or state == "missing":
             jobs.append(replace(job, replace=state != "missing"))
         elif state == "current":
             row = earlier.get(str(planned.out_path.resolve()))
-            if row is not None:
+            if row is not None and all(os.path.isfile(e) for e in job.excerpts):
                 kept.append(_kept_row(job, row))
             else:
                 jobs.append(replace(job, action="measure"))
@@ -187,7 +202,20 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
         raise OutputRefusedError(f"{refused[0]}: exists, is out of date and no earlier batch here wrote it "
                                  f"({len(refused)} such file(s)); pass --force to replace them, or choose "
                                  "another output folder")
-    return Batch(plan, jobs, kept, _folders_missing(out, [Path(j.out_path) for j in jobs]))
+    made = [Path(path) for j in jobs for path in (j.out_path, *j.excerpts)]
+    return Batch(plan, jobs, kept, _folders_missing(out, made))
+
+
+def excerpt_paths(out: Path, out_path: Path) -> tuple[str, str]:
+    """The page's dry and wet excerpts of a render: ``out/listening/<its mirror>--dry.wav``, ``--wet.wav``."""
+    mirror = Path(out) / LISTENING_FOLDER / Path(out_path).relative_to(out)
+    return tuple(str(mirror.with_name(f"{mirror.name}--{kind}.wav")) for kind in ("dry", "wet"))
+
+
+def _check_not_listening(out: Path, out_path: Path) -> None:
+    if Path(out_path).relative_to(out).parts[0] in (LISTENING_FOLDER, *SUMMARY_FILES):
+        raise BadValueError(f"{out_path}: a render would land where the batch keeps its own "
+                            f"{Path(out_path).relative_to(out).parts[0]}; rename that folder of takes")
 
 
 def _preset(store, name: str):
@@ -270,15 +298,49 @@ def run_job(job: TakeJob) -> TakeResult:
     started = time.perf_counter()
     info = audio.read_info(job.take)
     dry, wet = _meters(info, job.band_hz), _meters(info, job.band_hz)
+    dry_excerpt, wet_excerpt = _Excerpt(*job.excerpt_window()), _Excerpt(*job.excerpt_window())
     if job.action == "measure":
-        _measure_blocks(audio.iter_blocks(job.take), dry)
-        peak = _measure_blocks(audio.iter_blocks(job.out_path), wet)
+        _measure_blocks(audio.iter_blocks(job.take), dry, dry_excerpt)
+        peak = _measure_blocks(audio.iter_blocks(job.out_path), wet, wet_excerpt)
+        _write_excerpts(job, dry_excerpt, wet_excerpt)
         return _result(job, "kept", peak_dbfs=_dbfs(peak), **_changes(dry, wet))
-    processor = _Metered(_processor(job.network), dry, wet)
+    processor = _Metered(_processor(job.network), dry, wet, dry_excerpt, wet_excerpt)
     Path(job.out_path).parent.mkdir(parents=True, exist_ok=True)
     report = audio.render_file(job.take, job.out_path, processor, replace=job.replace)
+    _write_excerpts(job, dry_excerpt, wet_excerpt)  # if this fails, the next run measures the render again
     return _result(job, "rendered", peak_dbfs=report.peak_dbfs, clipped_samples=report.clipped_samples,
                    seconds=time.perf_counter() - started, **_changes(dry, wet))
+
+
+class _Excerpt:
+    """The frames ``[first, first + length)`` of a stream of blocks, kept as they pass."""
+
+    def __init__(self, first: int, length: int):
+        self.first, self.length, self.seen, self.pieces = first, length, 0, []
+
+    def add(self, block, offset: int = 0) -> None:
+        """Keep the part of ``block`` in the window; ``offset``: frames the stream runs ahead (latency)."""
+        start, stop = self.first + offset, self.first + offset + self.length
+        lo, hi = max(start - self.seen, 0), min(stop - self.seen, len(block))
+        if lo < hi:
+            self.pieces.append(block[lo:hi].copy())
+        self.seen += len(block)
+
+    def samples(self):
+        import numpy as np
+
+        return np.concatenate(self.pieces) if self.pieces else None
+
+
+def _write_excerpts(job: TakeJob, dry: _Excerpt, wet: _Excerpt) -> None:
+    """The page's dry and wet excerpts, 24-bit WAV (exact for 16- and 24-bit takes; browsers play it)."""
+    from emulate.audio import stream as audio
+
+    for path, excerpt in zip(job.excerpts, (dry, wet)):
+        samples = excerpt.samples()
+        if samples is not None:
+            Path(path).parent.mkdir(parents=True, exist_ok=True)
+            audio.write_array(path, samples, job.fs, subtype="PCM_24")
 
 
 def _meters(info, band_hz):
@@ -302,12 +364,13 @@ def _changes(dry, wet) -> dict:
             "loudness_change_db": measures["loudness_change_db"]}
 
 
-def _measure_blocks(blocks, meter) -> float:
-    """Feed every block to ``meter`` (if any); the largest sample magnitude."""
+def _measure_blocks(blocks, meter, excerpt: _Excerpt) -> float:
+    """Feed every block to ``meter`` (if any) and ``excerpt``; the largest sample magnitude."""
     top = 0.0
     for block in blocks:
         if meter is not None:
             meter.add(block)
+        excerpt.add(block)
         top = max(top, float(abs(block).max()))
     return top
 
@@ -340,8 +403,9 @@ class _Metered:
     too: at most a handful of samples, below what the figures show.
     """
 
-    def __init__(self, cached, dry, wet):
+    def __init__(self, cached, dry, wet, dry_excerpt=None, wet_excerpt=None):
         self._cached, self._dry, self._wet = cached, dry, wet
+        self._excerpts = (dry_excerpt, wet_excerpt)
 
     @property
     def latency_samples(self) -> int:
@@ -361,9 +425,13 @@ class _Metered:
     def process(self, block):
         if self._dry is not None:
             self._dry.add(block)
+        if self._excerpts[0] is not None:
+            self._excerpts[0].add(block)
         out = self._cached[0].process(block)
         if self._wet is not None:
             self._wet.add(out)
+        if self._excerpts[1] is not None:  # the output runs the latency behind: its excerpt is as late
+            self._excerpts[1].add(out, self.latency_samples)
         return out
 
 
@@ -509,8 +577,8 @@ def _remove_empty(folders: list[Path]) -> None:
             folder.rmdir()
 
 
-def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Path]:
-    """``summary.csv`` and ``summary.json`` in the plan's output folder, atomically."""
+def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Path, Path]:
+    """``summary.csv``, ``summary.json`` and the listening page ``index.html`` in the plan's output folder."""
     results = sorted(results, key=lambda r: r.index)
     out = Path(plan.out)
     out.mkdir(parents=True, exist_ok=True)
@@ -519,7 +587,41 @@ def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Pat
     files.write_text(csv_path, rows_as_csv(rows) if rows else "")
     files.write_text(json_path, json_text({"kind": SUMMARY_KIND, "plan": plan.as_dict(), "totals": totals(results),
                                            "takes": rows}))
-    return csv_path, json_path
+    return csv_path, json_path, write_page(out, results)
+
+
+#: The page's table: row key and heading.
+PAGE_COLUMNS = (("take", "take"), ("speaker", "speaker"), ("preset", "preset"),
+                ("sibilance_band_change_db", "sibilance band (dB)"), ("loudness_change_db", "loudness (dB)"),
+                ("peak_dbfs", "peak (dBFS)"), ("clipped_samples", "clipped samples"), ("status", "status"))
+
+
+def write_page(out: Path, results: list[TakeResult]) -> Path:
+    """``index.html``: per take its dry and wet excerpts, level-matched, with its summary row.
+
+    The players are matched by the whole take's loudness change (BS.1770), measured
+    while rendering; a take whose excerpts are missing is left off the page.
+    """
+    from emulate.report import listening  # the page: loaded only when written
+
+    heard = [r for r in results if all(os.path.isfile(e) for e in excerpt_paths(out, r.output))]
+    rows = [{"take": str(Path(r.output).relative_to(out))} | r.row() for r in heard]
+    pairs = [listening.RenderPair(row["take"], *excerpt_paths(out, r.output), r.loudness_change_db,
+                                  label=f"through {r.preset}") for r, row in zip(heard, rows)]
+    page = listening.page_from_pairs(
+        pairs, title=f"Listening: a batch of {len(results)} take(s)", columns=PAGE_COLUMNS, rows=rows,
+        notes=(f"Each player holds {EXCERPT_S:g} s of its take from a quarter of the way in (the files "
+               f"under {LISTENING_FOLDER}/); the renders themselves are beside that folder.",
+               "Listen at a moderate level."))
+    takes = tuple(replace(listing, notes=(_row_words(r),)) for listing, r in zip(page.takes, heard))
+    return listening.write_page(replace(page, takes=takes), out)
+
+
+def _row_words(r: TakeResult) -> str:
+    figure = lambda v, unit: "n/a" if v is None else f"{v:+.1f} {unit}"  # noqa: E731
+    return (f"{r.speaker}, preset {r.preset}: sibilance band {figure(r.sibilance_band_change_db, 'dB')}, "
+            f"loudness {figure(r.loudness_change_db, 'dB')}, peak {figure(r.peak_dbfs, 'dBFS')}, "
+            f"{r.clipped_samples if r.clipped_samples is not None else 'n/a'} samples clipped ({r.status})")
 
 
 def totals(results: list[TakeResult]) -> dict:
