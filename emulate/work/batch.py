@@ -591,7 +591,7 @@ def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Pat
 
 
 #: The page's table: row key and heading.
-PAGE_COLUMNS = (("take", "take"), ("speaker", "speaker"), ("preset", "preset"),
+PAGE_COLUMNS = (("render", "render"), ("speaker", "speaker"), ("preset", "preset"),
                 ("sibilance_band_change_db", "sibilance band (dB)"), ("loudness_change_db", "loudness (dB)"),
                 ("peak_dbfs", "peak (dBFS)"), ("clipped_samples", "clipped samples"), ("status", "status"))
 
@@ -605,8 +605,8 @@ def write_page(out: Path, results: list[TakeResult]) -> Path:
     from emulate.report import listening  # the page: loaded only when written
 
     heard = [r for r in results if all(os.path.isfile(e) for e in excerpt_paths(out, r.output))]
-    rows = [{"take": str(Path(r.output).relative_to(out))} | r.row() for r in heard]
-    pairs = [listening.RenderPair(row["take"], *excerpt_paths(out, r.output), r.loudness_change_db,
+    rows = [{"render": str(Path(r.output).relative_to(out))} | r.row() for r in heard]
+    pairs = [listening.RenderPair(row["render"], *excerpt_paths(out, r.output), r.loudness_change_db,
                                   label=f"through {r.preset}") for r, row in zip(heard, rows)]
     page = listening.page_from_pairs(
         pairs, title=f"Listening: a batch of {len(results)} take(s)", columns=PAGE_COLUMNS, rows=rows,
