@@ -360,6 +360,8 @@ def assert_only_complete_renders(season: Path, out: Path) -> None:
 
     assert temporaries(out.parent) == []
     for render in out.rglob("*.wav"):
+        if batch.LISTENING_FOLDER in render.relative_to(out).parts:
+            continue
         assert sf.info(render).frames == sf.info(season / "takes" / render.relative_to(out)).frames
 
 
@@ -402,7 +404,7 @@ class TestBatchInterrupted:
         again = start(batch_args(long_season, out), tmp_path)
         assert again.wait(timeout=600) == 0, again.stderr.read()
         assert_only_complete_renders(long_season, out)
-        assert len(list(out.rglob("*.wav"))) == 6
+        assert len(list(out.glob("ep*/*.wav"))) == 6
 
 
 class TestBatchStopsOnADamagedTake:
