@@ -321,6 +321,12 @@ class TestBatchCommand:
         payload = json.loads(result.output)
         assert payload["totals"]["rendered"] == 1 and payload["takes"][0]["speaker"] == "Host B"
 
+    def test_no_page(self, season):
+        result = self.invoke(season, "batch", season / "plan.toml", "--workers", "1", "--no-page")
+        assert result.exit_code == 0, result.output
+        out = season / "renders"
+        assert sorted(p.name for p in out.iterdir()) == ["host-a", "host-b", "summary.csv", "summary.json"]
+
     @pytest.mark.parametrize("args,match", [
         ([], "give a plan file"),
         (["--speaker", "A"], "missing --preset, --takes, --out"),

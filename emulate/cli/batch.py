@@ -30,10 +30,13 @@ HEARING_NOTE = "listen at a moderate level: renders can be louder in places than
               help="run on a dask.distributed scheduler (e.g. tcp://host:8786); its workers must see the "
                    "takes and the output folder at the same paths")
 @click.option("--redo", is_flag=True, help="render every take again, replacing the earlier renders")
+@click.option("--no-page", is_flag=True, help="write no listening page (index.html) and none of the excerpts it "
+                                              "plays; an earlier page is left as it was")
 @force_option("out-of-date files at render paths that no earlier batch wrote, and summary files that are "
               "not a batch's (a take is never replaced: the output folder must lie apart from the takes)")
 @json_option
-def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, workers, cluster, redo, force, as_json):
+def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, workers, cluster, redo, no_page, force,
+                  as_json):
     """Render every take with its speaker's preset, in parallel; a summary CSV and JSON.
 
     Give a plan file (TOML: out = "FOLDER", then per speaker a [[speaker]] table with
@@ -49,7 +52,8 @@ def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, worke
     if cluster and workers is not None:
         raise click.UsageError("give either --workers (this machine) or --cluster ADDRESS, not both")
     runner = batch.LocalRunner(workers)  # checks --workers
-    checked = batch.prepare_batch(the_plan, store_from({"presets_dir": presets_dir}), redo=redo, force=force)
+    checked = batch.prepare_batch(the_plan, store_from({"presets_dir": presets_dir}), redo=redo, force=force,
+                                  page=not no_page)
     if cluster:
         runner = batch.ClusterRunner(cluster)
     mark = len(files.kept_files())
@@ -68,7 +72,7 @@ def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, worke
         if cluster:
             runner.close()
     emit(as_json, {"out": str(the_plan.out), "totals": batch.totals(results), "takes": [r.row() for r in results]},
-         _text(results, the_plan, batch.totals(results)))
+         _text(results, the_plan, batch.totals(results), page=not no_page))
 
 
 def _plan(plan_path, speaker, preset, takes, out_dir):
@@ -94,7 +98,7 @@ def _interrupted(exc: KeyboardInterrupt, the_plan) -> str:
                      "those in flight were removed; run the same command again to resume")
 
 
-def _text(results, the_plan, totals: dict) -> str:
+def _text(results, the_plan, totals: dict, *, page: bool) -> str:
     lines = [f"batch: {totals['takes']} take(s) of {totals['speakers']} speaker(s), "
              f"{totals['audio_hours'] * 60:.1f} min of audio: {totals['rendered']} rendered, "
              f"{totals['kept']} kept from an earlier run"]
@@ -108,6 +112,7 @@ def _text(results, the_plan, totals: dict) -> str:
         lines.append(f"warning: {totals['clipped_takes']} render(s) clipped; lower the take's level or render "
                      "to a float format")
     out = Path(the_plan.out)
-    lines.append(f"wrote {out / 'summary.csv'}, {out / 'summary.json'} and the listening page {out / 'index.html'}")
+    page_words = f" and the listening page {out / 'index.html'}" if page else ""
+    lines.append(f"wrote {out / 'summary.csv'}, {out / 'summary.json'}{page_words}")
     lines.append(f"caution: {HEARING_NOTE}")
     return "\n".join(lines)

@@ -59,7 +59,7 @@ __all__ = ["Batch", "ClusterRunner", "LocalRunner", "SUMMARY_KIND", "TakeJob", "
 SUMMARY_KIND = "emulate batch"  # summary.json's "kind": marks an output folder as a batch's
 SUMMARY_FILES = ("summary.csv", "summary.json", "index.html")
 LISTENING_FOLDER = "listening"  # the page's excerpts, under the output folder
-EXCERPT_S = 20.0  # seconds of each take heard on the page (the whole take when shorter)
+EXCERPT_S = 10.0  # seconds of each take heard on the page (the whole take when shorter)
 EXCERPT_FROM = 0.25  # where the excerpt starts, as a share of the take
 MAX_WORKERS = 256
 BAND_HALF_OCTAVES = 1  # the sibilance band: this many half-octaves either side of the notch
@@ -121,6 +121,7 @@ class Batch:
     jobs: list[TakeJob]
     kept: list[TakeResult]
     folders_missing: list[Path]  # output folders that do not exist yet (made as needed, removed if left empty)
+    page: bool = True  # write the listening page (and the excerpts it plays)
 
     @property
     def frames(self) -> int:
@@ -148,7 +149,7 @@ def sibilance_band_of(notch_hz: float, fs: float) -> tuple[float, float]:
     return (notch_hz / half, min(notch_hz * half, fs / 2.0))
 
 
-def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = False) -> Batch:
+def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = False, page: bool = True) -> Batch:
     """Check the whole plan and decide what to run; nothing is written.
 
     Parameters
@@ -162,6 +163,8 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
     force : bool
         Also replace files at render paths that no earlier batch wrote (out of date),
         and summary files that are not a batch's.
+    page : bool
+        Write the listening page and the excerpts it plays (default).
 
     Raises
     ------
@@ -184,13 +187,13 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
         job = TakeJob(index, str(planned.take), str(planned.out_path), planned.speaker.name,
                       planned.speaker.preset, network,
                       sibilance_band_of(notches[planned.speaker.preset], info.samplerate), info.frames,
-                      info.samplerate, excerpts=excerpt_paths(out, planned.out_path))
+                      info.samplerate, excerpts=excerpt_paths(out, planned.out_path) if page else None)
         state = _output_state(planned, info.frames, preset_path)
         if redo or state == "missing":
             jobs.append(replace(job, replace=state != "missing"))
         elif state == "current":
             row = earlier.get(str(planned.out_path.resolve()))
-            if row is not None and all(os.path.isfile(e) for e in job.excerpts):
+            if row is not None and all(os.path.isfile(e) for e in job.excerpts or ()):
                 kept.append(_kept_row(job, row))
             else:
                 jobs.append(replace(job, action="measure"))
@@ -202,8 +205,8 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
         raise OutputRefusedError(f"{refused[0]}: exists, is out of date and no earlier batch here wrote it "
                                  f"({len(refused)} such file(s)); pass --force to replace them, or choose "
                                  "another output folder")
-    made = [Path(path) for j in jobs for path in (j.out_path, *j.excerpts)]
-    return Batch(plan, jobs, kept, _folders_missing(out, made))
+    made = [Path(path) for j in jobs for path in (j.out_path, *(j.excerpts or ()))]
+    return Batch(plan, jobs, kept, _folders_missing(out, made), page)
 
 
 def excerpt_paths(out: Path, out_path: Path) -> tuple[str, str]:
@@ -298,7 +301,7 @@ def run_job(job: TakeJob) -> TakeResult:
     started = time.perf_counter()
     info = audio.read_info(job.take)
     dry, wet = _meters(info, job.band_hz), _meters(info, job.band_hz)
-    dry_excerpt, wet_excerpt = _Excerpt(*job.excerpt_window()), _Excerpt(*job.excerpt_window())
+    dry_excerpt, wet_excerpt = (_Excerpt(*job.excerpt_window()) if job.excerpts else None for _ in range(2))
     if job.action == "measure":
         _measure_blocks(audio.iter_blocks(job.take), dry, dry_excerpt)
         peak = _measure_blocks(audio.iter_blocks(job.out_path), wet, wet_excerpt)
@@ -332,10 +335,12 @@ class _Excerpt:
         return np.concatenate(self.pieces) if self.pieces else None
 
 
-def _write_excerpts(job: TakeJob, dry: _Excerpt, wet: _Excerpt) -> None:
+def _write_excerpts(job: TakeJob, dry: _Excerpt | None, wet: _Excerpt | None) -> None:
     """The page's dry and wet excerpts, 24-bit WAV (exact for 16- and 24-bit takes; browsers play it)."""
     from emulate.audio import stream as audio
 
+    if not job.excerpts:
+        return
     for path, excerpt in zip(job.excerpts, (dry, wet)):
         samples = excerpt.samples()
         if samples is not None:
@@ -364,13 +369,14 @@ def _changes(dry, wet) -> dict:
             "loudness_change_db": measures["loudness_change_db"]}
 
 
-def _measure_blocks(blocks, meter, excerpt: _Excerpt) -> float:
+def _measure_blocks(blocks, meter, excerpt: _Excerpt | None) -> float:
     """Feed every block to ``meter`` (if any) and ``excerpt``; the largest sample magnitude."""
     top = 0.0
     for block in blocks:
         if meter is not None:
             meter.add(block)
-        excerpt.add(block)
+        if excerpt is not None:
+            excerpt.add(block)
         top = max(top, float(abs(block).max()))
     return top
 
@@ -565,9 +571,9 @@ def run_batch(batch: Batch, runner, *, progress=None) -> list[TakeResult]:
         _remove_empty(batch.folders_missing)
         if any(r.status == "rendered" for r in results) or batch.kept:
             with contextlib.suppress(Exception):
-                write_summary(batch.plan, results)
+                write_summary(batch.plan, results, page=batch.page)
         raise
-    write_summary(batch.plan, results)
+    write_summary(batch.plan, results, page=batch.page)
     return sorted(results, key=lambda r: r.index)
 
 
@@ -577,8 +583,8 @@ def _remove_empty(folders: list[Path]) -> None:
             folder.rmdir()
 
 
-def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Path, Path]:
-    """``summary.csv``, ``summary.json`` and the listening page ``index.html`` in the plan's output folder."""
+def write_summary(plan: BatchPlan, results: list[TakeResult], *, page: bool = True) -> tuple[Path, Path, Path | None]:
+    """``summary.csv``, ``summary.json`` and (``page``) the listening page ``index.html`` in the plan's output folder."""
     results = sorted(results, key=lambda r: r.index)
     out = Path(plan.out)
     out.mkdir(parents=True, exist_ok=True)
@@ -587,7 +593,7 @@ def write_summary(plan: BatchPlan, results: list[TakeResult]) -> tuple[Path, Pat
     files.write_text(csv_path, rows_as_csv(rows) if rows else "")
     files.write_text(json_path, json_text({"kind": SUMMARY_KIND, "plan": plan.as_dict(), "totals": totals(results),
                                            "takes": rows}))
-    return csv_path, json_path, write_page(out, results)
+    return csv_path, json_path, write_page(out, results) if page else None
 
 
 #: The page's table: row key and heading.

@@ -7,7 +7,8 @@ measured). Then, with one preset (an active twin-T at 6 kHz):
 
 - single render: :func:`emulate.audio.stream.render_file` of one take in this process,
   warm (numba compiled), median of --repeats (default 3);
-- batch with 1 and 2 local workers (:class:`emulate.work.batch.LocalRunner`) and on a
+- batch with 1 and 2 local workers (:class:`emulate.work.batch.LocalRunner`; 2 also without the
+  listening page and its excerpts, ``--no-page``) and on a
   ``distributed.LocalCluster`` of 2 worker processes (:class:`emulate.work.batch.ClusterRunner`),
   each from a fresh output folder, pool or client start-up included, median of --repeats;
 - the ratio batch(2 workers) / (takes x single / 2) (goal: at most 1.2);
@@ -83,11 +84,11 @@ def single_render_s(take: Path, network, out: Path, repeats: int, metered: bool 
     return times[1:]
 
 
-def run_batch(takes: Path, out: Path, store, runner) -> tuple[float, list]:
+def run_batch(takes: Path, out: Path, store, runner, page: bool = True) -> tuple[float, list]:
     shutil.rmtree(out, ignore_errors=True)
     plan = BatchPlan.inline("bench", "bench", [str(takes)], str(out), base=Path("/"))
     began = time.perf_counter()
-    checked = batch.prepare_batch(plan, store)
+    checked = batch.prepare_batch(plan, store, page=page)
     results = batch.run_batch(checked, runner)
     wall = time.perf_counter() - began
     shutil.rmtree(out, ignore_errors=True)
@@ -121,7 +122,8 @@ def main(argv=None) -> int:
 
     single = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats)
     metered = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats, metered=True)
-    runs = {"1 worker": lambda: batch.LocalRunner(1), "2 workers": lambda: batch.LocalRunner(2)}
+    runs = {"1 worker": lambda: batch.LocalRunner(1), "2 workers": lambda: batch.LocalRunner(2),
+            "2 workers, --no-page": lambda: batch.LocalRunner(2)}
     cluster = None
     if not args.no_cluster:
         import distributed
@@ -134,7 +136,7 @@ def main(argv=None) -> int:
         for _ in range(args.repeats):
             for name, make in runs.items():
                 runner = make()
-                wall, results = run_batch(takes, work / "out", store, runner)
+                wall, results = run_batch(takes, work / "out", store, runner, page="no-page" not in name)
                 if hasattr(runner, "close"):
                     runner.close()
                 walls[name].append(wall)
