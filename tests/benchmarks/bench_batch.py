@@ -6,7 +6,8 @@ Generates one invented voice-like take (:func:`emulate.voice.synth.voice_like_ta
 measured). Then, with one preset (an active twin-T at 6 kHz):
 
 - single render: :func:`emulate.audio.stream.render_file` of one take in this process,
-  warm (numba compiled), median of --repeats (default 3);
+  warm (numba compiled), median of --repeats (default 3); and ``emulate render`` of one take
+  in a fresh process (what a producer runs per take today, start-up and design included);
 - batch with 1 and 2 local workers (:class:`emulate.work.batch.LocalRunner`; 2 also without the
   listening page and its excerpts, ``--no-page``) and on a
   ``distributed.LocalCluster`` of 2 worker processes (:class:`emulate.work.batch.ClusterRunner`),
@@ -84,6 +85,22 @@ def single_render_s(take: Path, network, out: Path, repeats: int, metered: bool 
     return times[1:]
 
 
+def command_render_s(take: Path, presets: Path, out: Path, repeats: int) -> list[float]:
+    """Wall times of ``emulate render TAKE OUT --preset bench`` in a fresh process: what a producer runs per take."""
+    import subprocess
+
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    times = []
+    for _ in range(repeats):
+        out.unlink(missing_ok=True)
+        began = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "emulate", "render", str(take), str(out), "--preset", "bench",
+                        "--presets", str(presets)], env=env, check=True, capture_output=True)
+        times.append(time.perf_counter() - began)
+    out.unlink(missing_ok=True)
+    return times
+
+
 def run_batch(takes: Path, out: Path, store, runner, page: bool = True) -> tuple[float, list]:
     shutil.rmtree(out, ignore_errors=True)
     plan = BatchPlan.inline("bench", "bench", [str(takes)], str(out), base=Path("/"))
@@ -122,6 +139,7 @@ def main(argv=None) -> int:
 
     single = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats)
     metered = single_render_s(next(takes.rglob("*.wav")), network, work / "single.wav", args.repeats, metered=True)
+    command = command_render_s(next(takes.rglob("*.wav")), work / "presets", work / "single.wav", args.repeats)
     runs = {"1 worker": lambda: batch.LocalRunner(1), "2 workers": lambda: batch.LocalRunner(2),
             "2 workers, --no-page": lambda: batch.LocalRunner(2)}
     cluster = None
@@ -160,6 +178,8 @@ def main(argv=None) -> int:
         "single_render_with_meters_s": metered, "meters_cost": statistics.median(metered) / single_s,
         "ideal_2_workers_s": ideal_s, "batch_s": walls, "median_batch_s": medians,
         "ratio_2_workers_to_ideal": medians["2 workers"] / ideal_s, "goal_ratio": GOAL_RATIO,
+        "command_render_s": command, "median_command_render_s": statistics.median(command),
+        "ratio_2_workers_to_command_ideal": medians["2 workers"] / (args.takes * statistics.median(command) / 2),
         "ratio_1_worker_to_singles": medians["1 worker"] / (args.takes * single_s),
         "ratio_cluster_to_ideal": (medians["LocalCluster, 2 workers"] / ideal_s) if cluster else None,
         "peak_worker_mb": memory, "long_seconds": args.long_seconds,
@@ -174,6 +194,8 @@ def main(argv=None) -> int:
     print(f"  with the batch's meters {statistics.median(metered):6.3f} s a take   "
           f"({result['meters_cost']:.2f}x: loudness and band level measured while rendering)")
     print(f"  ideal on 2 workers     {ideal_s:7.2f} s   (takes x single / 2)")
+    print(f"  'emulate render' of one take, fresh process: {statistics.median(command):.2f} s; batch on 2 workers "
+          f"= {result['ratio_2_workers_to_command_ideal']:.2f}x (takes x that / 2)")
     for name, median in medians.items():
         peak = "(runs in this process)" if name == "1 worker" else f"peak {memory[name]:.0f} MB a worker"
         print(f"  batch, {name:22} {median:7.2f} s   {median / ideal_s:5.2f}x the ideal   "
