@@ -1,6 +1,7 @@
 """The hum finder: mains hum (50 or 60 Hz and its harmonics), its exact frequency and drift.
 
-The finder reads a take once, block by block (memory bounded by one 4 s segment):
+The finder reads a take in three passes, block by block (memory bounded by a few 4 s segments
+and at most 96 short spectra, whatever the take's length):
 
 1. segments: 4 s Hann segments every 2 s (the whole take if shorter, at least 1 s),
    mixed to mono, power spectra up to 1.3 kHz (0.18 Hz bins with zero padding);
@@ -53,6 +54,8 @@ SEGMENT_HOP_S = 2.0
 #: Short segments whose median spectrum tells steady lines from a voice's moving harmonics, s
 #: (hop a quarter of it).
 STEADY_SEGMENT_S = 2.0
+#: At most this many short segments enter the median (spread evenly over a long take).
+STEADY_MAX_SEGMENTS = 96
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 1.0
 #: Highest frequency examined, Hz (harmonics up to this).
@@ -152,25 +155,42 @@ def _not_found(reason: str, seconds: float, set_aside=()) -> HumReport:
     return HumReport(False, reason, float(seconds), nan, nan, nan, (), (), (), tuple(set_aside))
 
 
-def _read_segments(source: TakeSource) -> tuple[FrameGrid, np.ndarray]:
-    """Power spectra (segments, bins up to TOP_HZ) of the take's segments."""
+def _segment_grid(source: TakeSource) -> tuple[FrameGrid, int]:
+    """The segments' framing and the number of bins kept (up to TOP_HZ)."""
     seconds = min(SEGMENT_S, source.seconds)
     grid = FrameGrid.at(source.fs, seconds, min(SEGMENT_HOP_S, seconds / 2.0), padded=True)
-    top = int(np.searchsorted(grid.f_hz, TOP_HZ))
-    segments = [power[:, :top] for power in iter_frame_power(source, grid)]
-    return grid, np.concatenate(segments)
+    return grid, int(np.searchsorted(grid.f_hz, TOP_HZ))
+
+
+def _iter_segments(source: TakeSource, grid: FrameGrid, top: int):
+    """Power spectra (bins up to TOP_HZ) of the take's segments, one at a time."""
+    for power in iter_frame_power(source, grid):
+        yield from power[:, :top]
+
+
+def _mean_spectrum(source: TakeSource, grid: FrameGrid, top: int) -> np.ndarray:
+    """Mean power spectrum of the segments (one pass; memory: one spectrum)."""
+    total, count = np.zeros(top), 0
+    for power in _iter_segments(source, grid, top):
+        total += power
+        count += 1
+    return total / max(count, 1)
 
 
 def _steady_spectrum(source: TakeSource, f_hz: np.ndarray, mean: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """What stays in every part of the take: the median over short segments of their power
     spectra (a mains line is in all of them; a voice's moving low harmonics in a few), and
-    its bin frequencies; the mean spectrum when the take holds under three short segments."""
+    its bin frequencies; the mean spectrum when the take holds under three short segments.
+    At most STEADY_MAX_SEGMENTS segments, spread evenly over the take (bounded memory)."""
     grid = FrameGrid.at(source.fs, STEADY_SEGMENT_S, STEADY_SEGMENT_S / 4.0, padded=True)
     if source.seconds < STEADY_SEGMENT_S * 1.5:
         return mean, f_hz
     top = int(np.searchsorted(grid.f_hz, TOP_HZ))
-    segments = np.concatenate([power[:, :top] for power in iter_frame_power(source, grid)])
-    return np.median(segments, axis=0), grid.f_hz[:top]
+    count = 1 + (source.frames - grid.size) // grid.hop
+    step = -(-count // STEADY_MAX_SEGMENTS)
+    kept = [power.copy() for i, power in enumerate(_iter_segments(source, grid, top)) if i % step == 0]  # a
+    # copy: a view would keep its whole chunk of full-length spectra alive
+    return np.median(np.stack(kept), axis=0), grid.f_hz[:top]
 
 
 def _line(power: np.ndarray, f_hz: np.ndarray, centre_hz: float) -> tuple[int, float, float]:
@@ -291,8 +311,8 @@ def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> Hu
         raise BadValueError(f"mains_hz = {mains_hz!r} is not allowed; choose 50 or 60 (or none for both)")
     if source.seconds < MIN_SECONDS:
         return _not_found(f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s", source.seconds)
-    grid, segments = _read_segments(source)
-    f_hz, mean = grid.f_hz[: segments.shape[1]], segments.mean(axis=0)
+    grid, top = _segment_grid(source)
+    f_hz, mean = grid.f_hz[:top], _mean_spectrum(source, grid, top)
     steady, steady_f_hz = _steady_spectrum(source, f_hz, mean)
     families = {m: _prominences(steady, steady_f_hz, m)
                 for m in (MAINS_HZ if mains_hz is None else (float(mains_hz),))}
@@ -301,7 +321,7 @@ def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> Hu
     present = [k for k, p in families[mains].items() if p >= PRESENT_DB]
     if not present:
         return _not_found("no mains line stands out of the programme", source.seconds)
-    per_segment = [_segment_fundamental(power, f_hz, mains, present) for power in segments]
+    per_segment = [_segment_fundamental(power, f_hz, mains, present) for power in _iter_segments(source, grid, top)]
     persistent = np.mean([share > 0 for _, share, _ in per_segment])
     if persistent < PERSISTENT_SHARE:
         return _not_found(f"mains lines in only {persistent:.0%} of the take (need {PERSISTENT_SHARE:.0%})",

@@ -5,13 +5,10 @@ and colours everything the microphone hears, the room's quiet noise between word
 included. So the finder reads the resonance where the voice is absent:
 
 1. quiet moments: 20 ms frames within 6 dB of the take's quietest tenth, each run less
-   one frame at each end (the edges of words), at most 120 s of them in all;
-2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): below
-   400 Hz from 0.3 s Hann frames lying wholly inside one quiet run (resolution, and no
-   splice cuts a low ringing short); above, from 0.2 s frames over the quiet runs joined
-   (more frames, less scatter); also over each half of the quiet material; a range with
-   fewer than 4 such frames is not examined (a take without four 0.3 s pauses is not
-   searched below 400 Hz);
+   one frame at each end (the edges of words), at most 60 s of them in all;
+2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): 0.2 s
+   Hann frames over the quiet moments joined end to end (at least 4 frames, else nothing is
+   examined), also over each half of them;
 3. neighbourhood: the spectrum in dB against its running median over +-1 octave; local
    maxima standing 2.5 dB out are candidates (the 24 strongest);
 4. fit: for each, a second-order peaking response (the analog prototype of R.
@@ -26,8 +23,9 @@ included. So the finder reads the resonance where the voice is absent:
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
-the table): frequency within 2 % in most cases found; Q within 30 % is the weak part below
-250 Hz, where a take holds few quiet stretches long enough; longer takes do better.
+the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 %; at
+100-250 Hz the 0.2 s frames (5 Hz apart) resolve a narrow peak coarsely, and the Q is the
+weak part; longer takes (more quiet material) do better.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -50,14 +48,12 @@ from emulate.voice.takes import TakeSource
 
 __all__ = ["ResonancePeak", "ResonanceReport", "combine_resonance", "find_resonance", "peaking_db"]
 
-#: Frame lengths, s (hop: a quarter frame): long frames below SPLIT_HZ, short ones above.
-LONG_FRAME_S = 0.3
-SHORT_FRAME_S = 0.2
-SPLIT_HZ = 400.0
+#: Frame length of the quiet spectrum, s (hop: a quarter frame).
+FRAME_S = 0.2
 #: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
 GATE_FRAME_S = 0.02
 QUIET_WITHIN_DB = 6.0
-QUIET_MAX_S = 120.0
+QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
 #: A range is examined only with at least this many quiet frames (fewer scatter too much).
@@ -187,41 +183,45 @@ class _Quiet:
     frames: int
 
 
-def _quiet_runs(source: TakeSource) -> list[np.ndarray]:
+def _quiet_moments(source: TakeSource) -> np.ndarray:
     """The take's quiet moments (between words: the room's own noise, through the same
-    resonance), each as its own stretch of samples, at most QUIET_MAX_S seconds in all:
+    resonance), joined end to end (float32), at most QUIET_MAX_S seconds in all:
     runs of 20 ms frames whose power lies within QUIET_WITHIN_DB of the take's quietest
     tenth (frames of digital silence aside), less one frame at each end (word edges)."""
     grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
     power = np.concatenate([p.sum(axis=1) for p in iter_frame_power(source, grid)] or [np.zeros(0)])
     live = power[power > 0]
     if live.size == 0:
-        return []
+        return np.zeros(0, np.float32)
     quiet = (power > 0) & (power <= np.percentile(live, 10.0) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
-    spans = [((a + 1) * grid.hop, (b - 1) * grid.hop) for a, b in runs(quiet) if b - a > 2]
-    stretches, offset, budget = [], 0, round(QUIET_MAX_S * source.fs)
-    pieces = {i: [] for i in range(len(spans))}
+    spans, budget = [], round(QUIET_MAX_S * source.fs)
+    for a, b in runs(quiet):
+        if b - a > 2 and budget > 0:
+            start, stop = (a + 1) * grid.hop, (b - 1) * grid.hop
+            spans.append((start, min(stop, start + budget)))
+            budget -= spans[-1][1] - start
+    pieces, offset, first = [[] for _ in spans], 0, 0  # spans are in order: walk them with the blocks
     for block in iter_mono(source):
-        for i, (a, b) in enumerate(spans):
-            lo, hi = max(a, offset), min(b, offset + block.size)
-            if lo < hi:
-                pieces[i].append(block[lo - offset : hi - offset])
-        offset += block.size
-    for i in range(len(spans)):
-        stretch = np.concatenate(pieces[i])
-        if budget <= 0:
+        end = offset + block.size
+        while first < len(spans) and spans[first][1] <= offset:
+            first += 1
+        for i in range(first, len(spans)):
+            a, b = spans[i]
+            if a >= end:
+                break
+            pieces[i].append(block[max(a, offset) - offset : min(b, end) - offset].astype(np.float32))
+        offset = end
+        if first >= len(spans):
             break
-        stretches.append(stretch[:budget])
-        budget -= stretch.size
-    return stretches
+    return np.concatenate([part for piece in pieces for part in piece] or [np.zeros(0, np.float32)])
 
 
-def _quiet_spectrum(stretches, fs: float, grid_hz: np.ndarray, frame_s: float) -> _Quiet:
-    """The mean power spectrum of the frames of ``frame_s`` (hop a quarter of it) that lie
-    wholly inside a quiet stretch (never across two), over all of them and over each half."""
+def _quiet_spectrum(quiet: np.ndarray, fs: float, grid_hz: np.ndarray, frame_s: float) -> _Quiet:
+    """The mean power spectrum of the quiet moments with frames of ``frame_s`` (hop a quarter
+    of it), over all of them and over each half."""
     grid = FrameGrid.at(fs, frame_s, frame_s / 4.0, padded=True)
-    rows = [_on_grid(grid.f_hz, power, grid_hz) for stretch in stretches if stretch.size >= grid.size
-            for power in iter_frame_power(TakeSource.from_array(stretch, fs), grid)]
+    rows = [_on_grid(grid.f_hz, power, grid_hz)
+            for power in iter_frame_power(TakeSource.from_array(quiet, fs), grid)] if quiet.size >= grid.size else []
     if sum(r.shape[0] for r in rows) < MIN_FRAMES:
         return _Quiet(frame_s, np.zeros(grid_hz.size), (), 0)
     rows = np.concatenate(rows)
@@ -292,24 +292,21 @@ def _standing_share(grid_hz, halves, f0: float, gain: float) -> float:
     return float(np.mean([float(np.interp(f0, grid_hz, _excess(h))) >= gain / 2.0 for h in halves]))
 
 
-def _candidates(grid_hz, spectra) -> list[tuple[float, _Quiet, int]]:
-    """Local maxima of each quiet spectrum's excess in its own range (long frames below
-    SPLIT_HZ, short ones above): (excess dB, spectrum, grid index), strongest first."""
-    found = []
-    for quiet, part in zip(spectra, (grid_hz < SPLIT_HZ, grid_hz >= SPLIT_HZ)):
-        if quiet.frames < MIN_FRAMES:
-            continue
-        excess = _excess(quiet.level_db)
-        peak = np.zeros(excess.size, bool)
-        peak[1:-1] = (excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:]) & (excess[1:-1] >= CANDIDATE_DB)
-        found += [(float(excess[i]), quiet, int(i)) for i in np.flatnonzero(peak & part)]
+def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
+    """Local maxima of the quiet spectrum's excess: (excess dB, grid index), strongest first."""
+    if quiet.frames < MIN_FRAMES:
+        return []
+    excess = _excess(quiet.level_db)
+    peak = np.zeros(excess.size, bool)
+    peak[1:-1] = (excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:]) & (excess[1:-1] >= CANDIDATE_DB)
+    found = [(float(excess[i]), int(i)) for i in np.flatnonzero(peak)]
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, spectra) -> list[ResonancePeak]:
-    """Accepted peaks of the quiet spectra (see the module's stages 3-4)."""
+def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
+    """Accepted peaks of the quiet spectrum (see the module's stages 3-5)."""
     accepted = []
-    for _, quiet, i in _candidates(grid_hz, spectra):
+    for _, i in _candidates(quiet):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.frame_s)
         if fit is None:
             continue
@@ -356,17 +353,15 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     (True, True)
     """
     source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
-    quiet = _quiet_runs(source)  # reads the whole take first: a damaged file is refused, short or not
+    quiet = _quiet_moments(source)  # reads the whole take first: a damaged file is refused, short or not
     if source.seconds < MIN_SECONDS:
         return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
                                source.seconds, None, (), None)
     grid_hz = _grid_hz(source.fs)
     accepted = []
-    joined = [np.concatenate(quiet)] if quiet else []
-    spectra = [_quiet_spectrum(quiet, source.fs, grid_hz, LONG_FRAME_S),
-               _quiet_spectrum(joined, source.fs, grid_hz, SHORT_FRAME_S)]
-    mean = np.where(grid_hz < SPLIT_HZ, *(_excess(q.level_db) for q in spectra))
-    for peak in _peaks(grid_hz, spectra):
+    spectrum = _quiet_spectrum(quiet, source.fs, grid_hz, FRAME_S)
+    mean = _excess(spectrum.level_db)
+    for peak in _peaks(grid_hz, spectrum):
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
     if not accepted:
