@@ -16,6 +16,7 @@ as stale by the next writer of the same target and removed (:func:`remove_stale`
 from __future__ import annotations
 
 import contextlib
+import errno
 import os
 import re
 import secrets
@@ -357,8 +358,21 @@ def _create(temp: Path, target: Path) -> None:
             raise FileExistsError(17, "File exists", str(target))
         os.replace(temp, target)
         return
-    os.link(temp, target)  # fails with FileExistsError when target exists: atomic create
+    try:
+        os.link(temp, target)  # fails with FileExistsError when target exists: atomic create
+    except FileExistsError:
+        raise
+    except OSError as exc:  # a file system without hard links (FAT, some network shares)
+        if exc.errno not in _NO_LINKS:
+            raise
+        if os.path.lexists(target):  # the best such a file system allows: check, then rename
+            raise FileExistsError(errno.EEXIST, os.strerror(errno.EEXIST), str(target)) from None
+        os.replace(temp, target)
+        return
     temp.unlink()
+
+
+_NO_LINKS = {errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EMLINK, errno.ENOSYS}
 
 
 def _replace(temp: Path, target: Path) -> None:

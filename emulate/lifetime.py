@@ -8,25 +8,32 @@
   even after ``kill -9`` of the parent: on Linux the kernel sends it SIGKILL
   (``prctl(PR_SET_PDEATHSIG)``), elsewhere a watchdog thread sees the parent
   change and exits.
-- :func:`end_workers` kills a process pool's workers at once (used when work is
-  interrupted, so the parent need not wait for the renders in flight).
+- :class:`WorkerPool` is the process pool of every parallel command (sweep, batch):
+  its workers run :func:`watch_parent` and report their process ids to the parent
+  as they start (through a pipe the parent owns), so the parent knows exactly which
+  processes are its workers without looking inside the executor.
+- :func:`end_workers` kills a :class:`WorkerPool`'s workers at once (used when work
+  is interrupted, so the parent need not wait for the renders in flight).
 """
 
 from __future__ import annotations
 
 import contextlib
 import ctypes
+import multiprocessing
 import os
 import signal
 import sys
 import threading
 import time
 from collections.abc import Iterator
+from concurrent.futures import ProcessPoolExecutor
 
-__all__ = ["Stopped", "stop_on_signals", "watch_parent", "end_workers"]
+__all__ = ["Stopped", "stop_on_signals", "watch_parent", "WorkerPool", "end_workers"]
 
 _PR_SET_PDEATHSIG = 1  # linux/prctl.h
 _WATCH_S = 0.5
+END_S = 10.0  # end_workers waits at most this long for killed workers to be reaped
 STOP_SIGNALS = tuple(getattr(signal, name) for name in ("SIGTERM", "SIGHUP") if hasattr(signal, name))
 
 
@@ -92,20 +99,67 @@ def _watch(parent: int) -> None:
     os._exit(1)
 
 
-def end_workers(pool) -> None:
-    """Kill the worker processes of a ``ProcessPoolExecutor`` now and drop its queued jobs.
+class WorkerPool(ProcessPoolExecutor):
+    """A process pool whose workers die with the parent and whose process ids the parent knows.
+
+    Each worker runs :func:`watch_parent`, then writes its process id into a pipe the
+    parent made (a ``multiprocessing.SimpleQueue``: the write is finished before the
+    worker takes its first job), so :meth:`worker_ids` names every worker that ever
+    ran a job, through public interfaces only.
+
+    Parameters
+    ----------
+    max_workers : int
+        Worker processes, at least 1.
 
     Example
     -------
-    >>> from concurrent.futures import ProcessPoolExecutor
-    >>> end_workers(ProcessPoolExecutor(1))
+    >>> with WorkerPool(1) as pool:
+    ...     pool.submit(os.getpid).result() in pool.worker_ids()
+    True
     """
-    processes = list((getattr(pool, "_processes", None) or {}).values())
-    for process in processes:
-        with contextlib.suppress(OSError, AttributeError):
-            process.kill()
+
+    def __init__(self, max_workers: int):
+        context = multiprocessing.get_context()
+        self._started = context.SimpleQueue()
+        self._ids: set[int] = set()
+        super().__init__(max_workers=max_workers, mp_context=context, initializer=_start_worker,
+                         initargs=(self._started,))
+
+    def worker_ids(self) -> set[int]:
+        """The process ids of the workers started so far (a worker running a job is always among them)."""
+        with contextlib.suppress(OSError, EOFError, ValueError):
+            while not self._started.empty():
+                self._ids.add(self._started.get())
+        return set(self._ids)
+
+
+def _start_worker(started) -> None:
+    """Worker initializer of :class:`WorkerPool`: watch the parent, then say who we are."""
+    watch_parent()
+    started.put(os.getpid())
+
+
+def end_workers(pool: WorkerPool) -> None:
+    """Kill the worker processes of a :class:`WorkerPool` now and drop its queued jobs.
+
+    Returns once every worker that ran a job is gone (reaped), or after ``END_S``
+    seconds at most; killing one worker breaks the pool, which then ends the others
+    itself. The pool cannot be used again.
+
+    Example
+    -------
+    >>> end_workers(WorkerPool(1))
+    """
     with contextlib.suppress(Exception):
         pool.shutdown(wait=False, cancel_futures=True)
-    for process in processes:
-        with contextlib.suppress(Exception):
-            process.join(timeout=2.0)
+    deadline = time.monotonic() + END_S
+    while True:
+        workers = pool.worker_ids()
+        for pid in workers:
+            with contextlib.suppress(OSError):
+                os.kill(pid, signal.SIGKILL)
+        living = {child.pid for child in multiprocessing.active_children()} & workers
+        if not living or time.monotonic() > deadline:
+            return
+        time.sleep(0.02)

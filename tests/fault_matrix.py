@@ -49,9 +49,11 @@ class Case:
     message: str = ""  # a regular expression the output must match
     may_create: tuple[str, ...] = ()  # glob patterns (relative to the workspace) allowed to appear
     may_change: tuple[str, ...] = ()  # existing paths allowed to change or go (e.g. with --force)
-    inject: str | None = None  # "disk_full": every audio write and picture save fails with ENOSPC
+    inject: str | None = None  # "disk_full": every audio write and picture save fails with ENOSPC;
+    # "interrupt_batch": Ctrl-C lands in a batch as its second take starts
     env: dict = field(default_factory=dict)
     slow: bool = False  # a whole end-to-end run of seconds: with the slow checks (pytest -m slow)
+    may_keep: tuple[str, ...] = ()  # glob patterns allowed to appear even on failure (complete outputs kept)
 
 
 @dataclass
@@ -143,6 +145,16 @@ def make_template(folder) -> Path:
     (presets / "broken.toml").write_text("schema_version = 1\nname = 'broken'\n")
     (w / "sw").mkdir()
     (w / "sw" / "summary.json").write_text('{"plan": {"notches_hz": [5000.0]}, "pick": {}}')
+    (w / "season" / "a").mkdir(parents=True)
+    (w / "season" / "b").mkdir()
+    shutil.copy(w / "take.wav", w / "season" / "a" / "take.wav")
+    shutil.copy(w / "take2.wav", w / "season" / "b" / "take2.wav")
+    (w / "plan.toml").write_text('out = "renders"\n[[speaker]]\nname = "A host"\npreset = "host"\n'
+                                 'takes = ["season"]\n', encoding="utf-8")
+    (w / "badplan.toml").write_text('out = "renders"\nspeakers = 2\n', encoding="utf-8")
+    (w / "renders-old").mkdir()
+    (w / "renders-old" / "take.wav").write_text("someone's older file\n")
+    os.utime(w / "renders-old" / "take.wav", (0, 0))  # older than every take
     return w
 
 
@@ -167,6 +179,9 @@ def _cases() -> list[Case]:
     S = " ".join(SWEEP)
     new_out = ("out.wav",)
     sweep_out = ("out", "out/*")
+    BP = "--presets {w}/presets"
+    B = f"--speaker A --preset host {BP}"
+    batch_out = ("renders", "renders/*", "renders/*/*")
     cases = [
         # --- response ---------------------------------------------------------------------
         _c("response ok", f"response {P}", 0, "notch"),
@@ -418,6 +433,20 @@ def _cases() -> list[Case]:
            "preset save x --speaker X --from-sweep {w}/sw --presets {w}/presets", 1, "not a sweep summary"),
         _c("preset from sweep missing", "preset save x --speaker X --from-sweep {w}/nosweep --presets {w}/presets",
            1, "not a sweep summary"),
+        _c("preset from finder", "preset save new --speaker X --from-finder {w}/take.wav {w}/take2.wav "
+           "--presets {w}/presets", 0, "saved", may_create=("presets/new.toml",)),
+        _c("preset from finder silent", "preset save new --speaker X --from-finder {w}/silent.wav "
+           "--presets {w}/presets", 1, "found nothing usable"),
+        _c("preset from finder exists", "preset save host --speaker X --from-finder {w}/take.wav "
+           "--presets {w}/presets", 1, "already exists.*--force"),
+        _c("preset from finder exists force", "preset save host --speaker X --from-finder {w}/take.wav "
+           "--presets {w}/presets --force", 0, "saved", may_change=("presets/host.toml",)),
+        _c("preset from finder no takes", "preset save new --speaker X --from-finder --presets {w}/presets", 2,
+           "needs one or more takes"),
+        _c("preset from finder unreadable", "preset save new --speaker X --from-finder {w}/notes.wav "
+           "--presets {w}/presets", 1, "not an audio file"),
+        _c("preset from finder truncated", "preset save new --speaker X --from-finder {w}/cut.flac "
+           "--presets {w}/presets", 1, "damaged or cut short"),
         _c("preset save no source", "preset save x --speaker X --presets {w}/presets", 2, "exactly one"),
         _c("preset save two sources", f"preset save x --speaker X --notch 6k {P} --presets {{w}}/presets", 2,
            "exactly one"),
@@ -530,6 +559,58 @@ def _cases() -> list[Case]:
         _c("resonance missing take", "resonance {w}/nothere.wav", 1, "nothere"),
         _c("resonance plot disk full", "resonance {w}/take.wav --plot {w}/r.png", 1, "space|r.png",
            inject="disk_full"),
+        # --- batch -------------------------------------------------------------------------------
+        _c("batch inline ok", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 0, "2 rendered",
+           may_create=batch_out),
+        _c("batch plan ok", f"batch {{w}}/plan.toml --workers 1 {BP}", 0, "2 rendered", may_create=batch_out),
+        _c("batch nested out", f"batch {B} --takes {{w}}/season/a --out {{w}}/x/y/renders --workers 1", 0,
+           "1 rendered", may_create=("x", "x/*", "x/*/*", "x/*/*/*")),
+        _c("batch same names in two folders", f"batch {B} --takes {{w}}/take.wav --takes {{w}}/same/take.wav "
+           f"--out {{w}}/renders --workers 1", 0, "2 rendered", may_create=batch_out),
+        _c("batch silent take", f"batch {B} --takes {{w}}/silent.wav --out {{w}}/renders --workers 1", 0,
+           "n/a", may_create=batch_out),
+        _c("batch no plan", "batch", 2, "plan file"),
+        _c("batch inline incomplete", "batch --speaker A --preset host", 2, "missing --takes, --out"),
+        _c("batch plan and inline", f"batch {{w}}/plan.toml {B} --takes {{w}}/season", 2, "not both"),
+        _c("batch workers and cluster", f"batch {{w}}/plan.toml --workers 2 --cluster tcp://127.0.0.1:9 {BP}",
+           2, "not both"),
+        _c("batch plan missing", f"batch {{w}}/noplan.toml {BP}", 1, "cannot read the batch plan"),
+        _c("batch plan not toml", f"batch {{w}}/notoml.toml {BP}", 1, "not a TOML"),
+        _c("batch plan unknown key", f"batch {{w}}/badplan.toml {BP}", 1, "unknown key.*speakers"),
+        _c("batch plan not utf8", f"batch {{w}}/latin1.toml {BP}", 1, "UTF-8"),
+        _c("batch preset missing", "batch --speaker A --preset nobody --takes {w}/season --out {w}/renders "
+           "--presets {w}/presets", 1, "no preset 'nobody'"),
+        _c("batch preset broken", "batch --speaker A --preset broken --takes {w}/season --out {w}/renders "
+           "--presets {w}/presets", 1, "broken"),
+        _c("batch unreadable take", f"batch {B} --takes {{w}}/*.wav --out {{w}}/renders", 1, "empty file"),
+        _c("batch pattern finds nothing", f"batch {B} --takes {{w}}/*.mp3 --out {{w}}/renders", 1, "matches no file"),
+        _c("batch folder without audio", f"batch {B} --takes {{w}}/busy --out {{w}}/renders", 1, "no audio files"),
+        _c("batch take listed twice", f"batch {B} --takes {{w}}/season --takes {{w}}/season/a/take.wav "
+           "--out {w}/renders", 1, "listed twice"),
+        _c("regression_batch_never_writes_inside_its_input_folder", f"batch {B} --takes {{w}}/season "
+           "--out {w}/season/renders", 1, "overlaps"),
+        _c("regression_batch_never_writes_over_a_take", f"batch {B} --takes {{w}}/holds-take/take.wav "
+           "--out {w}/holds-take", 1, "overlaps"),
+        _c("batch out contains the takes", f"batch {B} --takes {{w}}/season/a --out {{w}}/season", 1, "overlaps"),
+        _c("batch out is a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile", 2, "file"),
+        _c("batch out under a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile/r", 1, "not a folder"),
+        _c("batch workers zero", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 0", 1, "workers"),
+        _c("batch workers huge", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 100000", 1,
+           "workers"),
+        _c("batch existing output without force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old", 1,
+           "out of date.*--force"),
+        _c("batch existing output force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old --force", 0,
+           "1 rendered", may_change=("renders-old/take.wav",), may_create=("renders-old/*",)),
+        _c("batch foreign summary", f"batch {B} --takes {{w}}/season --out {{w}}/sw", 1, "not an earlier batch"),
+        _c("batch foreign summary force", f"batch {B} --takes {{w}}/season --out {{w}}/sw --force --workers 1", 0,
+           "2 rendered", may_change=("sw/summary.json",), may_create=("sw/*", "sw/*/*")),
+        _c("batch truncated flac", f"batch {B} --takes {{w}}/cut.flac --out {{w}}/renders", 1, "damaged or cut short"),
+        _c("regression_batch_interrupted_keeps_only_complete_renders", f"batch {B} --takes {{w}}/season "
+           "--out {w}/renders --workers 1", 1, "interrupted.*kept.*resume", inject="interrupt_batch",
+           may_keep=("renders", "renders/a", "renders/a/take.wav", "renders/summary.*", "renders/index.html",
+                     "renders/listening", "renders/listening/a", "renders/listening/a/take.wav--*.wav")),
+        _c("batch full disk", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 1,
+           "writing failed", inject="disk_full"),
         # --- the group ------------------------------------------------------------------------
         _c("unknown command", "frobnicate", 2, "No such command"),
         _c("unknown option", "response --frob", 2, "No such option"),
@@ -564,7 +645,7 @@ def _injected(kind: str | None):
     if kind is None:
         yield
         return
-    assert kind == "disk_full", kind
+    assert kind in ("disk_full", "interrupt_batch"), kind
 
     def no_space(*_args, **_kwargs):
         raise sf.LibsndfileError(2, "Error : ")  # libsndfile's SF_ERR_SYSTEM, as a full disk gives it
@@ -572,6 +653,20 @@ def _injected(kind: str | None):
     def no_space_picture(*_args, **_kwargs):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(_args[1]) if len(_args) > 1 else None)
 
+    if kind == "interrupt_batch":
+        from emulate.work import batch
+
+        real, calls = batch.run_job, []
+
+        def second_is_interrupted(job):
+            calls.append(job)
+            if len(calls) > 1:
+                raise KeyboardInterrupt
+            return real(job)
+
+        with mock.patch.object(batch, "run_job", second_is_interrupted):
+            yield
+        return
     import matplotlib.figure
 
     with mock.patch.object(sf.SoundFile, "write", no_space), \
@@ -599,6 +694,6 @@ def run_case(case: Case, template: Path, workspace: Path) -> Outcome:
     traceback = crashed or "Traceback" in output or "unexpected error" in output
     after = _snapshot(workspace)
     lost = [rel for rel, what in before.items() if after.get(rel) != what and not _allowed(rel, case.may_change)]
-    allowed_new = case.may_create if result.exit_code == 0 else ()
+    allowed_new = case.may_create if result.exit_code == 0 else case.may_keep
     stray = [rel for rel in after if rel not in before and not _allowed(rel, allowed_new)]
     return Outcome(case, result.exit_code, output, traceback, lost, stray)

@@ -21,7 +21,7 @@ import soundfile as sf
 from emulate.audio import stream as audio
 from emulate.audio.stream import (copy_file, iter_blocks, output_format, read_info, render_file,
                            write_array)
-from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning
+from emulate.errors import AudioFileError, BadValueError, EmulateError, EmulateWarning, OutputRefusedError
 from helpers_audio import (PCM_BITS, Delay, Gain, Identity, Interrupting, SosFilter,
                            random_codes, read_codes, snapshot, write_codes, write_float)
 
@@ -144,6 +144,36 @@ class TestOutputFormat:
     def test_refused(self, name):
         with pytest.raises(AudioFileError, match="is not a container libsndfile can write"):
             output_format(name)
+
+
+class Appearing(Identity):
+    """Creates OUT (as another program would) while the render is under way."""
+
+    def __init__(self, out):
+        self.out = out
+
+    def process(self, block: np.ndarray) -> np.ndarray:
+        if not os.path.exists(self.out):
+            with open(self.out, "w") as other:
+                other.write("written by another program")
+        return block.copy()
+
+
+class TestRenderCreateOnly:
+    def test_regression_render_never_replaces_a_file_that_appeared_meanwhile(self, tmp_path):
+        # issue 9 leftover: the check for an existing OUT and the final move must not leave a gap
+        path, _ = make_input(tmp_path, "wav", "PCM_24")
+        out = tmp_path / "out.wav"
+        with pytest.raises(OutputRefusedError, match="appeared while rendering"):
+            render_file(path, out, Appearing(out), replace=False)
+        assert out.read_text() == "written by another program"
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["in.wav", "out.wav"]
+
+    def test_replace_true_replaces(self, tmp_path):
+        path, _ = make_input(tmp_path, "wav", "PCM_24")
+        out = tmp_path / "out.wav"
+        render_file(path, out, Appearing(out))
+        assert read_info(out).frames == 3000
 
 
 class TestRenderFile:

@@ -140,6 +140,7 @@ class TestRender:
 class TestPlots:
     """--plot writes a PNG wherever a picture helps (PNG signature per ISO/IEC 15948)."""
 
+    @pytest.mark.slow
     def test_response_plot(self, tmp_path):
         result = run("response", *BALANCED, "--plot", tmp_path / "r.png")
         assert result.exit_code == 0, result.output

@@ -47,6 +47,7 @@ def listed_files(payload) -> list[str]:
     return paths
 
 
+@pytest.mark.slow  # every test here shares one long run (a module fixture)
 class TestDemoCommand:
     @pytest.mark.slow
     def test_json_names_what_it_wrote(self, demo_json):

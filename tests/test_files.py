@@ -141,6 +141,23 @@ class TestAtomicPathCreateOnly:
                 target.write_text("first")
         assert target.read_text() == "first" and names(tmp_path) == ["a.txt"]
 
+    @pytest.mark.parametrize("errno_name", ["EPERM", "ENOTSUP"])
+    def test_a_file_system_without_hard_links_still_refuses(self, tmp_path, monkeypatch, errno_name):
+        # FAT and some network shares refuse os.link; the create-only rule must hold there too
+        import errno
+
+        def no_links(*_args):
+            raise OSError(getattr(errno, errno_name), "no hard links here")
+
+        monkeypatch.setattr(os, "link", no_links)
+        with atomic_path(tmp_path / "new.txt", replace=False) as temp:
+            temp.write_text("new")
+        target = tmp_path / "new.txt"
+        with pytest.raises(FileExistsError):
+            with atomic_path(target, replace=False) as temp:
+                temp.write_text("second")
+        assert target.read_text() == "new" and names(tmp_path) == ["new.txt"]
+
     def test_a_folder_is_not_put_over_a_non_empty_one(self, old_folder):
         with pytest.raises(FileExistsError):
             with atomic_path(old_folder, replace=False) as temp:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import concurrent.futures
 import os
 import signal
 import subprocess
@@ -91,14 +92,45 @@ class TestWatchParent:
         assert gone_within(lines[0], 5.0)
 
 
+def first_worker(pool, seconds: float = 60.0) -> int:
+    """The id of the pool's first worker once it has started (polled, generous deadline)."""
+    deadline = time.monotonic() + seconds
+    while not pool.worker_ids():
+        assert time.monotonic() < deadline, "no worker started"
+        time.sleep(0.05)
+    return next(iter(pool.worker_ids()))
+
+
+class TestWorkerPool:
+    def test_knows_the_workers_that_ran_jobs(self):
+        with lifetime.WorkerPool(2) as pool:
+            ran = {future.result() for future in [pool.submit(os.getpid) for _ in range(6)]}
+            assert ran <= pool.worker_ids() and os.getpid() not in ran
+
+    @pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="reads /proc")
+    def test_regression_workers_die_with_a_killed_parent(self):
+        code = ("import os, signal; from emulate import lifetime; pool = lifetime.WorkerPool(2); "
+                "print(' '.join(str(pool.submit(os.getpid).result()) for _ in range(4)), flush=True); "
+                "os.kill(os.getpid(), signal.SIGKILL)")
+        env = dict(os.environ, PYTHONPATH=str(REPO))
+        done = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
+        pids = [int(pid) for pid in done.stdout.split()]
+        assert pids and gone_within(pids, 30.0)
+
+
+@pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="reads /proc")
 class TestEndWorkers:
     def test_kills_the_workers_at_once(self):
-        from concurrent.futures import ProcessPoolExecutor
-
-        pool = ProcessPoolExecutor(1, initializer=lifetime.watch_parent)
-        future = pool.submit(time.sleep, 60)
-        pid = next(iter(pool._processes))
+        # regression (flaky under load): poll with generous deadlines; "at once" means
+        # long before the 600 s job would end, not within a tight time
+        pool = lifetime.WorkerPool(1)
+        future = pool.submit(time.sleep, 600)
+        pid = first_worker(pool)
         began = time.monotonic()
         lifetime.end_workers(pool)
-        assert time.monotonic() - began < 5 and gone_within([pid], 5.0)
+        assert time.monotonic() - began < 60 and gone_within([pid], 60.0)
+        concurrent.futures.wait([future], timeout=60)  # the pool marks it broken soon after
         assert future.cancelled() or future.done()
+
+    def test_an_unused_pool_ends(self):
+        lifetime.end_workers(lifetime.WorkerPool(2))  # no worker started: nothing to kill, no hang

@@ -31,10 +31,15 @@ def _noise(fs, seconds=1.0, sigma=0.1, seed=0):
 
 def _grid_subset():
     """Eleven burst cases, one in 131: every tilt, centre, level, rate and background at least once.
-    The one the finder misses today is marked (a -18 dB burst at 10 % duty over -30 dBFS noise)."""
+    Three at 44.1/48 kHz run by default, the rest with the slow tests (the default run stays
+    lean); the one the finder misses today is marked (a -18 dB burst at 10 % duty over
+    -30 dBFS noise)."""
     miss = pytest.mark.xfail(reason="measured miss: a quiet, sparse burst over -30 dBFS noise", strict=False)
-    return [pytest.param(c, id=c.name, marks=miss if (c.level_db, c.duty, c.background) == (-18, 0.1, "noise-30")
-                         else ()) for c in grid.grid_cases()[::131]]
+    cases = grid.grid_cases()[::131]
+    default = [c for c in cases if c.fs < 96000][:3]
+    return [pytest.param(c, id=c.name, marks=([miss] if (c.level_db, c.duty, c.background) == (-18, 0.1, "noise-30")
+                                              else []) + ([] if c in default else [pytest.mark.slow]))
+            for c in cases]
 
 
 def _judge_cases(cases):
@@ -199,6 +204,7 @@ class TestFindSibilance:
 class TestSuggestionsAreContinuous:
     """Regression (issue 12): Q jumped from 0.25 to 1.0 and depth sat at a limit at a threshold."""
 
+    @pytest.mark.slow
     def test_depth_and_q_move_smoothly_with_the_burst_level(self):
         # the same take with the bursts 2 dB apart: neighbouring suggestions differ by little
         levels = np.arange(-4.0, 8.01, 2.0)

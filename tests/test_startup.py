@@ -81,7 +81,25 @@ class TestImportsPerCommand:
         sf.write(take, 0.1 * np.sin(2 * np.pi * 6000 * np.arange(4800) / 48000), 48000)
         modules = loaded_modules(["sibilance", str(take)], tmp_path)
         assert "emulate.work.sweep" not in modules and not under(modules, "matplotlib")
+        # a 16-bit take read for analysis converts its codes in numpy: no numba (about 0.6 s to start)
+        assert not under(modules, "numba")
 
+
+    def test_batch_without_cluster_loads_no_dask_and_no_plotting(self, tmp_path):
+        import numpy as np
+        import soundfile as sf
+
+        from emulate.work.presets import Preset, PresetStore
+
+        (tmp_path / "takes").mkdir()
+        sf.write(tmp_path / "takes" / "take.wav", 0.1 * np.sin(2 * np.pi * 6000 * np.arange(4800) / 48000), 48000)
+        parts = dict(zip(("r1", "r2", "r3", "c1", "c2", "c3"), PARTS[1::2]))
+        PresetStore(tmp_path / "presets").save(Preset("p", "A", circuit=parts))
+        modules = loaded_modules(["batch", "--speaker", "A", "--preset", "p", "--takes", str(tmp_path / "takes"),
+                                  "--out", str(tmp_path / "out"), "--workers", "1",
+                                  "--presets", str(tmp_path / "presets")], tmp_path)
+        assert "emulate.work.batch" in modules
+        assert not under(modules, "distributed") and not under(modules, "dask") and not under(modules, "matplotlib")
 
 class TestPackageImport:
     def test_changes_no_environment_variable(self):

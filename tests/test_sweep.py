@@ -329,6 +329,7 @@ class TestListeningOutputs:
             assert reel.matched and reel.cues[0].setting == "dry"
             assert Path(reel.cues_path).exists()
 
+    @pytest.mark.slow
     def test_sweep_into_writes_page_dry_copies_and_removed(self, swept, tmp_path):
         takes, plan, _, _ = swept
         out = tmp_path / "out"

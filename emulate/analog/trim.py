@@ -158,14 +158,19 @@ def _measure_trimmed(result: ToleranceResult, r3_ohms: np.ndarray) -> BatchMetri
                           for name in ("notch_hz", "depth_db", "oscillation_hz", "in_range")))
 
 
+def _share_within(setting: np.ndarray, reach: float) -> float:
+    """Share of the builds whose trimmer setting lies on its track, 0..reach (one fixed value at a time:
+    a (fixed values x builds) array would grow with the draws)."""
+    return float(np.count_nonzero((setting >= 0) & (setting <= reach))) / len(setting)
+
+
 def _size_trim(needed, r3_scale, share, series):
     """(fixed ohms, trimmer ohms, covered share): the smallest trimmer that covers ``share``."""
     fixed_values = np.array(parts.series_values(series, needed.min() / 4, needed.max()))
     best = None
     for trimmer in TRIMMER_OHMS:
         reach = trimmer * (1 - TRIMMER_TRACK_TOLERANCE)
-        setting = needed[None, :] - fixed_values[:, None] * r3_scale[None, :]
-        coverage = np.mean((setting >= 0) & (setting <= reach), axis=1)
+        coverage = np.array([_share_within(needed - fixed * r3_scale, reach) for fixed in fixed_values])
         i = int(np.argmax(coverage))
         if best is None or coverage[i] > best[2] + 1e-12:
             best = (float(fixed_values[i]), trimmer, float(coverage[i]))

@@ -57,7 +57,7 @@ import soundfile as sf
 
 from emulate.audio import pipeline
 from emulate.audio.encode import PCM_BITS, Encoder, container_bits
-from emulate.errors import AudioFileError, BadValueError, EmulateWarning
+from emulate.errors import AudioFileError, BadValueError, EmulateWarning, OutputRefusedError
 from emulate.files import atomic_path
 from emulate.validate import check_count
 
@@ -377,10 +377,15 @@ def _check_finite(block: np.ndarray, path, first_frame: int) -> None:
         f"{block[frame, channel]}; allowed: finite samples only (nothing written)")
 
 
-def _read_blocks(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
-    """New float64 blocks; integer PCM is read as its codes and converted once, exactly."""
+def _read_blocks(snd: sf.SoundFile, path, block_frames: int, *, kernel: bool = True) -> Iterator[np.ndarray]:
+    """New float64 blocks; integer PCM is read as its codes and converted once, exactly.
+
+    ``kernel`` converts the codes in one numba pass (a render); False converts them with
+    numpy (the same values: an integer times a power of two is exact in float64), so that
+    reading a take for analysis does not load numba.
+    """
     if snd.subtype in PCM_BITS:
-        yield from _read_codes_as_float(snd, path, block_frames)
+        yield from _read_codes_as_float(snd, path, block_frames, kernel)
         return
     done = 0
     while True:
@@ -392,14 +397,16 @@ def _read_blocks(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndar
         yield block
 
 
-def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
-    """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one kernel pass.
+def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: bool) -> Iterator[np.ndarray]:
+    """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one pass.
 
     The codes come left-aligned in int16/int32, so ``code * 2**-(container bits - 1)``
     is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
     """
-    from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
-
+    if kernel:
+        from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
+    else:
+        codes_to_float = _codes_to_float_numpy
     wide = container_bits(PCM_BITS[snd.subtype])
     dtype, scale = ("int16" if wide == 16 else "int32"), 2.0 ** -(wide - 1)
     done = 0
@@ -411,6 +418,11 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int) -> Iterator
         codes_to_float(codes, scale, block)
         done += len(block)
         yield block
+
+
+def _codes_to_float_numpy(codes: np.ndarray, scale: float, out: np.ndarray) -> None:
+    """:func:`emulate.dsp.kernels.codes_to_float` in numpy (two passes, no numba)."""
+    np.multiply(codes, scale, out=out)
 
 
 def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.ndarray]:
@@ -448,7 +460,7 @@ def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.n
     """
     block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
     with _open_read(path) as snd:
-        yield from _read_blocks(snd, path, block_frames)
+        yield from _read_blocks(snd, path, block_frames, kernel=False)  # analysis: no numba
 
 
 # --- processing with latency compensation ------------------------------------------------
@@ -490,24 +502,29 @@ def _processed(blocks: Iterator[np.ndarray], processor, latency: int, channels: 
 # --- writing -----------------------------------------------------------------------------
 @contextmanager
 def _atomic_output(out_path, fmt: str, subtype: str, samplerate: int,
-                   channels: int) -> Iterator[sf.SoundFile]:
+                   channels: int, replace: bool = True) -> Iterator[sf.SoundFile]:
     """A SoundFile on a hidden temporary file beside OUT, moved onto OUT on success.
 
     On any exception (KeyboardInterrupt included) the temporary file is removed and the
-    exception goes on; OUT is untouched (:func:`emulate.files.atomic_path`).
+    exception goes on; OUT is untouched (:func:`emulate.files.atomic_path`). With
+    ``replace=False`` a file that appeared at OUT meanwhile is never replaced.
     """
-    with atomic_path(out_path) as tmp:
-        try:
-            snd = sf.SoundFile(os.fsencode(tmp), "w", samplerate, channels, subtype, format=fmt)
-        except (sf.SoundFileError, OSError) as exc:
-            raise AudioFileError(f"{out_path}: cannot write {fmt} {subtype} at {samplerate} Hz, "
-                                 f"{channels} channel(s) ({exc})") from None
-        try:
-            with snd:
-                yield snd
-        except (sf.SoundFileError, OSError) as exc:  # disk full, quota, I/O error while writing
-            raise AudioFileError(f"{out_path}: writing failed ({_write_reason(exc, out_path)}); "
-                                 "nothing was written") from None
+    try:
+        with atomic_path(out_path, replace=replace) as tmp:
+            try:
+                snd = sf.SoundFile(os.fsencode(tmp), "w", samplerate, channels, subtype, format=fmt)
+            except (sf.SoundFileError, OSError) as exc:
+                raise AudioFileError(f"{out_path}: cannot write {fmt} {subtype} at {samplerate} Hz, "
+                                     f"{channels} channel(s) ({exc})") from None
+            try:
+                with snd:
+                    yield snd
+            except (sf.SoundFileError, OSError) as exc:  # disk full, quota, I/O error while writing
+                raise AudioFileError(f"{out_path}: writing failed ({_write_reason(exc, out_path)}); "
+                                     "nothing was written") from None
+    except FileExistsError:  # replace=False, and another program created OUT while we wrote
+        raise OutputRefusedError(f"{out_path}: appeared while rendering (written by another program) and "
+                                 "was left as it is; nothing was written; pass --force to replace it") from None
 
 
 _LOW_SPACE_BYTES = 1 << 20
@@ -526,7 +543,7 @@ def _write_reason(exc: Exception, out_path) -> str:
 
 
 def _stream(in_path, out_path, processor, subtype, block_frames, progress, dither,
-            dither_seed) -> RenderReport:
+            dither_seed, replace=True) -> RenderReport:
     start = time.perf_counter()
     # 1. check: everything about IN and OUT before any processing
     block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
@@ -548,7 +565,7 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
         encoder = Encoder(out_subtype, dither, dither_seed)
         frames = 0
         # reading (thread), processing and encoding (here), writing (thread) overlap
-        with _atomic_output(out_path, fmt, out_subtype, rate, channels) as dst, \
+        with _atomic_output(out_path, fmt, out_subtype, rate, channels, replace) as dst, \
                 pipeline.read_ahead(_read_blocks(src, in_path, block_frames)) as blocks, \
                 pipeline.write_behind(dst.write) as write:
             # 2. read
@@ -577,7 +594,7 @@ def _report(in_path, out_path, frames, rate, channels, fmt, subtype, latency,
 def render_file(in_path, out_path, processor, *, subtype: str | None = None,
                 block_frames: int = DEFAULT_BLOCK_FRAMES,
                 progress: Callable[[int], object] | None = None,
-                dither_seed: int = 0) -> RenderReport:
+                dither_seed: int = 0, replace: bool = True) -> RenderReport:
     """Stream IN through ``processor`` into OUT, keeping rate, channels and sample format.
 
     The processor follows the plugin API: ``prepare(sample_rate, channels)`` is called
@@ -588,7 +605,9 @@ def render_file(in_path, out_path, processor, *, subtype: str | None = None,
     output get none. Integer output is clipped explicitly to the code range and the
     clipped samples are counted; float output is never clipped (samples over 0 dBFS are
     counted). The result does not depend on ``block_frames``. OUT appears complete or
-    not at all; an existing OUT (not IN) is replaced atomically. Does not resample,
+    not at all; an existing OUT (not IN) is replaced atomically, unless ``replace`` is
+    False: then OUT is created only if nothing is there when the render ends (a file
+    that appeared meanwhile is kept and the render is refused). Does not resample,
     change channel count, or copy metadata tags.
 
     Parameters
@@ -611,6 +630,8 @@ def render_file(in_path, out_path, processor, *, subtype: str | None = None,
         (an increment, so ``click.progressbar(length=frames).update`` fits).
     dither_seed : int, optional
         Seed (>= 0) of the dither generator; the same seed gives the same file.
+    replace : bool, optional
+        Whether an existing OUT may be replaced (default True).
 
     Returns
     -------
@@ -627,6 +648,8 @@ def render_file(in_path, out_path, processor, *, subtype: str | None = None,
     BadValueError
         ``block_frames``, ``dither_seed``, ``progress`` or the processor (its methods,
         its latency, the shape of a block it returns) is not as allowed.
+    OutputRefusedError
+        ``replace`` is False and OUT exists when the render ends (it is left as it is).
     EmulateError
         The processor produced NaN/Inf samples (nothing written).
 
@@ -647,7 +670,7 @@ def render_file(in_path, out_path, processor, *, subtype: str | None = None,
         raise BadValueError("processor must be given; allowed: an object with prepare(), "
                             "process(); use copy_file for a plain copy")
     return _stream(in_path, out_path, processor, subtype, block_frames, progress,
-                   dither=True, dither_seed=dither_seed)
+                   dither=True, dither_seed=dither_seed, replace=replace)
 
 
 def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,

@@ -44,15 +44,24 @@ def _sources(takes):
 def sibilance(takes, band, target, plot_path, force, as_json):
     """Find where one speaker's /s/ and /sh/ sit, over one or more takes."""
     check_plot(plot_path, force)
-    from emulate.voice.sibilance import combine_reports, find_sibilance
-
     options = {"target": target} | ({"search_band_hz": tuple(band)} if band else {})
-    reports = [find_sibilance(source, **options) for source in _sources(takes)]
-    combined = combine_reports(reports, labels=takes) if len(reports) > 1 else reports[0]
+    reports, combined = pooled_sibilance(takes, **options)
     text = summary.sibilance_text(takes, reports, combined)
     if plot_path:
         text += f"\nwrote {_plot_sibilance(reports[0], combined, plot_path)}"
     emit(as_json, summary.sibilance_payload(takes, reports, combined), text)
+
+
+def pooled_sibilance(takes, **options):
+    """The sibilance finder over takes read block by block: each take's report and the pooled one.
+
+    ``options`` go to :func:`emulate.voice.sibilance.find_sibilance` (``target``,
+    ``search_band_hz``); one take's report is its own pooled report.
+    """
+    from emulate.voice.sibilance import combine_reports, find_sibilance
+
+    reports = [find_sibilance(source, **options) for source in _sources(takes)]
+    return reports, (combine_reports(reports, labels=takes) if len(reports) > 1 else reports[0])
 
 
 def _plot_sibilance(first, combined, path):

@@ -41,6 +41,7 @@ COMMAND_MODULES = {
     "sibilance": "finders", "hum": "finders", "resonance": "finders",
     "sweep": "speaker", "preset": "speaker",
     "tolerance": "build", "sheet": "build", "measure": "measure",
+    "batch": "batch",
 }
 
 # the first line of each command's help, for ``emulate --help`` without importing the
@@ -58,6 +59,7 @@ COMMAND_SUMMARY = {
     "tolerance": "Monte Carlo builds and worst-case corners of a circuit, with an R3 trim.",
     "sheet": "Write a build sheet folder: schematic, every part, netlist, responses, tolerances, trim, cautions.",
     "measure": "Measure the built box: write a sweep, record it through the box, analyse the recording.",
+    "batch": "Render every take with its speaker's preset, in parallel; a summary CSV and JSON.",
 }
 
 

@@ -70,7 +70,7 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
     processor = make_processor()
     with progress(info.frames, f"rendering {in_path}") as bar:
         report = audio.render_file(in_path, out_path, processor, progress=bar.update,
-                                   subtype="FLOAT" if as_float else subtype)
+                                   subtype="FLOAT" if as_float else subtype, replace=force)
     payload = report.to_dict() | summary.fidelity_payload(processor.design) | {
                                   "digital_method": processor.design.method,
                                   "build": build, "parts": spec.table_from_network(network)}

@@ -143,6 +143,7 @@ def preset():
 
 @preset.command("save")
 @click.argument("name")
+@click.argument("takes", metavar="[TAKES]...", nargs=-1, type=click.Path(dir_okay=False))
 @click.option("--speaker", required=True, help="who the preset is for (free text)")
 @click.option("--notes", default="", help="free-text notes")
 @circuit_options
@@ -152,15 +153,30 @@ def preset():
 @click.option("--impedance", help="with --notch: level of R1 = R2, ohms")
 @click.option("--from-sweep", type=click.Path(file_okay=False),
               help="save the pick of the sweep in this folder (its summary.json)")
+@click.option("--from-finder", is_flag=True,
+              help="save the notch the sibilance finder suggests for TAKES (pooled over them)")
 @force_option("an existing preset of that name")
-def preset_save(name, speaker, notes, notch, q, series, impedance, from_sweep, force, **options):
-    """Save preset NAME from circuit options, a design target, or a sweep's pick."""
+def preset_save(name, takes, speaker, notes, notch, q, series, impedance, from_sweep, from_finder, force,
+                **options):
+    """Save preset NAME from circuit options, a design target, a sweep's pick, or the finder.
+
+    With --from-finder, the takes (one speaker's) go through the sibilance finder and its
+    suggested notch (frequency, Q, depth) is designed from preferred values and saved.
+    """
     store = store_from(options)
-    sources = [bool(notch), bool(from_sweep), _has_circuit(options)]
+    sources = [bool(notch), bool(from_sweep), bool(from_finder), _has_circuit(options)]
     if sum(sources) != 1:
         raise click.UsageError("give exactly one of: circuit options (--r1 .. or --circuit), "
-                               "--notch (a design target), --from-sweep DIR")
-    if from_sweep:
+                               "--notch (a design target), --from-sweep DIR, --from-finder TAKES...")
+    if from_finder and not takes:
+        raise click.UsageError("--from-finder needs one or more takes: preset save NAME --speaker S "
+                               "--from-finder TAKE...")
+    if takes and not from_finder:
+        raise click.UsageError(f"unexpected argument(s) {' '.join(takes)}: takes are given with --from-finder only")
+    if from_finder:
+        store.check_free(name, force)  # before the finder's work
+        made = _from_finder(takes, series, impedance, options)
+    elif from_sweep:
         made = _from_sweep(from_sweep, options.get("mix"))
     elif notch:
         made = _from_target(notch, q, series, impedance, options)
@@ -188,6 +204,25 @@ def _from_target(notch, q, series, impedance, options) -> dict:
     return {"target": target, "circuit": spec.table_from_network(design.built), "mix": mix,
             "build": _build_note(design),
             "made_by": f"design target: notch {notch} Hz, as built {design.built_metrics.notch_hz:.1f} Hz"}
+
+
+def _from_finder(takes, series, impedance, options) -> dict:
+    """The finder's suggested notch over ``takes``, designed as a ``--notch`` target is."""
+    from emulate.cli.finders import pooled_sibilance
+    from emulate.errors import BadValueError
+    from emulate.voice.notches import PASSIVE_BELOW_Q
+
+    _reports, found = pooled_sibilance(takes)
+    if not found.usable:
+        raise BadValueError(f"the sibilance finder found nothing usable in {len(takes)} take(s) ({found.reason}); "
+                            "nothing was saved; give takes of the speaker with speech in them")
+    q = None if found.suggested_q < PASSIVE_BELOW_Q else round(min(found.suggested_q, 20.0), 3)
+    made = _from_target(f"{found.suggested_notch_hz:.6g}", q, series, impedance, options)
+    if options.get("mix") is None:
+        made["mix"] = round(found.suggested_mix, 3)
+    made["made_by"] = (f"sibilance finder over {len(takes)} take(s): notch {found.suggested_notch_hz:.0f} Hz, "
+                       f"Q {found.suggested_q:.2f}, depth {found.suggested_depth_db:.1f} dB; " + made["made_by"])
+    return made
 
 
 def _build_note(design) -> str:

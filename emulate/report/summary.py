@@ -53,6 +53,28 @@ def json_text(payload) -> str:
     return json.dumps(finite_or_null(payload), indent=2, allow_nan=False, default=str)
 
 
+def rows_as_csv(rows: list[dict]) -> str:
+    """A table as CSV text: a header line, one line per row (floats to 6 digits, None empty).
+
+    Cells holding a comma, a quote or a line break are quoted (RFC 4180).
+
+    Example
+    -------
+    >>> print(rows_as_csv([{"take": "a, b", "db": -1.23456789, "peak": None}]), end="")
+    take,db,peak
+    "a, b",-1.23457,
+    """
+    columns = list(rows[0])
+    lines = [",".join(columns)]
+    lines += [",".join(_csv_cell(row[c]) for c in columns) for row in rows]
+    return "\n".join(lines) + "\n"
+
+
+def _csv_cell(value) -> str:
+    text = "" if value is None else f"{value:.6g}" if isinstance(value, float) else str(value)
+    return '"' + text.replace('"', '""') + '"' if any(c in text for c in ',"\n\r') else text
+
+
 def network_line(network) -> str:
     kind = "passive" if not network.is_active else f"active, bootstrap K = {network.bootstrap:.4g}"
     source = format_value(network.source_ohms, "resistance") if network.source_ohms else "ideal"

@@ -585,11 +585,9 @@ class PresetStore:
             If the preset exists and ``force`` is false, or the folder or file
             cannot be written (nothing is left behind then).
         """
-        path = self._own(preset.name)
+        path = self.check_free(preset.name, force)
         if self.root.exists() and not self.root.is_dir():
             self.check_folder()
-        if os.path.lexists(path) and not force:
-            raise self._exists(preset.name, path)
         if os.path.lexists(path) and not path.is_file():
             raise PresetError(f"{_shown(path)}: is not a regular file; it is never replaced")
         text = preset_to_toml(preset)
@@ -602,6 +600,19 @@ class PresetStore:
             raise self._exists(preset.name, path) from None
         except OSError as exc:
             raise PresetError(f"{_shown(path)}: cannot be written: {exc.strerror or exc}") from None
+        return path
+
+    def check_free(self, name: str, force: bool = False) -> Path:
+        """The file :meth:`save` would write; refuses an existing preset without ``force`` (check before work).
+
+        Raises
+        ------
+        PresetError
+            A bad name, or the preset exists and ``force`` is false.
+        """
+        path = self._own(name)
+        if os.path.lexists(path) and not force:
+            raise self._exists(name, path)
         return path
 
     @staticmethod

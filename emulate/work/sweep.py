@@ -36,7 +36,7 @@ import json
 import math
 import os
 import shutil
-from concurrent.futures import Future, ProcessPoolExecutor
+from concurrent.futures import Future
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
@@ -51,7 +51,7 @@ from emulate.dsp.removed import RemovedPart
 from emulate.analog.design import design_twin_t
 from emulate.errors import BadValueError
 from emulate.analog.response import measure
-from emulate.report.summary import json_text
+from emulate.report.summary import json_text, rows_as_csv
 from emulate.validate import check_count, check_range
 
 __all__ = ["TIE_DB", "MAX_STEPS", "PASSIVE_Q", "Q_STEPS_TOP", "Setting", "MAX_WORKERS", "SweepPlan",
@@ -361,7 +361,7 @@ def _executor(workers: int | None, jobs: int):
     if workers == 1:
         yield _Inline()
         return
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=lifetime.watch_parent)
+    pool = lifetime.WorkerPool(workers)
     try:
         yield pool
     except BaseException:  # Ctrl-C, a signal, a failed job: stop now, not after the jobs in flight
@@ -453,18 +453,6 @@ def pick_setting(rows: list[dict]) -> dict:
               if len(near) > 1 else f"; speech cost {best['intelligibility_cost']:.1%}"))
     return {"setting": best["setting"], "notch_hz": best["notch_hz"],
             "notch_target_hz": best["notch_target_hz"], "q": best["q"], "mix": best["mix"], "reason": why}
-
-
-def rows_as_csv(rows: list[dict]) -> str:
-    """The summary table as CSV text (header line, one line per setting)."""
-    columns = list(rows[0])
-    lines = [",".join(columns)]
-    lines += [",".join(_csv_cell(row[c]) for c in columns) for row in rows]
-    return "\n".join(lines) + "\n"
-
-
-def _csv_cell(value) -> str:
-    return f"{value:.6g}" if isinstance(value, float) else str(value)
 
 
 _PICK_KEYS = ("setting", "notch_target_hz", "reason")
