@@ -4,13 +4,24 @@ Under CI (the CI variable set) hypothesis draws the same examples every run, so 
 submission is judged on a fixed sample; locally it explores new ones each run.
 
 Every test is hermetic: the user's own presets folder and data folder point into the
-test's temporary folder, so no test sees (or writes) what a user saved.
+test's temporary folder, so no test sees (or writes) what a user saved; matplotlib's
+configuration folder (a user's matplotlibrc, its font cache) is a folder of the test
+session's own, so no picture depends on the user's settings. No test uses the network.
 """
 
+import atexit
 import os
+import shutil
+import tempfile
 
 import pytest
 from hypothesis import settings
+
+# before anything imports matplotlib (the doctests of emulate.report do, at collection); the
+# font list is rebuilt once a session, about 0.6 s of CPU
+_MPL_CONFIG = tempfile.mkdtemp(prefix="emulate-tests-mpl-")
+os.environ["MPLCONFIGDIR"] = _MPL_CONFIG
+atexit.register(shutil.rmtree, _MPL_CONFIG, ignore_errors=True)
 
 settings.register_profile("ci", derandomize=True, print_blob=True)
 if os.environ.get("CI"):

@@ -53,6 +53,7 @@ class Case:
     # "interrupt_batch": Ctrl-C lands in a batch as its second take starts
     env: dict = field(default_factory=dict)
     may_keep: tuple[str, ...] = ()  # glob patterns allowed to appear even on failure (complete outputs kept)
+    slow: bool = False  # a whole end-to-end run of seconds: with the slow checks (pytest -m slow)
 
 
 @dataclass
@@ -133,6 +134,7 @@ def make_template(folder) -> Path:
     for name, text in circuits.items():
         (w / name).write_text(text, encoding="utf-8")
     (w / "latin1.toml").write_bytes(b'[circuit]\nr1 = "10k\xff"\n')
+    _measurements(w)
     presets = w / "presets"
     presets.mkdir()
     from emulate.work.presets import Preset, PresetStore
@@ -154,6 +156,22 @@ def make_template(folder) -> Path:
     (w / "renders-old" / "take.wav").write_text("someone's older file\n")
     os.utime(w / "renders-old" / "take.wav", (0, 0))  # older than every take
     return w
+
+
+def _measurements(w: Path) -> None:
+    """A CSV measurement of the PARTS network (emulate's own response), a malformed one, and a
+    recording of a short stimulus through it (no noise, 100 samples of latency)."""
+    from emulate.analog.networks import TwinT
+    from emulate.measuring.stimulus import SweepPlan
+    from emulate.measuring.synthetic import synthetic_recording
+
+    network = TwinT(10e3, 10e3, 5e3, 10e-9, 10e-9, 20e-9)
+    f = np.geomspace(50, 7000, 120)
+    gain = 20 * np.log10(np.abs(network.response(f)) + 1e-6)
+    (w / "m.csv").write_text("Hz,dB\n" + "".join(f"{fi:.3f},{g:.4f}\n" for fi, g in zip(f, gain)))
+    (w / "bad.csv").write_text("Hz,dB\n100,-1\n200,oops\n")
+    plan = SweepPlan(float(FS), 20.0, 7000.0, 1.0)
+    sf.write(w / "rec.wav", synthetic_recording(plan, network, latency_samples=100), FS, subtype="FLOAT")
 
 
 def _cases() -> list[Case]:
@@ -184,7 +202,7 @@ def _cases() -> list[Case]:
         _c("response source negative", f"response {P} --source -5", 1, "source"),
         _c("response load zero", f"response {P} --load 0", 1, "load"),
         _c("response depth pot text", f"response {P} --depth-pot abc", 1, "depth_pot|pot"),
-        _c("response mix and depth", f"response {P} --mix 0.5 --depth -12", 2, "either --mix or --depth"),
+        _c("response mix and depth", f"response {P} --mix 0.5 --depth 12", 2, "either --mix or --depth"),
         _c("response no circuit", "response", 2, "give the circuit"),
         _c("response rate zero", f"response {P} --rate 0", 1, "rate|Hz"),
         _c("response circuit file", "response --circuit {w}/good.toml", 0, "notch"),
@@ -308,6 +326,33 @@ def _cases() -> list[Case]:
         _c("sibilance plot folder missing", "sibilance {w}/take.wav --plot {w}/nofolder/p.png", 1, "nofolder"),
         _c("sibilance plot exists", "sibilance {w}/take.wav --plot {w}/old.png", 1, "already exists"),
         _c("sibilance no takes", "sibilance", 2, "TAKE"),
+        # --- hum ------------------------------------------------------------
+        _c("hum ok", "hum {w}/take.wav", 0, "mains hum"),
+        _c("hum two takes json", "hum {w}/take.wav {w}/take2.wav --json", 0, "pooled"),
+        _c("hum silent", "hum {w}/silent.wav", 0, "no "),
+        _c("hum missing", "hum {w}/nothere.wav", 1, "no such file"),
+        _c("hum truncated flac", "hum {w}/cut.flac", 1, "damaged or cut short"),
+        _c("hum not audio", "hum {w}/notes.wav", 1, "not an audio file"),
+        _c("hum empty", "hum {w}/empty.wav", 1, "empty"),
+        _c("hum plot folder missing", "hum {w}/take.wav --plot {w}/nofolder/p.png", 1, "nofolder"),
+        _c("hum plot exists", "hum {w}/take.wav --plot {w}/old.png", 1, "already exists"),
+        _c("hum plot exists force", "hum {w}/take.wav --plot {w}/old.png --force", 0, "wrote",
+           may_change=("old.png",)),
+        _c("hum no takes", "hum", 2, "TAKE"),
+        # --- resonance ------------------------------------------------------------
+        _c("resonance ok", "resonance {w}/take.wav", 0, "resonance"),
+        _c("resonance two takes json", "resonance {w}/take.wav {w}/take2.wav --json", 0, "pooled"),
+        _c("resonance silent", "resonance {w}/silent.wav", 0, "no "),
+        _c("resonance missing", "resonance {w}/nothere.wav", 1, "no such file"),
+        _c("resonance truncated flac", "resonance {w}/cut.flac", 1, "damaged or cut short"),
+        _c("resonance not audio", "resonance {w}/notes.wav", 1, "not an audio file"),
+        _c("resonance empty", "resonance {w}/empty.wav", 1, "empty"),
+        _c("resonance plot folder missing", "resonance {w}/take.wav --plot {w}/nofolder/p.png", 1, "nofolder"),
+        _c("resonance plot exists", "resonance {w}/take.wav --plot {w}/old.png", 1, "already exists"),
+        _c("resonance plot exists force", "resonance {w}/take.wav --plot {w}/old.png --force", 0, "wrote",
+           may_change=("old.png",)),
+        _c("resonance no takes", "resonance", 2, "TAKE"),
+        _c("hum mains bad", "hum {w}/take.wav --mains 55", 2, "55"),
         # --- sweep --------------------------------------------------------------------------
         _c("sweep ok", f"sweep {{w}}/take.wav {S} --out {{w}}/out", 0, "pick", may_create=sweep_out),
         _c("sweep nested out", f"sweep {{w}}/take.wav {S} --out {{w}}/a/b/out", 0, "pick",
@@ -440,10 +485,10 @@ def _cases() -> list[Case]:
         _c("tolerance plot folder missing", f"tolerance {P} --draws 200 --plot {{w}}/nofolder/p.png", 1, "nofolder"),
         # --- sheet ----------------------------------------------------------------------------
         _c("sheet ok", "sheet --out {w}/sheet --notch 6.3k --draws 200", 0, "wrote",
-           may_create=("sheet", "sheet/*")),
+           may_create=("sheet", "sheet/*"), slow=True),
         _c("sheet non-empty", "sheet --out {w}/busy --notch 6.3k --draws 200", 1, "not empty.*--force"),
         _c("sheet non-empty force", "sheet --out {w}/busy --notch 6.3k --draws 200 --force", 0, "wrote",
-           may_change=("busy", "busy/keep.txt"), may_create=("busy/*",)),
+           may_change=("busy", "busy/keep.txt"), may_create=("busy/*",), slow=True),
         _c("sheet out is a file", "sheet --out {w}/afile --notch 6.3k", 2, "file"),
         _c("sheet parent missing", "sheet --out {w}/nofolder/sheet --notch 6.3k", 1, "does not exist"),
         _c("sheet notch zero", "sheet --out {w}/sheet --notch 0", 1, "notch"),
@@ -512,6 +557,60 @@ def _cases() -> list[Case]:
                      "renders/listening", "renders/listening/a", "renders/listening/a/take.wav--*.wav")),
         _c("batch full disk", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 1,
            "writing failed", inject="disk_full"),
+        # --- measure ----------------------------------------------------------------------------
+        _c("measure stimulus ok", "measure stimulus {w}/sweep.wav --length 1", 0, "hearing",
+           may_create=("sweep.wav",)),
+        _c("measure stimulus exists", "measure stimulus {w}/old.wav --length 1", 1, "already exists.*--force"),
+        _c("measure stimulus exists force", "measure stimulus {w}/old.wav --length 1 --force", 0, "wrote",
+           may_change=("old.wav",)),
+        _c("measure stimulus is a fifo", "measure stimulus {w}/pipe.wav --length 1 --force", 1, "FIFO"),
+        _c("measure stimulus is a folder", "measure stimulus {w}/busy --length 1", 2, "directory|folder"),
+        _c("measure stimulus folder missing", "measure stimulus {w}/nofolder/s.wav --length 1", 1, "nofolder"),
+        _c("measure stimulus unknown container", "measure stimulus {w}/s.xyz --length 1", 1, "xyz|container"),
+        _c("measure stimulus bad subtype", "measure stimulus {w}/s.flac --length 1 --subtype FLOAT", 1,
+           "FLOAT"),
+        _c("measure stimulus peak too high", "measure stimulus {w}/s.wav --peak 3", 1, "peak"),
+        _c("measure stimulus length zero", "measure stimulus {w}/s.wav --length 0", 1, "length"),
+        _c("measure stimulus length nan", "measure stimulus {w}/s.wav --length nan", 1, "length"),
+        _c("measure stimulus above nyquist", "measure stimulus {w}/s.wav --rate 16000 --length 1", 1,
+           "sweep end"),
+        _c("measure stimulus rate text", "measure stimulus {w}/s.wav --rate fast", 2, "rate"),
+        _c("measure stimulus disk full", "measure stimulus {w}/s.wav --length 1", 1, "space|s.wav",
+           inject="disk_full"),
+        _c("measure analyse csv", f"measure analyse {{w}}/m.csv {P} --max-parts 1", 0, "notch"),
+        _c("measure analyse csv json", f"measure analyse {{w}}/m.csv {P} --max-parts 1 --json", 0,
+           '"diagnosis"'),
+        _c("measure analyse recording", f"measure analyse {{w}}/rec.wav {P} --to 7k --length 1 --max-parts 1",
+           0, "latency 100 samples"),
+        _c("measure analyse plot new", f"measure analyse {{w}}/m.csv {P} --max-parts 1 --plot {{w}}/m.svg", 0,
+           "wrote", may_create=("m.svg",)),
+        _c("measure analyse plot exists", f"measure analyse {{w}}/m.csv {P} --plot {{w}}/old.png", 1,
+           "already exists.*--force"),
+        _c("measure analyse plot exists force",
+           f"measure analyse {{w}}/m.csv {P} --max-parts 1 --plot {{w}}/old.png --force", 0, "wrote",
+           may_change=("old.png",)),
+        _c("measure analyse plot suffix", f"measure analyse {{w}}/m.csv {P} --plot {{w}}/m.jpg", 1, "jpg|png"),
+        _c("measure analyse plot disk full", f"measure analyse {{w}}/m.csv {P} --max-parts 1 --plot {{w}}/p.png",
+           1, "space|p.png", inject="disk_full"),
+        _c("measure analyse missing", f"measure analyse {{w}}/nothere.wav {P}", 1, "nothere"),
+        _c("measure analyse not audio", f"measure analyse {{w}}/notes.wav {P}", 1, "notes.wav"),
+        _c("measure analyse too short", f"measure analyse {{w}}/take.wav {P} --to 7k --length 1", 1,
+           "shorter than the stimulus"),
+        _c("measure analyse band above nyquist", f"measure analyse {{w}}/rec.wav {P} --length 1", 1, "sweep end"),
+        _c("measure analyse csv malformed", f"measure analyse {{w}}/bad.csv {P}", 1, "line 3"),
+        _c("measure analyse csv missing", f"measure analyse {{w}}/nothere.csv {P}", 1, "nothere.csv"),
+        _c("measure analyse r-tol text", f"measure analyse {{w}}/m.csv {P} --r-tol abc", 1, "tolerance|abc"),
+        _c("measure analyse max-parts 3", f"measure analyse {{w}}/m.csv {P} --max-parts 3", 2, "max-parts"),
+        _c("measure analyse no circuit", "measure analyse {w}/m.csv", 2, "give the circuit"),
+        # --- hum and resonance ----------------------------------------------------------------
+        _c("hum json", "hum {w}/take.wav --json", 0, '"takes"'),
+        _c("hum missing take", "hum {w}/nothere.wav", 1, "nothere"),
+        _c("hum mains 55", "hum {w}/take.wav --mains 55", 2, "55"),
+        _c("hum plot suffix", "hum {w}/take.wav --plot {w}/h.jpg", 1, "jpg|png"),
+        _c("hum plot new", "hum {w}/take.wav --plot {w}/h.png", 0, "wrote", may_create=("h.png",)),
+        _c("resonance missing take", "resonance {w}/nothere.wav", 1, "nothere"),
+        _c("resonance plot disk full", "resonance {w}/take.wav --plot {w}/r.png", 1, "space|r.png",
+           inject="disk_full"),
         # --- the group ------------------------------------------------------------------------
         _c("unknown command", "frobnicate", 2, "No such command"),
         _c("unknown option", "response --frob", 2, "No such option"),

@@ -30,14 +30,15 @@ class TestResponse:
         # f0 = 1/(2 pi R C) = 1591.549 Hz for 10k/10n (Analog Devices MT-225); the issue asks 0.01 %
         payload = json.loads(run("response", *BALANCED, "--json").output)
         assert payload["notch_hz"] == pytest.approx(1591.549430919, rel=1e-4)
-        assert payload["depth_db"] < -80
+        assert payload["notch_gain_db"] < -80 and payload["depth_below_passband_db"] > 80
+        assert "depth_db" not in payload  # a depth is positive dB of cut; the signed figure is a gain
         assert payload["q"] == pytest.approx(0.25, rel=1e-6)
 
     def test_all_equal_parts_give_a_shallow_dip(self):
         # common practice, no source: all parts 10k/10n give only about -12 dB near 1.6 kHz
         args = ["--r1", "10k", "--r2", "10k", "--r3", "10k", "--c1", "10n", "--c2", "10n", "--c3", "10n"]
         payload = json.loads(run("response", *args, "--json").output)
-        assert payload["depth_db"] == pytest.approx(-12.0, abs=0.5)
+        assert payload["depth_below_passband_db"] == pytest.approx(12.0, abs=0.5)
         assert 1400 < payload["notch_hz"] < 1800
         assert any("unbalanced" in w for w in payload["warnings"])
 
@@ -53,7 +54,7 @@ class TestResponse:
         path.write_text('[circuit]\nr1 = "10k"\nr2 = "10k"\nr3 = "5k"\nc1 = "10n"\nc2 = "10n"\nc3 = "20n"\n')
         base = json.loads(run("response", "--circuit", path, "--json").output)
         changed = json.loads(run("response", "--circuit", path, "--r3", "10k", "--json").output)
-        assert base["depth_db"] < -80 and changed["depth_db"] > -20
+        assert base["depth_below_passband_db"] > 80 and changed["depth_below_passband_db"] < 20
 
     @pytest.mark.parametrize("args, match", [
         (["--r1", "-10k"], "r1"),
@@ -139,6 +140,7 @@ class TestRender:
 class TestPlots:
     """--plot writes a PNG wherever a picture helps (PNG signature per ISO/IEC 15948)."""
 
+    @pytest.mark.slow
     def test_response_plot(self, tmp_path):
         result = run("response", *BALANCED, "--plot", tmp_path / "r.png")
         assert result.exit_code == 0, result.output
@@ -154,17 +156,24 @@ class TestPlots:
 class TestDepthOption:
     @pytest.mark.parametrize("extra", [[], ["--depth-pot", "10k"]])
     def test_depth_sets_the_control(self, extra):
-        # an exact null mixed with dry: depth = 20 log10(1 - mix), so -12 dB needs mix 0.749 (common practice)
-        payload = json.loads(run("response", *BALANCED, "--depth", "-12", *extra, "--json").output)
-        assert payload["depth_db"] == pytest.approx(-12.0, abs=0.01)
+        # an exact null mixed with dry: gain at the notch = 20 log10(1 - mix), so 12 dB of cut needs
+        # mix 0.749 (common practice)
+        payload = json.loads(run("response", *BALANCED, "--depth", "12", *extra, "--json").output)
+        assert payload["notch_gain_db"] == pytest.approx(-12.0, abs=0.01)
         assert payload["mix"] == pytest.approx(1 - 10 ** (-12 / 20), abs=1e-3)
 
+    @pytest.mark.slow
     def test_depth_beyond_reach(self):
         args = ["--r1", "10k", "--r2", "10k", "--r3", "10k", "--c1", "10n", "--c2", "10n", "--c3", "10n"]
-        assert_one_line_error(run("response", *args, "--depth", "-20"), "deeper than this network")
+        assert_one_line_error(run("response", *args, "--depth", "20"), "20 dB of cut is deeper than this network")
 
     def test_mix_and_depth_together(self):
-        assert_one_line_error(run("response", *BALANCED, "--depth", "-6", "--mix", "0.5"), "not both")
+        assert_one_line_error(run("response", *BALANCED, "--depth", "6", "--mix", "0.5"), "not both")
+
+    @pytest.mark.parametrize("value", ["-12", "0", "nan"])
+    def test_regression_depth_is_positive_db_of_cut(self, value):
+        # issue 11: one sign convention; a depth is positive dB of cut, never a negative gain
+        assert_one_line_error(run("response", *BALANCED, "--depth", value), "allowed a positive number of dB of cut")
 
 
 class TestFileSystemRefusals:

@@ -47,7 +47,9 @@ def listed_files(payload) -> list[str]:
     return paths
 
 
+@pytest.mark.slow  # every test here shares one long run (a module fixture)
 class TestDemoCommand:
+    @pytest.mark.slow
     def test_json_names_what_it_wrote(self, demo_json):
         out, payload = demo_json
         assert [t["speaker"] for t in payload["takes"]] == ["orrin", "tamsin"]
@@ -79,6 +81,7 @@ class TestDemoCommand:
             full = next(r for r in take["renders"] if r["mix"] == 1.0)
             assert full["sibilance_reduction_db"] > 3.0  # a notch on the hosts' /s/ (invented)
 
+    @pytest.mark.slow
     def test_text_lists_the_files_and_the_hearing_caution(self, tmp_path):
         text = run_demo(tmp_path)
         assert summary.LISTENING_CAUTION in " ".join(text.split())

@@ -175,7 +175,9 @@ def grid_designs():
     return [design_twin_t(f) for f in GRID_HZ]
 
 
+@pytest.mark.slow  # every test here shares one long run (a module fixture)
 class TestBruteForceReference:
+    @pytest.mark.slow
     def test_at_least_as_good_as_exhaustion_everywhere(self, grid_designs):
         # the search may not lose to the brute-force single-part pair anywhere; 1e-4 is the
         # rank step within which errors count as equal (ERROR_STEP)

@@ -24,7 +24,8 @@ def test_the_matrix_is_large_enough():
 
 
 class TestFaultMatrix:
-    @pytest.mark.parametrize("case", CASES, ids=[case.name for case in CASES])
+    @pytest.mark.parametrize("case", [pytest.param(case, marks=pytest.mark.slow if case.slow else (), id=case.name)
+                                      for case in CASES])
     def test_case(self, case, template, tmp_path):
         outcome = run_case(case, template, tmp_path / "w")
         assert not outcome.traceback, outcome.output

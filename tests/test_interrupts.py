@@ -244,3 +244,23 @@ class TestDemoInterrupted:
         again = start(["demo", "--out", tmp_path / "demo", "--seconds", "1"], tmp_path)
         assert again.wait(timeout=120) == 0
         assert temporaries(tmp_path) == [] and (tmp_path / "demo" / "takes").is_dir()
+
+
+class TestMeasureStimulusInterrupted:
+    ARGS = ["measure", "stimulus", "sweep.wav", "--rate", "192000", "--length", "120", "--subtype", "FLOAT"]
+
+    @pytest.mark.parametrize("name,group", STOPS)
+    def test_stop_leaves_nothing(self, tmp_path, name, group):
+        process = start(self.ARGS, tmp_path)
+        assert wait_for(lambda: temporaries(tmp_path) or process.poll() is not None)
+        code, err = stop(process, name, group)
+        assert_stopped_cleanly(code, err, tmp_path / "sweep.wav", tmp_path)
+
+    def test_kill_9_then_the_next_run_cleans_up(self, tmp_path):
+        process = start(self.ARGS, tmp_path)
+        assert wait_for(lambda: temporaries(tmp_path) or process.poll() is not None)
+        process.kill()
+        process.communicate(timeout=60)
+        again = start(["measure", "stimulus", "sweep.wav", "--length", "1", "--force"], tmp_path)
+        assert again.wait(timeout=120) == 0
+        assert temporaries(tmp_path) == [] and (tmp_path / "sweep.wav").exists()

@@ -16,7 +16,7 @@ import pytest
 
 from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.errors import AudioFileError, BadValueError
-from emulate.measuring.analyse import band_metrics, deconvolve, read_csv
+from emulate.measuring.analyse import MeasuredResponse, band_metrics, deconvolve, read_csv
 from emulate.measuring.fit import diagnose
 from emulate.measuring.stimulus import SweepPlan
 from emulate.measuring.synthetic import perturbed, synthetic_recording
@@ -51,6 +51,7 @@ class TestSweepPlan:
 
 
 class TestDeconvolve:
+    @pytest.mark.slow
     @pytest.mark.parametrize("network", [PASSIVE, ACTIVE], ids=["passive", "active"])
     def test_recovers_response_and_notch(self, network):
         built = perturbed(network, {"c3": 0.04})
@@ -114,6 +115,7 @@ def _case(network, errors, seed):
 
 
 class TestDiagnose:
+    @pytest.mark.slow
     @pytest.mark.parametrize("errors", [{"c3": 0.04}, {"r1": -0.06}], ids=["C3 +4 %", "R1 -6 %"])
     def test_names_one_part(self, errors):
         d = _case(PASSIVE, errors, 0)
@@ -121,12 +123,14 @@ class TestDiagnose:
         name, error = next(iter(errors.items()))
         assert d.parts_off[name] == pytest.approx(error, abs=0.005)
 
+    @pytest.mark.slow
     def test_trim_restores_the_null(self):
         d = _case(PASSIVE, {"c3": 0.05}, 1)
         assert perturbed(PASSIVE, {"c3": 0.05}).replace(r3=d.trim_r3_ohms).null_mismatch() == \
             pytest.approx(0.0, abs=0.003)  # the fitted C3 is within 0.3 %
         assert "set the R3 trimmer to" in d.text()
 
+    @pytest.mark.slow
     def test_build_as_designed(self):
         d = _case(PASSIVE, {}, 2)
         assert d.parts_off == {} and "no part stands out" in d.text()
@@ -137,6 +141,31 @@ class TestDiagnose:
                                         {"c3": -0.06, "c1": 0.025}, {"r3": -0.09, "c2": -0.03}])
     def test_names_parts_slow_set(self, network, errors):
         assert set(_case(network, errors, 3).parts_off) == set(errors)
+
+    @pytest.mark.parametrize("delay_s,polarity", [(0.0, 1), (31e-6, 1), (4e-4, -1)],
+                             ids=["as measured", "1.5 samples late", "inverted, 0.4 ms late"])
+    def test_phase_used_whatever_the_delay_and_polarity(self, delay_s, polarity):
+        # an analyser's table (CSV) with phase: the fit takes the delay and polarity out
+        f = np.geomspace(60, 15000, 600)
+        h = polarity * perturbed(PASSIVE, {"c3": 0.04}).response(f) * np.exp(-2j * np.pi * f * delay_s)
+        d = diagnose(PASSIVE, MeasuredResponse(f, 20 * np.log10(np.abs(h)), np.degrees(np.angle(h))),
+                     TOLERANCES, max_parts=1)
+        assert d.used_phase and d.parts_off == pytest.approx({"c3": 0.04}, abs=0.002)
+
+    def test_phase_another_way_falls_back_to_the_gain(self):
+        # a phase written some other way (here: noise) is not trusted; the gain alone still names C3
+        f = np.geomspace(60, 15000, 600)
+        h = perturbed(PASSIVE, {"c3": 0.04}).response(f)
+        noise = np.random.default_rng(0).uniform(-180, 180, len(f))
+        d = diagnose(PASSIVE, MeasuredResponse(f, 20 * np.log10(np.abs(h)), noise), TOLERANCES, max_parts=1)
+        assert not d.used_phase and set(d.parts_off) == {"c3"}
+
+    @pytest.mark.slow
+    def test_regression_input_and_output_halves_told_apart(self):
+        # R1 and C1 both low fit the gain as well as R2 and C2 both low (under -80 dBFS noise, a
+        # 2 s sweep); the phase tells them apart (bench_realbox seed 2026, case 33)
+        errors = {"c1": -0.093, "r1": -0.067}
+        assert set(_case(ACTIVE, errors, 4).parts_off) == set(errors)
 
     def test_bad_tolerance(self):
         m = deconvolve(synthetic_recording(PLAN, PASSIVE), PLAN)

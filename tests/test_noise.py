@@ -127,6 +127,18 @@ class TestLevelPlan:
         plan = level_plan(TwinT.balanced(5000.0, r_ohms=10e3, bootstrap=0.75), OpAmp.parse("general-purpose"), 18.0)
         assert plan.limiting.slew_headroom_db < 0 < plan.limiting.headroom_db
 
+    def test_regression_a_heavy_load_takes_swing_from_the_output_follower(self):
+        # issue 11: --load on an active network did nothing. The follower drives it: V = I R
+        # (Ohm's law) caps the swing at the op-amp's output current times the load
+        net = TwinT.balanced(5000.0, r_ohms=10e3, bootstrap=0.75)
+        amp = OpAmp.parse("jfet")
+        light = level_plan(net, amp, 4.0)
+        heavy = level_plan(net.replace(load_ohms=100.0), amp, 4.0)
+        buf = next(s for s in heavy.stages if s.node == "buf")
+        assert "into 100 ohm" in buf.role and heavy.warnings and "current limit" in heavy.warnings[0]
+        assert buf.headroom_db == pytest.approx(20 * math.log10(amp.max_current_a * 100.0 / buf.peak_v))
+        assert heavy.headroom_db < light.headroom_db - 10
+
     def test_cmos_clips_at_studio_level(self):
         plan = level_plan(TwinT.balanced(5000.0, r_ohms=10e3), OpAmp.parse("rail-to-rail-cmos"), 22.0)
         assert plan.headroom_db < 0

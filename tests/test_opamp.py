@@ -41,6 +41,12 @@ class TestOpAmpParse:
             8e6, 20e6, 12.0, (11.0, -11.0), pytest.approx(9e-9))
         assert amp.a0 == pytest.approx(10 ** 5.5)
 
+    def test_output_current_caps_the_swing_into_a_heavy_load(self):
+        # Ohm's law: 40 mA into 100 ohm is 4 V peak, under the 13.5 V swing; a light load keeps the swing
+        amp = OpAmp.parse("jfet,imax=40m")
+        assert amp.max_current_a == pytest.approx(0.04)
+        assert amp.peak_into(100.0) == pytest.approx(4.0) and amp.peak_into(10e3) == amp.peak_v
+
     def test_custom_starts_from_general_purpose(self):
         assert OpAmp.parse("custom,en=4n").gbw_hz == CLASSES["general-purpose"].gbw_hz
 

@@ -87,6 +87,7 @@ class TestToleranceTemperature:
 
 
 class TestSheetLevels:
+    @pytest.mark.slow
     def test_sections(self, tmp_path):
         result = run("sheet", *ACTIVE, "--draws", "200", "--out", tmp_path / "s", "--level", "4")
         assert result.exit_code == 0, result.output
@@ -95,6 +96,7 @@ class TestSheetLevels:
 
 
 class TestMeasure:
+    @pytest.mark.slow
     def test_stimulus_then_analyse(self, tmp_path):
         stimulus = tmp_path / "stim.wav"
         result = run("measure", "stimulus", stimulus, "--length", "1", "--rate", "48000")
@@ -111,6 +113,7 @@ class TestMeasure:
         assert payload["latency_samples"] == pytest.approx(300, abs=2)
         assert (tmp_path / "m.png").stat().st_size > 10000
 
+    @pytest.mark.slow
     def test_csv(self, tmp_path):
         f = np.geomspace(50, 15000, 200)
         net = TwinT(10e3, 10e3, 5e3, 10e-9, 10e-9, 20e-9)

@@ -65,6 +65,15 @@ class TestRealBoxProcessor:
         assert np.max(np.abs(y)) * box.volts_per_unit == pytest.approx(amp.peak_v, rel=1e-3)
         assert box.hits()["rail_hits"] > 0
 
+    def test_output_stage_into_a_heavy_load(self):
+        # 20 mA into 150 ohm: 3 V peak (Ohm's law), below the 13.5 V swing; the input stage keeps its swing
+        amp = OpAmp.parse("jfet")
+        box = RealBoxProcessor(processor_for(NET), amp, 18.0, load_ohms=150.0)
+        box.prepare(48000, 1)
+        y = box.process(0.9 * np.sin(2 * np.pi * 100 * np.arange(4800) / 48000)[:, None])
+        assert np.max(np.abs(y)) * box.volts_per_unit == pytest.approx(3.0, rel=1e-3)
+        assert box.hits()["output_rail_hits"] > 0 and box.hits()["input_rail_hits"] == 0
+
     def test_noise_density(self):
         # the added noise has the density asked for: 20 nV/rtHz flat, Welch estimate within 0.5 dB
         density = 20e-9

@@ -83,7 +83,9 @@ class TestMeasure:
 
     def test_as_dict(self):
         m = measure(analog_notch(1000.0, 1.0))
-        assert set(m.as_dict()) == set(NotchMetrics.__dataclass_fields__)
+        # one sign convention (issue 11): the signed figure goes out as a gain, never as a "depth"
+        assert set(m.as_dict()) == set(NotchMetrics.__dataclass_fields__) - {"depth_db"} | {"notch_gain_db"}
+        assert m.as_dict()["notch_gain_db"] == m.depth_db < 0 < m.as_dict()["depth_below_passband_db"]
         assert all(isinstance(v, float) for k, v in m.as_dict().items() if k != "in_range")
         assert m.as_dict()["in_range"] is True
 

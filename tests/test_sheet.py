@@ -108,6 +108,7 @@ class TestSheetCommand:
         from emulate.cli import main
         return CliRunner().invoke(main, ["sheet", *map(str, args)])
 
+    @pytest.mark.slow
     def test_design_target_writes_a_sheet(self, tmp_path):
         result = self.run("--out", tmp_path / "s", "--notch", "6.3k", "--draws", "300")
         assert result.exit_code == 0, result.output
@@ -141,6 +142,7 @@ def shipped_presets():
 
 
 class TestEveryShippedPreset:
+    @pytest.mark.slow
     @pytest.mark.parametrize("preset", shipped_presets(), ids=lambda p: p.name)
     def test_sheet_names_every_part(self, preset, tmp_path):
         from emulate.analog.makeup import buyable
@@ -173,6 +175,7 @@ class TestEveryShippedPreset:
 
 
 class TestDividerOnTheSheet:
+    @pytest.mark.slow
     def test_k_and_its_tolerance_effect(self, tmp_path):
         network = NET.replace(bootstrap=0.75)
         md = (sheet.write_sheet(tmp_path / "s", network, tolerances=TOL) / "sheet.md").read_text()
@@ -186,6 +189,7 @@ class TestDividerOnTheSheet:
 
 
 class TestSheetJson:
+    @pytest.mark.slow
     def test_parts_and_trim(self, tmp_path):
         import json
 
@@ -202,6 +206,7 @@ class TestSheetJson:
 
 
 class TestHumSheet:
+    @pytest.mark.slow
     def test_a_missed_hum_target_is_a_design_note_and_cautions_stay_once(self, tmp_path):
         design = design_twin_t(50.0, q=20.0)
         assert not design.meets_hum_cut  # one part a position cannot reach 30 dB at 50 Hz, Q 20

@@ -106,6 +106,7 @@ class TestSibilance:
 
 
 class TestSweep:
+    @pytest.mark.slow
     def test_json_end_to_end(self, swept, takes):
         out, payload = swept
         assert payload["plan"]["notches_hz"] == [3000.0, 6000.0, 12000.0]
@@ -115,6 +116,7 @@ class TestSweep:
         assert (out / "summary.csv").is_file()
         assert json.loads((out / "summary.json").read_text())["pick"] == payload["pick"]
 
+    @pytest.mark.slow
     def test_text_with_from_to(self, takes, tmp_path):
         result = run("sweep", takes[0], "--from", "4k", "--to", "8k", "--steps", 2, "--out", tmp_path,
                      "--workers", 1)
@@ -155,6 +157,7 @@ class TestPresetSave:
         assert balanced_notch_hz(values.r1, values.c1) == pytest.approx(7200, rel=0.05)
         assert 0 < values.bootstrap < 1  # Q 1 needs the active network
 
+    @pytest.mark.slow
     def test_from_sweep(self, swept, tmp_path):
         out, payload = swept
         result = run("preset", "save", "host-c", "--speaker", "Host C", "--from-sweep", out,
@@ -166,6 +169,7 @@ class TestPresetSave:
         shown = json.loads(run("preset", "show", "host-c", "--presets", tmp_path, "--json").output)
         assert shown["metrics"]["notch_hz"] == pytest.approx(payload["pick"]["notch_hz"], rel=1e-9)
 
+    @pytest.mark.slow
     def test_from_a_q_sweep_keeps_the_picked_q(self, takes, tmp_path):
         out = tmp_path / "qsweep"
         swept = run("sweep", takes[0], "--at", "6k", "--q-steps", 2, "--q", 1, "--out", out, "--workers", 1, "--json")
@@ -304,6 +308,7 @@ class TestRenderWithPreset:
 
 
 class TestSweepFromPreset:
+    @pytest.mark.slow
     def test_holds_what_the_preset_holds(self, tmp_path):
         # the shipped active preset: K = 0.75 gives Q = 1/(4(1-K)) = 1 (Analog Devices MT-225)
         shipped = Path(emulate.__file__).resolve().parent.parent / "presets"

@@ -103,6 +103,7 @@ class TestBootstrapMargin:
 
 
 class TestSheetMarginLine:
+    @pytest.mark.slow
     def test_sheet_warns_with_the_margin(self, tmp_path):
         # Regression (issue 10, defect 5): the build sheet of an active network states how far K
         # may rise before it oscillates (1 - K for the balanced network, MT-225).

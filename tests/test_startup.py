@@ -81,6 +81,8 @@ class TestImportsPerCommand:
         sf.write(take, 0.1 * np.sin(2 * np.pi * 6000 * np.arange(4800) / 48000), 48000)
         modules = loaded_modules(["sibilance", str(take)], tmp_path)
         assert "emulate.work.sweep" not in modules and not under(modules, "matplotlib")
+        # a 16-bit take read for analysis converts its codes in numpy: no numba (about 0.6 s to start)
+        assert not under(modules, "numba")
 
 
     @pytest.mark.slow  # a whole batch in a fresh interpreter: over 2 s on a loaded machine

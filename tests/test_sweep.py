@@ -165,6 +165,7 @@ class TestRunSweep:
         best = max(result.rows, key=lambda r: r["relative_reduction_db"])
         assert best["notch_target_hz"] == PLANTED_HZ
 
+    @pytest.mark.slow
     @pytest.mark.parametrize("planted_hz", [4800.0, 7200.0])
     def test_pick_follows_the_planted_frequency(self, tmp_path, planted_hz):
         # The demo hosts' /s/ (invented): settings a half-octave apart, one near each.
@@ -175,6 +176,7 @@ class TestRunSweep:
         nearest = min(plan.notches_hz, key=lambda f: abs(math.log(f / planted_hz)))
         assert result.pick["notch_target_hz"] == nearest
 
+    @pytest.mark.slow
     def test_one_and_two_workers_agree(self, swept, tmp_path):
         takes, plan, result, _ = swept
         again = sweep.run_sweep(takes, plan, tmp_path / "out", workers=2)
@@ -327,6 +329,7 @@ class TestListeningOutputs:
             assert reel.matched and reel.cues[0].setting == "dry"
             assert Path(reel.cues_path).exists()
 
+    @pytest.mark.slow
     def test_sweep_into_writes_page_dry_copies_and_removed(self, swept, tmp_path):
         takes, plan, _, _ = swept
         out = tmp_path / "out"

@@ -4,7 +4,9 @@ A sine of ``level_dbu`` at the source is swept over the audio band; at every nod
 an op-amp drives (and at the network's inner nodes) the peak voltage is
 ``sqrt(2) * V_rms(level) * max_f |H_node(f)|``, reached at the worst frequency.
 Its headroom is the op-amp's symmetric swing (at its rated load) over that peak,
-in dB; the slew headroom is the slew rate over the steepest slope the stage must
+in dB; the stage that drives the load (the output follower of an active network)
+has the swing it holds into that load (:meth:`OpAmp.peak_into`: a heavy load
+draws the op-amp's output current limit before the swing is reached); the slew headroom is the slew rate over the steepest slope the stage must
 follow, ``max_f 2 pi f V_peak |H_node(f)|`` (a sine's largest slope). The
 limiting stage is the one with the least headroom.
 
@@ -33,6 +35,7 @@ __all__ = [
     "StageLevel",
     "full_scale_dbu",
     "level_plan",
+    "load_stage",
     "warn_plan",
 ]
 
@@ -151,27 +154,39 @@ def level_plan(network, opamp: OpAmp, level_dbu: float, *, band_hz=AUDIO_BAND_HZ
     circuit, _ = network.circuit()
     f_hz = np.geomspace(band_hz[0], band_hz[1], _GRID_POINTS)
     v_peak = math.sqrt(2) * dbu_to_volts_rms(level_dbu)
+    loaded = load_stage(network)
     nodes = [(n, role, True) for n, role in network.opamp_outputs().items()]
     nodes += [(n, role, False) for n, role in INNER_NODES.items()]
-    stages = tuple(_stage(circuit, node, role, driven, f_hz, v_peak, opamp) for node, role, driven in nodes)
-    return LevelPlan(float(level_dbu), opamp, stages, tuple(_load_warnings(network, opamp)))
+    stages = []
+    for node, role, driven in nodes:
+        swing = opamp.peak_into(network.load_ohms) if node == loaded else opamp.peak_v
+        if node == loaded:
+            role += f" into {network.load_ohms:g} ohm"
+        stages.append(_stage(circuit, node, role, driven, f_hz, v_peak, opamp, swing))
+    return LevelPlan(float(level_dbu), opamp, tuple(stages), tuple(_load_warnings(network, opamp)))
 
 
-def _stage(circuit, node, role, driven, f_hz, v_peak, opamp) -> StageLevel:
+def load_stage(network) -> str | None:
+    """The op-amp output the load hangs on (an active network's output follower), else None."""
+    return "buf" if network.is_active and math.isfinite(network.load_ohms) else None
+
+
+def _stage(circuit, node, role, driven, f_hz, v_peak, opamp, swing_v) -> StageLevel:
     magnitude = np.abs(circuit.response(f_hz, node))
     i = int(np.argmax(magnitude))
     peak = v_peak * magnitude[i]
     slope = np.max(2 * np.pi * f_hz * v_peak * magnitude)
     return StageLevel(node, role, driven, float(peak), float(f_hz[i]),
-                      float(20 * np.log10(opamp.peak_v / max(peak, 1e-30))),
+                      float(20 * np.log10(swing_v / max(peak, 1e-30))),
                       float(20 * np.log10(opamp.slew_v_per_s / max(slope, 1e-30))))
 
 
 def _load_warnings(network, opamp) -> list[str]:
     found = []
-    if network.is_active and network.load_ohms < opamp.swing_load_ohms:
-        found.append(f"load {network.load_ohms:g} ohm is heavier than the {opamp.swing_load_ohms:g} ohm "
-                     f"the {opamp.name} swing is rated at: expect less swing than planned")
+    if load_stage(network) is not None and opamp.peak_into(network.load_ohms) < opamp.peak_v:
+        found.append(f"load {network.load_ohms:g} ohm draws the {opamp.name} output follower into its "
+                     f"{opamp.max_current_a * 1e3:g} mA current limit: it swings "
+                     f"{opamp.peak_into(network.load_ohms):.2f} V peak instead of {opamp.peak_v:.2f} V")
     return found
 
 

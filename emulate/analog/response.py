@@ -33,6 +33,9 @@ _EDGE_RATIO = 1 / math.sqrt(2)  # -3.01 dB
 _PASSBAND_SPAN = 1e6  # passband read this far below and above the notch
 
 
+_JSON_NAMES = {"depth_db": "notch_gain_db"}
+
+
 @dataclass(frozen=True)
 class NotchMetrics:
     """What a notch does, source voltage to load voltage.
@@ -64,7 +67,9 @@ class NotchMetrics:
     in_range: bool = True
 
     def as_dict(self) -> dict[str, float]:
-        return {name: (bool if name == "in_range" else float)(getattr(self, name))
+        """Every figure for JSON; ``depth_db`` goes out as ``notch_gain_db`` (a signed gain: in text,
+        JSON, CSV and plots a *depth* is always positive dB of cut, ``depth_below_passband_db``)."""
+        return {_JSON_NAMES.get(name, name): (bool if name == "in_range" else float)(getattr(self, name))
                 for name in self.__dataclass_fields__}
 
 
@@ -230,7 +235,8 @@ def check_twin_t(network, metrics: NotchMetrics) -> list[EmulateWarning]:
     if network.is_active and np.all(np.isfinite(network.load_ohms)):
         found.append(EmulateWarning(
             f"load {_ohms(network.load_ohms)} is driven by the active network's output follower: it does not "
-            "change the response here (an ideal follower; the op-amp's own output limits are not modelled)"))
+            "change the response (the follower's output resistance is tiny); what it costs is swing, the "
+            "op-amp's output current limit: see the level plan (--level DBU [--opamp CLASS])"))
     if network.source_ohms > SOURCE_FACTOR * network.r3:
         found.append(EmulateWarning(
             f"source {_ohms(network.source_ohms)} is over {SOURCE_FACTOR:.0%} of R3 = {_ohms(network.r3)}: "

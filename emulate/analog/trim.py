@@ -19,7 +19,8 @@ import numpy as np
 
 from emulate.analog import parts
 from emulate.analog.networks import PART_NAMES
-from emulate.analog.tolerance import ToleranceResult, builds, measure_builds, search_band_hz
+from emulate.analog.tolerance import (CHUNK_DRAWS, BatchMetrics, ToleranceResult, builds, measure_builds,
+                                      search_band_hz)
 from emulate.validate import check_range
 
 __all__ = ["TrimSuggestion", "suggest_trim", "r3_for_null", "fixed_and_trimmer", "TRIMMER_OHMS",
@@ -135,9 +136,7 @@ def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, 
     r3_scale = 1.0 + result.deviation[:, PART_NAMES.index("r3")]
     fixed, trimmer, covered = _size_trim(needed, r3_scale, share, series)
     setting = np.clip(needed - fixed * r3_scale, 0.0, trimmer * (1 - TRIMMER_TRACK_TOLERANCE))
-    trimmed = batch.replace(r3=fixed * r3_scale + setting + 0.5 * resolution * trimmer)
-    measured = measure_builds(trimmed, search_band_hz(result.nominal_notch_hz, result.tolerances),
-                              result.nominal_notch_hz)
+    measured = _measure_trimmed(result, fixed * r3_scale + setting + 0.5 * resolution * trimmer)
     kept = measured.in_range & ~measured.oscillating
     tail = (1 - share) / 2
     need = needed - fixed * r3_scale
@@ -147,14 +146,31 @@ def suggest_trim(result: ToleranceResult, *, share: float = DEFAULT_TRIM_SHARE, 
                           result.percentiles(measured.notch_hz, where=kept))
 
 
+def _measure_trimmed(result: ToleranceResult, r3_ohms: np.ndarray) -> BatchMetrics:
+    """Every build with its trimmed R3, measured ``CHUNK_DRAWS`` at a time (memory flat in the draws)."""
+    band = search_band_hz(result.nominal_notch_hz, result.tolerances)
+    found = []
+    for start in range(0, len(r3_ohms), CHUNK_DRAWS):
+        chunk = slice(start, start + CHUNK_DRAWS)
+        trimmed = builds(result.nominal, result.deviation[chunk]).replace(r3=r3_ohms[chunk])
+        found.append(measure_builds(trimmed, band, result.nominal_notch_hz))
+    return BatchMetrics(*(np.concatenate([getattr(m, name) for m in found])
+                          for name in ("notch_hz", "depth_db", "oscillation_hz", "in_range")))
+
+
+def _share_within(setting: np.ndarray, reach: float) -> float:
+    """Share of the builds whose trimmer setting lies on its track, 0..reach (one fixed value at a time:
+    a (fixed values x builds) array would grow with the draws)."""
+    return float(np.count_nonzero((setting >= 0) & (setting <= reach))) / len(setting)
+
+
 def _size_trim(needed, r3_scale, share, series):
     """(fixed ohms, trimmer ohms, covered share): the smallest trimmer that covers ``share``."""
     fixed_values = np.array(parts.series_values(series, needed.min() / 4, needed.max()))
     best = None
     for trimmer in TRIMMER_OHMS:
         reach = trimmer * (1 - TRIMMER_TRACK_TOLERANCE)
-        setting = needed[None, :] - fixed_values[:, None] * r3_scale[None, :]
-        coverage = np.mean((setting >= 0) & (setting <= reach), axis=1)
+        coverage = np.array([_share_within(needed - fixed * r3_scale, reach) for fixed in fixed_values])
         i = int(np.argmax(coverage))
         if best is None or coverage[i] > best[2] + 1e-12:
             best = (float(fixed_values[i]), trimmer, float(coverage[i]))

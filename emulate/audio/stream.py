@@ -69,6 +69,7 @@ __all__ = [
     "render_file",
     "copy_file",
     "output_format",
+    "check_out_format",
     "check_out_path",
     "read_all",
     "write_array",
@@ -219,6 +220,26 @@ def _check_subtype(out_path, fmt: str, subtype: str, kept: bool) -> str:
     return subtype
 
 
+def check_out_format(out_path, subtype: str) -> tuple[str, str]:
+    """Refuse an OUT that could not be written, before any work; return (format, subtype).
+
+    Raises
+    ------
+    AudioFileError
+        OUT is a folder, its folder is missing or not writable, its extension names no
+        writable container, or the container cannot hold ``subtype``.
+
+    Example
+    -------
+    >>> import tempfile, os
+    >>> check_out_format(os.path.join(tempfile.mkdtemp(), "sweep.flac"), "pcm_24")
+    ('FLAC', 'PCM_24')
+    """
+    _check_out_folder(out_path)
+    fmt = output_format(out_path)
+    return fmt, _check_subtype(out_path, fmt, subtype, kept=False)
+
+
 def check_out_path(in_path, out_path) -> None:
     """Raise AudioFileError if OUT is IN, is a folder, or lies in a missing or read-only folder."""
     _check_out_path(in_path, out_path)
@@ -356,10 +377,15 @@ def _check_finite(block: np.ndarray, path, first_frame: int) -> None:
         f"{block[frame, channel]}; allowed: finite samples only (nothing written)")
 
 
-def _read_blocks(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
-    """New float64 blocks; integer PCM is read as its codes and converted once, exactly."""
+def _read_blocks(snd: sf.SoundFile, path, block_frames: int, *, kernel: bool = True) -> Iterator[np.ndarray]:
+    """New float64 blocks; integer PCM is read as its codes and converted once, exactly.
+
+    ``kernel`` converts the codes in one numba pass (a render); False converts them with
+    numpy (the same values: an integer times a power of two is exact in float64), so that
+    reading a take for analysis does not load numba.
+    """
     if snd.subtype in PCM_BITS:
-        yield from _read_codes_as_float(snd, path, block_frames)
+        yield from _read_codes_as_float(snd, path, block_frames, kernel)
         return
     done = 0
     while True:
@@ -371,14 +397,16 @@ def _read_blocks(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndar
         yield block
 
 
-def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int) -> Iterator[np.ndarray]:
-    """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one kernel pass.
+def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: bool) -> Iterator[np.ndarray]:
+    """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one pass.
 
     The codes come left-aligned in int16/int32, so ``code * 2**-(container bits - 1)``
     is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
     """
-    from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
-
+    if kernel:
+        from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
+    else:
+        codes_to_float = _codes_to_float_numpy
     wide = container_bits(PCM_BITS[snd.subtype])
     dtype, scale = ("int16" if wide == 16 else "int32"), 2.0 ** -(wide - 1)
     done = 0
@@ -390,6 +418,11 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int) -> Iterator
         codes_to_float(codes, scale, block)
         done += len(block)
         yield block
+
+
+def _codes_to_float_numpy(codes: np.ndarray, scale: float, out: np.ndarray) -> None:
+    """:func:`emulate.dsp.kernels.codes_to_float` in numpy (two passes, no numba)."""
+    np.multiply(codes, scale, out=out)
 
 
 def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.ndarray]:
@@ -427,7 +460,7 @@ def iter_blocks(path, block_frames: int = DEFAULT_BLOCK_FRAMES) -> Iterator[np.n
     """
     block_frames = check_count("block_frames", block_frames, 1, MAX_BLOCK_FRAMES)
     with _open_read(path) as snd:
-        yield from _read_blocks(snd, path, block_frames)
+        yield from _read_blocks(snd, path, block_frames, kernel=False)  # analysis: no numba
 
 
 # --- processing with latency compensation ------------------------------------------------
@@ -773,9 +806,7 @@ def write_array(out_path, x, samplerate: int, *, subtype: str = "PCM_24",
                             "allowed: a finite, non-empty (frames, channels) array")
     samplerate = check_count("samplerate (Hz)", samplerate, 1)
     dither_seed = check_count("dither_seed", dither_seed, 0)
-    _check_out_folder(out_path)
-    fmt = output_format(out_path)
-    subtype = _check_subtype(out_path, fmt, subtype, kept=False)
+    fmt, subtype = check_out_format(out_path, subtype)
     frames, channels = x.shape
     block = min(frames, DEFAULT_BLOCK_FRAMES)
     encoder = Encoder(subtype, dither=True, seed=dither_seed)

@@ -96,19 +96,33 @@ def _designed(notches, series):
 @plot_option
 @json_option
 def hum(takes, mains, series, plot_path, force, as_json):
-    """Find mains hum: exact frequency, drift, harmonics and notches with their circuits."""
+    """Find mains hum: exact frequency, drift, harmonics and notches with their circuits.
+
+    With several takes, also their pooled hum (repeats and one outlying take set aside)."""
     check_plot(plot_path, force)
-    from emulate.voice.hum import find_hum
+    from emulate.voice.hum import combine_hum, find_hum
 
     results = []
     for take, source in zip(takes, _sources(takes)):
         report = find_hum(source, mains_hz=None if mains is None else float(mains))
         results.append((take, report, _designed(report.notches, series)))
-    text = "\n".join(summary.hum_text(*r) for r in results)
+    pooled = None
+    if len(results) > 1:
+        combined = combine_hum([r for _, r, _ in results], labels=takes)
+        pooled = (f"pooled over {len(takes)} takes", combined, _designed(combined.notches, series))
+    text = "\n".join(summary.hum_text(*r) for r in results + ([pooled] if pooled else []))
+    text += _set_aside_text(pooled)
     if plot_path:
         text += f"\nwrote {_plot_hum(results[0][1], plot_path)}"
     payload = {"takes": [summary.hum_payload(*r) for r in results]}
+    if pooled:
+        payload["pooled"] = summary.hum_payload(*pooled) | {"set_aside": list(pooled[1].set_aside)}
     emit(as_json, payload, text)
+
+
+def _set_aside_text(pooled) -> str:
+    """The pooled report's takes left out, one line each (nothing when not pooled)."""
+    return "".join(f"\n  set aside {why}" for why in pooled[1].set_aside) if pooled else ""
 
 
 def _plot_hum(report, path):
@@ -130,15 +144,23 @@ def _plot_hum(report, path):
 @plot_option
 @json_option
 def resonance(takes, series, plot_path, force, as_json):
-    """Find one narrow, persistent spectral peak (a ringing room mode, a stand or capsule)."""
+    """Find one narrow, persistent spectral peak (a ringing room mode, a stand or capsule).
+
+    With several takes, also their pooled resonance (repeats and one outlying take set aside)."""
     check_plot(plot_path, force)
-    from emulate.voice.resonance import find_resonance
+    from emulate.voice.resonance import combine_resonance, find_resonance
 
     results = []
     for take, source in zip(takes, _sources(takes)):
         report = find_resonance(source)
         results.append((take, report, _designed([report.notch] if report.notch else [], series)))
-    text = "\n".join(summary.resonance_text(*r) for r in results)
+    pooled = None
+    if len(results) > 1:
+        combined = combine_resonance([r for _, r, _ in results], labels=takes)
+        pooled = (f"pooled over {len(takes)} takes", combined,
+                  _designed([combined.notch] if combined.notch else [], series))
+    text = "\n".join(summary.resonance_text(*r) for r in results + ([pooled] if pooled else []))
+    text += _set_aside_text(pooled)
     if plot_path:
         first = results[0][1]
         from emulate.report import plots
@@ -147,5 +169,9 @@ def resonance(takes, series, plot_path, force, as_json):
         curves = ({"excess over the neighbourhood": (first.grid_hz, first.excess_db)}
                   if first.grid_hz is not None else {"(too short)": ([100.0, 1000.0], [float("nan")] * 2)})
         text += "\nwrote " + str(plots.plot_finding(curves, plot_path, title="the first take against its "
-                                                    "neighbourhood", ylabel="dB", marks=marks))
-    emit(as_json, {"takes": [summary.resonance_payload(*r) for r in results]}, text)
+                                                    "neighbourhood", ylabel="dB", marks=marks,
+                                                    f_range_hz=(50.0, 20000.0)))
+    payload = {"takes": [summary.resonance_payload(*r) for r in results]}
+    if pooled:
+        payload["pooled"] = summary.resonance_payload(*pooled) | {"set_aside": list(pooled[1].set_aside)}
+    emit(as_json, payload, text)

@@ -7,13 +7,14 @@ import os
 
 import click
 
-from emulate.cli.options import circuit_options, emit, json_option, main, network_from_options, progress, run_quietly
-from emulate.errors import BadValueError
+from emulate import files
+from emulate.cli.options import (check_plot, circuit_options, emit, force_option, json_option, main,
+                                 network_from_options, progress, run_quietly)
 
 __all__ = ["HEARING", "sweep_options", "measure", "stimulus", "analyse"]
 
 HEARING = ("protect your hearing: the sweep climbs to 20 kHz at a steady level; keep monitors low or off "
-           "while recording it, and raise --level only as far as the recording needs")
+           "while recording it, and raise --peak only as far as the recording needs")
 
 
 def sweep_options(command):
@@ -46,19 +47,22 @@ def measure():
 @click.argument("out_path", metavar="OUT", type=click.Path(dir_okay=False))
 @click.option("--rate", type=int, default=48000, show_default=True, help="sample rate, Hz")
 @sweep_options
-@click.option("--level", "level_dbfs", type=float, default=-18.0, show_default=True,
+@click.option("--peak", "level_dbfs", type=float, default=-18.0, show_default=True,
               help="peak level of the sweep, dBFS (-60..0); start modest")
 @click.option("--subtype", default="PCM_24", show_default=True, help="sample format (PCM_16, PCM_24, FLOAT)")
-@click.option("--force", is_flag=True, help="replace an existing OUT")
+@force_option("an existing OUT (never a folder, a FIFO or a device)")
 @json_option
 @run_quietly
 def stimulus(out_path, rate, f1_hz, f2_hz, seconds, level_dbfs, subtype, force, as_json):
-    """Write the test signal OUT: sync marker, then an exponential sine sweep (Farina)."""
+    """Write the test signal OUT: sync marker, then an exponential sine sweep (Farina).
+
+    OUT appears complete or not at all; an existing OUT is refused without --force.
+    """
     from emulate.audio import stream as audio
 
     plan = _plan(rate, f1_hz, f2_hz, seconds, level_dbfs)
-    if os.path.exists(out_path) and not force:
-        raise BadValueError(f"{out_path} exists; give --force to replace it")
+    files.check_new_output(out_path, force=force, what="OUT")
+    audio.check_out_format(out_path, subtype)
     report = audio.write_array(out_path, plan.signal(), rate, subtype=subtype)
     text = (f"wrote {report.out_path}: {plan.total_frames / plan.fs:.2f} s at {rate} Hz, sweep "
             f"{plan.f1_hz:g}-{plan.f2_hz:g} Hz over {plan.seconds:g} s at {plan.level_dbfs:g} dBFS peak\n"
@@ -75,10 +79,12 @@ def stimulus(out_path, rate, f1_hz, f2_hz, seconds, level_dbfs, subtype, force, 
 @click.option("--c-tol", default="10%", show_default=True, help="capacitor tolerance: the fit stays within it")
 @click.option("--max-parts", type=click.IntRange(1, 2), default=2, show_default=True,
               help="most parts the fit moves together")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="write the overlay chart (PNG)")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
+              help="draw the measurement over the model and the fit (.png or .svg)")
+@force_option("an existing --plot file")
 @json_option
 @run_quietly
-def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path, as_json, **options):
+def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path, force, as_json, **options):
     """Analyse RECORDING (a WAV of the stimulus through the box, or a CSV: Hz, dB[, deg]) against the model."""
     from emulate.analog.networks import PART_NAMES
     from emulate.analog.tolerance import Tolerances
@@ -86,8 +92,9 @@ def analyse(recording, f1_hz, f2_hz, seconds, r_tol, c_tol, max_parts, plot_path
     from emulate.measuring import fit
 
     network = network_from_options(options)
-    measured = _measured(recording, f1_hz, f2_hz, seconds, analysis)
     tolerances = dict(zip(PART_NAMES, Tolerances.parse(r_tol, c_tol).fractions().tolist()))
+    check_plot(plot_path, force)
+    measured = _measured(recording, f1_hz, f2_hz, seconds, analysis)
     sets = 6 if max_parts == 1 else 21  # every one part, and every pair, of six
     with progress(sets, "fitting part values") as bar:
         diagnosis = fit.diagnose(network, measured, tolerances, max_parts=max_parts, progress=bar.update)
@@ -102,8 +109,10 @@ def _measured(recording, f1_hz, f2_hz, seconds, analysis):
         return analysis.read_csv(recording)
     from emulate.audio import stream as audio
 
-    x, fs = audio.read_all(recording)
-    return analysis.deconvolve(x, _plan(fs, f1_hz, f2_hz, seconds), source=os.path.basename(recording))
+    info = audio.read_info(recording)
+    plan = _plan(info.samplerate, f1_hz, f2_hz, seconds)  # checked before the whole file is read
+    x, _ = audio.read_all(recording)
+    return analysis.deconvolve(x, plan, source=os.path.basename(recording))
 
 
 def _compare(network, measured, diagnosis, analysis) -> tuple[dict, str]:
@@ -118,9 +127,12 @@ def _compare(network, measured, diagnosis, analysis) -> tuple[dict, str]:
              f"gain {diagnosis.gain_db:+.2f} dB{latency}",
              "            measured     model",
              f"  notch   {got.notch_hz:9.1f}  {want.notch_hz:9.1f} Hz   ({100 * (got.notch_hz / want.notch_hz - 1):+.2f} %)",
-             f"  depth   {got.depth_db:9.1f}  {want.depth_db:9.1f} dB below the band's peak",
+             f"  depth   {got.depth_db:9.1f}  {want.depth_db:9.1f} dB of cut below the band's peak",
              f"  Q       {_q(got.q):>9}  {_q(want.q):>9}",
-             f"  {diagnosis.text()}"]
+             f"  {diagnosis.text()}",
+             "  (fitted on the gain and the phase)" if diagnosis.used_phase else
+             "  (fitted on the gain alone: the measurement holds no phase, or one that does not follow the "
+             "model's)"]
     payload = {"measured": got.as_dict(), "model": want.as_dict(), "latency_samples": measured.latency_samples,
                "diagnosis": diagnosis.as_dict()}
     return payload, "\n".join(lines)

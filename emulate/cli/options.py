@@ -12,11 +12,12 @@ import importlib
 import os
 import re
 import warnings
+from pathlib import Path
 
 import click
 
 from emulate import __version__, files, lifetime
-from emulate.errors import EmulateError, EmulateWarning
+from emulate.errors import BadValueError, EmulateError, EmulateWarning
 
 __all__ = ["PART_HELP", "COMMAND_MODULES", "COMMAND_SUMMARY", "interrupted_line", "printable", "main",
            "PRESETS_ENV_VAR", "presets_option", "store_from", "circuit_options", "network_from_options",
@@ -180,8 +181,9 @@ def circuit_options(command):
                      help="K, 0 <= K < 1: bootstrapped active network, Q = 1/(4(1-K)) when balanced"),
         click.option("--depth-pot", help="model a real depth potentiometer of this track, ohms"),
         click.option("--mix", type=float, help="wet/dry depth control, 0 (dry) to 1 (full notch)"),
-        click.option("--depth", "depth_db", type=float,
-                     help="set the depth control by the level at the notch instead, dB (e.g. -12)"),
+        click.option("--depth", "depth_cut_db", type=float,
+                     help="set the depth control by the depth wanted instead: dB of cut at the notch, "
+                          "positive (e.g. 12)"),
         click.option("--circuit", "circuit_file", type=click.Path(dir_okay=False),
                      help="TOML circuit file with a [circuit] or [target] table"),
         click.option("--preset", help="start from this saved preset (see 'emulate preset list')"),
@@ -213,19 +215,27 @@ def network_from_options(options: dict):
         raise click.UsageError("give the circuit: --r1 .. --c3 (plus --source, --load, --bootstrap), "
                                "--circuit FILE or --preset NAME")
     network = spec.network_from_document(document, where=where, mix=options.get("mix"))
-    return _at_depth(network, options) if options.get("depth_db") is not None else network
+    return _at_depth(network, options) if options.get("depth_cut_db") is not None else network
 
 
 def _at_depth(network, options):
-    """The depth control set so that the notch lies at ``--depth`` dB (ideal mix or pot)."""
+    """The depth control set so that the notch lies ``--depth`` dB (of cut) below the passband.
+
+    A depth is positive dB of cut everywhere (text, JSON, CSV, plots); the depth
+    functions take the level at the notch, a signed gain, so the sign turns here.
+    """
     from emulate.dsp import depth
 
     if options.get("mix") is not None:
         raise click.UsageError("give either --mix or --depth, not both")
+    cut = options["depth_cut_db"]
+    if not cut > 0:  # nan included
+        raise BadValueError(f"--depth {cut:g}: allowed a positive number of dB of cut (e.g. 12 for a notch "
+                            "12 dB below the passband)")
     full = network.replace(mix=1.0)
     if network.depth_pot_ohms is not None:
-        return full.replace(mix=depth.pot_position_for_depth(full, options["depth_db"]))
-    return full.replace(mix=depth.mix_for_depth(full, options["depth_db"]))
+        return full.replace(mix=depth.pot_position_for_depth(full, -cut))
+    return full.replace(mix=depth.mix_for_depth(full, -cut))
 
 
 def force_option(what: str):
@@ -234,12 +244,18 @@ def force_option(what: str):
                         help=f"replace {what}; without it nothing existing is overwritten")
 
 
-def check_plot(plot_path, force: bool) -> None:
+def check_plot(plot_path, force: bool, *, made_folder=None) -> None:
     """Refuse a --plot path before any work (exists without --force, folder missing, not a
-    file, a suffix other than .png or .svg)."""
+    file, a suffix other than .png or .svg). Its folder must exist, unless it lies inside
+    ``made_folder``, a folder the command makes (sweep --out)."""
     if plot_path:
         files.check_new_output(plot_path, force=force, what="--plot")
-        files.check_picture_suffix(plot_path)  # its folder may be one the command makes (sweep --out)
+        files.check_picture_suffix(plot_path)
+        folder = Path(plot_path).absolute().parent
+        inside = made_folder is not None and folder.is_relative_to(Path(made_folder).absolute())
+        if not folder.is_dir() and not inside:
+            raise files.OutputRefusedError(f"{plot_path}: folder {folder} does not exist; allowed: a path "
+                                           "in an existing folder")
 
 
 def json_option(command):

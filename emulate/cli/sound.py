@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import click
@@ -132,7 +133,8 @@ def _real_box(processor, network, options, with_noise: bool, seed: int):
         hiss = noise.output_noise(network, network.opamp)
         density = lambda f_hz: np.interp(f_hz, hiss.f_hz, hiss.total)
     full = levels.full_scale_dbu(options.get("level_dbu"), options.get("full_scale_dbu"))
-    return RealBoxProcessor(processor, network.opamp, full, noise_density=density, seed=seed)
+    load = network.load_ohms if levels.load_stage(network) else math.inf
+    return RealBoxProcessor(processor, network.opamp, full, noise_density=density, seed=seed, load_ohms=load)
 
 
 def _hits_text(hits: dict) -> str:

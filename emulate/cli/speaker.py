@@ -89,7 +89,7 @@ def sweep_command(takes, from_hz, to_hz, steps, at, out_dir, q, series, cap_seri
     plan.network(plan.notches_hz[0])  # a bad plan fails here, before any work
     sweep.check_workers(workers)
     sweep.check_out(takes, out_dir, force=force)
-    check_plot(plot_path, force)
+    check_plot(plot_path, force, made_folder=out_dir)
     total = sum(audio.read_info(t).frames for t in takes) * len(plan.notches_hz)
     written = []
 

@@ -273,8 +273,8 @@ def _deepest_db(d: complex) -> float:
 
 def _unreachable(depth_db, deepest_db) -> None:
     raise BadValueError(
-        f"depth {depth_db!r} dB is deeper than this network reaches with a wet/dry mix; "
-        f"allowed [{deepest_db:.2f}, 0] dB")
+        f"depth {-depth_db:g} dB of cut is deeper than this network reaches with a wet/dry mix; "
+        f"allowed 0 to {-deepest_db:.2f} dB of cut")
 
 
 # --- a real depth potentiometer ------------------------------------------------
@@ -393,8 +393,8 @@ def pot_position_for_depth(network, depth_db, *, pot_ohms=None) -> float:
         return 0.0 if dry == 0.0 else 1.0
     if dry * full > 0.0:
         raise BadValueError(
-            f"depth {depth_db!r} dB is outside what this depth pot reaches; "
-            f"allowed [{full + target:.2f}, {_dry_end_db(network, ohms):.2f}] dB")
+            f"depth {-depth_db:g} dB of cut is outside what this depth pot reaches; "
+            f"allowed {-_dry_end_db(network, ohms):.2f} to {-(full + target):.2f} dB of cut")
     # imported here, not at the top: rendering never solves a pot position
     from scipy import optimize
 

@@ -10,7 +10,8 @@ of :mod:`emulate.dsp.emulation`). Samples become volts through the studio level
 3. noise      the box's own output noise, white Gaussian noise shaped by a
               linear-phase FIR to the output noise density (optional);
 4. output     the output stage: slew-limited to the op-amp's slew rate, then
-              held within its swing; samples held at a rail and samples slowed
+              held within its swing (into ``load_ohms``, the swing its output
+              current allows there); samples held at a rail and samples slowed
               by the slew limit are counted.
 
 The network's inner op-amps (the bootstrap follower, the wet buffer) carry no
@@ -62,6 +63,8 @@ class RealBoxProcessor:
         What 0 dBFS of the take is, dBu.
     noise_density : callable or None
         ``f_hz -> V/sqrt(Hz)`` of the box's output noise; None: no noise added.
+    load_ohms : float
+        The load the output stage drives (inf: none beyond its rated load).
     seed : int
         Seed of the noise generator (the noise does not depend on the block size).
 
@@ -76,9 +79,11 @@ class RealBoxProcessor:
     True
     """
 
-    def __init__(self, inner, opamp: OpAmp, full_scale_dbu: float, *, noise_density=None, seed: int = 0):
+    def __init__(self, inner, opamp: OpAmp, full_scale_dbu: float, *, noise_density=None, seed: int = 0,
+                 load_ohms: float = math.inf):
         self.inner = inner
         self.opamp = opamp
+        self.load_ohms = float(load_ohms)
         self.volts_per_unit = volts_per_unit(full_scale_dbu)
         self.noise_density = noise_density
         self.seed = check_count("noise seed", seed, 0)
@@ -99,6 +104,8 @@ class RealBoxProcessor:
         self._fs, self._channels = float(sample_rate), int(channels)
         high, low = self.opamp.swing_v
         self._high, self._low = high / self.volts_per_unit, low / self.volts_per_unit
+        into = self.opamp.peak_into(self.load_ohms) / self.volts_per_unit
+        self._high_out, self._low_out = min(self._high, into), max(self._low, -into)
         self._step = self.opamp.slew_v_per_s / self._fs / self.volts_per_unit
         self.reset_stages()
         self._fir = None if self.noise_density is None else self._noise_fir()
@@ -120,7 +127,7 @@ class RealBoxProcessor:
         y = self.inner.process(x)
         if self._fir is not None:
             y += self._noise(len(y))
-        rail_kernels.rail_stage(y, self._step, self._high, self._low, self._last_out, y, self._hits_out)
+        rail_kernels.rail_stage(y, self._step, self._high_out, self._low_out, self._last_out, y, self._hits_out)
         return y
 
     def hits(self) -> dict:

@@ -3,12 +3,26 @@
 A build that misses its model usually has one or two parts off. For every set
 of one or two parts the fit moves only those parts (bounded by their
 tolerances, bounded least squares on the gain in dB with the overall gain
-free), and the sets are compared by their RMS misfit: a two-part explanation
+free, and on the phase where the measurement holds it), and the sets are
+compared by their RMS misfit: a two-part explanation
 is taken only when it fits clearly better than the best single part
 (``PAIR_GAIN`` times lower misfit, and more than ``FLOOR_DB`` apart), and "no
 part off" only when no single part improves on the nominal values as clearly.
 Only where the measurement stands above ``DEPTH_FLOOR_DB`` below its peak is
 used, so noise in the bottom of the null does not steer the fit.
+
+Why the phase: the gain alone cannot tell some explanations apart. An
+unbalanced twin-T's pair of zeros sits just left or just right of the
+j-omega axis depending on which way the balance tipped, and the two give
+the same gain; the input-side and output-side halves (R1 C1 against R2 C2)
+move the gain almost alike. The phase tells both apart. The measured phase
+is first freed of the loop's leftover delay and polarity (a straight line in
+frequency fitted against the nominal model where the gain is within
+``FULL_WEIGHT_DB`` of its peak); a measurement whose phase still strays more
+than ``PHASE_TRUST_RAD`` from the model after that (an analyser that writes
+its phase another way) is fitted on the gain alone. The phase residual is
+counted in the gain's units (1 rad = 20/ln 10 dB: the real and imaginary
+parts of ln H), so noise weighs the same in both.
 
 The fix: the R3 that restores the null with the fitted values, from the null
 condition R1 R2 C3 = R3 (R1 + R2)(C1 + C2) (it holds for the bootstrapped
@@ -26,13 +40,15 @@ from emulate.analog.networks import PART_NAMES
 from emulate.analog.parts import format_value
 from emulate.errors import BadValueError
 
-__all__ = ["DEPTH_FLOOR_DB", "FLOOR_DB", "FULL_WEIGHT_DB", "PAIR_GAIN", "Diagnosis", "diagnose"]
+__all__ = ["DEPTH_FLOOR_DB", "FLOOR_DB", "FULL_WEIGHT_DB", "PAIR_GAIN", "PHASE_TRUST_RAD", "Diagnosis", "diagnose"]
 
 PAIR_GAIN = 2.0
 FLOOR_DB = 0.005  # dB RMS: below this two fits are equally good (noise of a -80 dBFS floor)
 MISMATCH_DB = 0.5  # a misfit above this means the model is not the circuit measured
 DEPTH_FLOOR_DB = 50.0
 FULL_WEIGHT_DB = 20.0
+PHASE_TRUST_RAD = 0.3  # rms, after the delay and polarity are taken out
+_DB_PER_NEPER = 20 / np.log(10)
 _POINTS = 160
 _SMALL = 0.005  # a fitted part within 0.5 % is not "off"
 _GRID = 11  # grid points per part across its tolerance
@@ -53,6 +69,7 @@ class Diagnosis:
     alternatives : other sets of the same size that fit within ``PAIR_GAIN`` of
         the chosen one (the measurement cannot tell them apart well).
     trim_r3_ohms : the R3 that restores the null with the fitted values.
+    used_phase : whether the measured phase was fitted too (else the gain alone).
     """
 
     parts_off: dict
@@ -63,6 +80,7 @@ class Diagnosis:
     ranking: tuple
     trim_r3_ohms: float
     alternatives: tuple = ()
+    used_phase: bool = False
 
     def text(self) -> str:
         if not self.parts_off and self.rms_db > MISMATCH_DB:
@@ -83,7 +101,7 @@ class Diagnosis:
     def as_dict(self) -> dict:
         return {"parts_off": {k.upper(): v for k, v in self.parts_off.items()}, "gain_db": self.gain_db,
                 "rms_db": self.rms_db, "nominal_rms_db": self.nominal_rms_db,
-                "trim_r3_ohms": self.trim_r3_ohms, "explanation": self.text(),
+                "trim_r3_ohms": self.trim_r3_ohms, "explanation": self.text(), "used_phase": self.used_phase,
                 "alternatives": [[p.upper() for p in parts] for parts in self.alternatives],
                 "ranking": [{"parts": [p.upper() for p in parts], "rms_db": r} for parts, r in self.ranking[:6]]}
 
@@ -125,7 +143,8 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2, progres
     for name in PART_NAMES:
         if not 0 < tolerances.get(name, 0) < 1:
             raise BadValueError(f"tolerance of {name.upper()} {tolerances.get(name)!r}: allowed (0, 1)")
-    model = _Model(network, f, target, weight, tolerances)
+    phase = _phase_target(network, measured, f, weight)
+    model = _Model(network, f, target, weight, tolerances, phase)
     nominal = model.fit(())
     fits = {}
     for size in range(1, max_parts + 1):
@@ -140,7 +159,7 @@ def diagnose(network, measured, tolerances: dict, *, max_parts: int = 2, progres
     fitted = network.replace(**{name: getattr(network, name) * (1 + e) for name, e in errors.items()})
     alternatives = tuple(p for p, r in ranking if len(p) == len(parts) and p != parts and r < PAIR_GAIN * rms)
     return Diagnosis(errors, fitted, model.gain_db(errors), rms, nominal[1], tuple(ranking), _trim_r3(fitted),
-                     alternatives[:3] if parts else ())
+                     alternatives[:3] if parts else (), phase is not None)
 
 
 def _fit_data(measured):
@@ -159,6 +178,27 @@ def _fit_data(measured):
     below = np.max(target) - target[keep]
     weight = 10 ** (-np.maximum(below - FULL_WEIGHT_DB, 0.0) / 20)
     return f[keep], target[keep], weight
+
+
+def _phase_target(network, measured, f, weight):
+    """The measured phase on ``f`` (rad) without the loop's leftover delay and polarity, or None.
+
+    None where the measurement holds no phase or where, after a straight line in
+    frequency is taken out against the nominal model, it still strays more than
+    ``PHASE_TRUST_RAD`` rms from the model where the gain is within
+    ``FULL_WEIGHT_DB`` of its peak.
+    """
+    if measured.phase_deg is None:
+        return None
+    phase = np.interp(np.log(f), np.log(measured.f_hz), np.unwrap(np.radians(measured.phase_deg)))
+    apart = np.unwrap(phase - np.angle(network.response(f)))
+    full = weight >= 1.0
+    if full.sum() < 3:
+        return None
+    line = np.polyfit(f[full], apart[full], 1)
+    if _rms(apart[full] - np.polyval(line, f[full])) > PHASE_TRUST_RAD:
+        return None
+    return phase - np.polyval(line, f)
 
 
 def _choose(nominal_rms: float, ranking) -> tuple:
@@ -180,23 +220,44 @@ def _trim_r3(net) -> float:
 
 
 class _Model:
-    """The network's gain in dB with some parts scaled, against the measurement (gain fitted out)."""
+    """The network's gain in dB (and phase) with some parts scaled, against the measurement
+    (the overall gain, and the delay and polarity, fitted out)."""
 
-    def __init__(self, network, f, target, weight, tolerances):
-        self.network, self.f, self.target, self.weight = network, f, target, weight
+    def __init__(self, network, f, target, weight, tolerances, phase=None):
+        self.network, self.f, self.target, self.weight, self.phase = network, f, target, weight, phase
         self.bounds = {name: float(tolerances[name]) for name in PART_NAMES}
 
-    def _gain(self, errors: dict) -> np.ndarray:
+    def _response(self, errors: dict) -> np.ndarray:
+        """The response with ``errors`` (each a value or an array of values: one build a row)."""
         values = {name: getattr(self.network, name) * (1 + e) for name, e in errors.items()}
-        return 20 * np.log10(np.maximum(np.abs(self.network.replace(**values).response(self.f)), 1e-15))
+        return self.network.replace(**values).response(self.f)
+
+    def _residual(self, h: np.ndarray) -> np.ndarray:
+        """Weighted misfit of responses ``h`` (..., points): gain in dB, then phase in dB units."""
+        w2 = self.weight ** 2
+        r = 20 * np.log10(np.maximum(np.abs(h), 1e-15)) - self.target
+        parts = [self.weight * (r - np.average(r, axis=-1, weights=w2)[..., None])]
+        if self.phase is not None:
+            p = np.angle(h * np.exp(-1j * self.phase))
+            parts.append(self.weight * _DB_PER_NEPER * (p - self._line(p)))
+        return np.concatenate(parts, axis=-1)
+
+    def _line(self, p: np.ndarray) -> np.ndarray:
+        """The weighted least-squares straight line in frequency through ``p`` (..., points):
+        the loop's delay and polarity, fitted for every explanation afresh."""
+        w2, x = self.weight ** 2, self.f / self.f[-1]
+        sw, sx, sxx = np.sum(w2), np.sum(w2 * x), np.sum(w2 * x * x)
+        sy, sxy = np.sum(w2 * p, axis=-1), np.sum(w2 * x * p, axis=-1)
+        slope = (sw * sxy - sx * sy) / (sw * sxx - sx * sx)
+        return ((sy - slope * sx) / sw)[..., None] + slope[..., None] * x
 
     def misfit(self, errors: dict) -> np.ndarray:
-        """Weighted misfit in dB, the best overall gain removed."""
-        r = self._gain(errors) - self.target
-        return self.weight * (r - np.average(r, weights=self.weight ** 2))
+        """Weighted misfit in dB, the best overall gain (and delay and polarity) removed."""
+        return self._residual(self._response(errors))
 
     def gain_db(self, errors: dict) -> float:
-        return float(np.average(self.target - self._gain(errors), weights=self.weight ** 2))
+        r = self.target - 20 * np.log10(np.maximum(np.abs(self._response(errors)), 1e-15))
+        return float(np.average(r, weights=self.weight ** 2))
 
     def fit(self, parts: tuple) -> tuple[dict, float]:
         """Bounded least squares from the best point of a grid (the misfit has false minima)."""
@@ -214,11 +275,8 @@ class _Model:
         """The best of a grid over the tolerance box, every point in one batched solve."""
         axis = np.linspace(-1, 1, _GRID)
         points = np.array(list(itertools.product(axis, repeat=len(parts)))) * bound * 0.999
-        values = {name: getattr(self.network, name) * (1 + points[:, i]) for i, name in enumerate(parts)}
-        gain = 20 * np.log10(np.maximum(np.abs(self.network.replace(**values).response(self.f)), 1e-15))
-        r = gain - self.target
-        r -= np.average(r, axis=1, weights=self.weight ** 2)[:, None]
-        return points[int(np.argmin(np.mean((self.weight * r) ** 2, axis=1)))]
+        r = self.misfit({name: points[:, i] for i, name in enumerate(parts)})
+        return points[int(np.argmin(np.mean(r ** 2, axis=1)))]
 
 
 def _rms(r) -> float:

@@ -76,7 +76,7 @@ class SweepPlan:
         check_range("sweep start (Hz)", self.f1_hz, 1.0, self.fs / 2, high_open=True)
         check_range("sweep end (Hz)", self.f2_hz, self.f1_hz, self.fs / 2, low_open=True, high_open=True)
         check_range("sweep length (s)", self.seconds, 0.5, 120.0)
-        check_range("level (dBFS)", self.level_dbfs, -60.0, 0.0)
+        check_range("sweep peak level (dBFS)", self.level_dbfs, -60.0, 0.0)
         if self.f2_hz / self.f1_hz < 2:
             raise BadValueError(f"sweep {self.f1_hz:g}-{self.f2_hz:g} Hz: allowed at least an octave")
 

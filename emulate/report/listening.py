@@ -39,7 +39,7 @@ PAGE_NAME = "index.html"
 #: The summary table of a sweep: row key and heading.
 SWEEP_COLUMNS = (("setting", "setting"), ("notch_hz", "notch as built (Hz)"), ("q", "Q"), ("mix", "mix"),
                  ("sibilance_reduction_db", "sibilance cut (dB)"), ("loudness_change_db", "loudness change (dB)"),
-                 ("relative_reduction_db", "relative cut (dB)"), ("intelligibility_cost", "speech cost (0-1)"))
+                 ("relative_reduction_db", "relative cut (dB)"), ("speech_cost_percent", "speech cost (%)"))
 _PICTURE_TYPES = {".png": "image/png", ".svg": "image/svg+xml"}
 
 
@@ -186,7 +186,7 @@ def page_from_sweep(result, *, pictures=(), matched: bool = True, dries=None) ->
         listings.append(match_levels(listing) if matched else listing)
     return ListeningPage(title=f"Listening: {len(result.plan.settings)} settings, stepping the "
                                f"{result.plan.axis_words}",
-                         takes=tuple(listings), columns=SWEEP_COLUMNS, rows=tuple(result.rows),
+                         takes=tuple(listings), columns=SWEEP_COLUMNS, rows=tuple(map(_with_percent, result.rows)),
                          pick=result.pick["setting"], pick_reason=result.pick["reason"],
                          pictures=tuple(str(p) for p in pictures), matched=matched)
 
@@ -254,9 +254,17 @@ def _player(version: Version, folder, css: str = "player") -> str:
             f'data-gain-db="{version.gain_db:.2f}" aria-label="{_text(version.label)}"></audio></li>')
 
 
+def _with_percent(row: dict) -> dict:
+    """The speech cost in percent, as the text summary gives it."""
+    return row | {"speech_cost_percent": 100.0 * row["intelligibility_cost"]}
+
+
 def _cell(value) -> str:
+    """Numbers as a reader wants them: whole hertz, hundredths of a dB, Q or mix."""
     if isinstance(value, float):
-        return _text(f"{value:.4g}" if math.isfinite(value) else "-")
+        if not math.isfinite(value):
+            return "-"
+        return _text(f"{value:.0f}" if abs(value) >= 100 else f"{value:.2f}")
     return _text(value)
 
 

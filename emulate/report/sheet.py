@@ -73,6 +73,7 @@ h2 { margin-top: 2rem; color: #1f5fa8; }
 table { border-collapse: collapse; margin: .8rem 0; }
 th, td { border: 1px solid #c9d1d9; padding: .3rem .7rem; text-align: left; }
 th { background: #eef3f8; }
+td:first-child, td:nth-child(2):not(:last-child) { white-space: nowrap; }
 img { max-width: 100%; border: 1px solid #e3e7eb; }
 .caution { background: #fff4e5; border-left: 4px solid #d9822b; padding: .5rem 1rem; }
 .note { background: #eef3f8; border-left: 4px solid #1f5fa8; padding: .5rem 1rem; }
@@ -201,8 +202,8 @@ def assumed_rows(network: TwinT) -> list[list[str]]:
     source = (parts.format_value(network.source_ohms, "resistance") + " source resistance"
               if network.source_ohms else "0 ohm (an op-amp output): the input buffer provides it")
     if network.is_active:
-        load = ("the output follower drives it: the load does not change the response (ideal follower; "
-                "the op-amp's own output limits are not modelled here)")
+        load = ("the output follower drives it: the load does not change the response; it takes swing "
+                "where it would draw more than the op-amp's output current (the level plan, with --level)")
         load = (f"{parts.format_value(network.load_ohms, 'resistance')}; " if math.isfinite(network.load_ohms)
                 else "none; ") + load
     elif math.isfinite(network.load_ohms):
@@ -486,8 +487,9 @@ def write_sheet(out_dir, network: TwinT, *, tolerances, design=None, tolerance_r
         temporary.mkdir()
         label = (title_block or {}).get("circuit")
         plots.plot_response(network, temporary / PICTURES["response"], fs=fs, label=label)
+        drawing_title = f"{label}: {plots.circuit_words(network)}" if label else title
         schematic.draw_schematic(network, temporary, makeup=_makeup_for(network, design),
-                                 divider=divider_of(network, design), title=title)
+                                 divider=divider_of(network, design), title=drawing_title)
         (temporary / NETLIST_FILE).write_text(next(b.content for b in blocks if b.kind == "pre"), encoding="utf-8")
         if tolerance_result is not None:
             plots.plot_tolerance(tolerance_result, temporary / PICTURES["tolerance"], label=label)

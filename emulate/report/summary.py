@@ -117,13 +117,13 @@ def cut_text(depth_below_passband_db: float) -> str:
 def depth_text(metrics) -> str:
     if is_exact_null(metrics.depth_below_passband_db):
         return cut_text(metrics.depth_below_passband_db)
-    return f"{metrics.depth_db:.1f} dB ({cut_text(metrics.depth_below_passband_db)})"
+    return f"{cut_text(metrics.depth_below_passband_db)} (gain at the notch {metrics.depth_db:.1f} dB)"
 
 
 def metrics_lines(metrics) -> list[str]:
     if not metrics.in_range:
         return [f"  notch      no notch in range {SEARCH_TEXT} (the response is lowest at the edge, "
-                f"{metrics.notch_hz:.4g} Hz, {metrics.depth_db:.1f} dB)",
+                f"{metrics.notch_hz:.4g} Hz, gain {metrics.depth_db:.1f} dB)",
                 f"  passband   {db_text(metrics.passband_low_db)} dB low, {db_text(metrics.passband_high_db)} dB high"]
     width = ("not 3 dB deep: no -3 dB band" if math.isnan(metrics.q) else
              f"-3 dB from {metrics.lower_hz:.1f} Hz to {metrics.upper_hz:.1f} Hz, Q {metrics.q:.3f}")
@@ -357,7 +357,7 @@ def suggestion_line(report) -> str:
         return f"  no suggestion: the takes hold no usable /{report.target}/ sibilance"
     kind = "passive (Q 0.25)" if report.suggested_q <= 0.25 else f"active, Q {report.suggested_q:.2f}"
     return (f"  suggested notch for /{report.target}/ {report.suggested_notch_hz:.0f} Hz, {kind}, "
-            f"mix {report.suggested_mix:.2f} (about {report.suggested_depth_db:.1f} dB at the notch)")
+            f"mix {report.suggested_mix:.2f} (about {report.suggested_depth_db:.1f} dB of cut at the notch)")
 
 
 def sibilance_text(takes, reports, combined) -> str:
@@ -377,7 +377,7 @@ def _notch_fields(designed: dict) -> dict:
 
 
 def _notch_lines(designed) -> list[str]:
-    return [f"  {d['label']}: notch {d['notch_hz']:.2f} Hz, Q {d['q']:.2f}, {d['depth_db']:.0f} dB "
+    return [f"  {d['label']}: notch {d['notch_hz']:.2f} Hz, Q {d['q']:.2f}, {d['depth_db']:.0f} dB of cut "
             f"(built {d['built_notch_hz']:.2f} Hz)\n    {d['options']}" for d in designed]
 
 
@@ -493,7 +493,7 @@ def demo_text(out_dir, takes) -> str:
                   _sibilance_line("sibilance", t.report), suggestion_line(t.report),
                   f"  preset {t.preset_path.stem} ({t.preset_path}): as-built notch {t.notch_hz:.0f} Hz"]
         for r in t.renders:
-            lines.append(f"  rendered {r.path.name}: sibilance band {-r.sibilance_reduction_db:+.1f} dB, "
+            lines.append(f"  rendered {r.path.name}: sibilance band {r.sibilance_reduction_db:.1f} dB of cut, "
                          f"loudness {r.loudness_change_db:+.1f} dB; emulation within {r.fidelity_db:.3f} dB "
                          f"of the analog circuit ({r.method})")
         lines += [f"  pictures: {', '.join(str(p) for p in t.pictures)}",

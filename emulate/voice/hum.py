@@ -1,10 +1,13 @@
 """The hum finder: mains hum (50 or 60 Hz and its harmonics), its exact frequency and drift.
 
-The finder reads a take once, block by block (memory bounded by one 4 s segment):
+The finder reads a take in three passes, block by block (memory bounded by a few 4 s segments
+and at most 96 short spectra, whatever the take's length):
 
 1. segments: 4 s Hann segments every 2 s (the whole take if shorter, at least 1 s),
    mixed to mono, power spectra up to 1.3 kHz (0.18 Hz bins with zero padding);
-2. lines: on the take's mean spectrum, for each harmonic ``k`` of 50 Hz and of 60 Hz the
+2. lines: on the take's steady spectrum (the median over 2 s segments every 0.5 s of their
+   power spectra: a mains line is in every segment, a low voice's moving harmonics are
+   not), for each harmonic ``k`` of 50 Hz and of 60 Hz the
    line power (the bins within 0.75 Hz of the highest bin within +-0.5 % of ``k * mains``)
    against the larger of the programme's median bin within a sixth of an octave and the
    line's own shoulders (0.75-1.5 Hz beside it), in the same bandwidth (its prominence); a harmonic is present at 10 dB prominence;
@@ -15,7 +18,8 @@ The finder reads a take once, block by block (memory bounded by one 4 s segment)
    through the log powers of its three highest bins (common practice, no source),
    divided by ``k`` and averaged weighted by ``k**2`` times its prominence (higher
    harmonics pin the frequency ``k`` times tighter); the take's frequency is the mean over
-   segments, its drift the span (max - min) of the segment frequencies;
+   segments weighted the same way (a segment where the voice sits on the line counts
+   less), its drift the span (max - min) of the segment frequencies;
 5. levels and notches: each present harmonic's level (dBFS) and its level over the
    programme in the 1/3-octave band around it (the line taken out), and a suggested notch
    for the fundamental and the three strongest other harmonics (see :class:`HumReport`).
@@ -37,15 +41,21 @@ import numpy as np
 from emulate.errors import BadValueError
 from emulate.voice.frames import FrameGrid, iter_frame_power
 from emulate.voice.notches import SuggestedNotch
+from emulate.voice.pooling import label_takes, select_takes
 from emulate.voice.takes import TakeSource, dbfs
 
-__all__ = ["HumLine", "HumReport", "find_hum"]
+__all__ = ["HumLine", "HumReport", "combine_hum", "find_hum"]
 
 #: Nominal mains frequencies, Hz.
 MAINS_HZ = (50.0, 60.0)
 #: Segment length and hop, s (the whole take when shorter; at least MIN_SECONDS).
 SEGMENT_S = 4.0
 SEGMENT_HOP_S = 2.0
+#: Short segments whose median spectrum tells steady lines from a voice's moving harmonics, s
+#: (hop a quarter of it).
+STEADY_SEGMENT_S = 2.0
+#: At most this many short segments enter the median (spread evenly over a long take).
+STEADY_MAX_SEGMENTS = 96
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 1.0
 #: Highest frequency examined, Hz (harmonics up to this).
@@ -118,6 +128,8 @@ class HumReport:
         ``(time_s, fundamental_hz)`` per segment, the time at the segment's centre.
     lines : tuple of HumLine
         The present harmonics, by harmonic number.
+    set_aside : tuple of str
+        Pooled reports only: the takes left out and why (see :func:`combine_hum`).
     notches : tuple of SuggestedNotch
         The fundamental (if present) and up to three strongest other harmonics, each with
         ``depth = clip(above_programme + 10, 20, 40)`` dB and the highest Q (at most 10)
@@ -135,20 +147,50 @@ class HumReport:
     track: tuple[tuple[float, float], ...]
     lines: tuple[HumLine, ...]
     notches: tuple[SuggestedNotch, ...]
+    set_aside: tuple[str, ...] = ()
 
 
-def _not_found(reason: str, seconds: float) -> HumReport:
+def _not_found(reason: str, seconds: float, set_aside=()) -> HumReport:
     nan = float("nan")
-    return HumReport(False, reason, float(seconds), nan, nan, nan, (), (), ())
+    return HumReport(False, reason, float(seconds), nan, nan, nan, (), (), (), tuple(set_aside))
 
 
-def _read_segments(source: TakeSource) -> tuple[FrameGrid, np.ndarray]:
-    """Power spectra (segments, bins up to TOP_HZ) of the take's segments."""
+def _segment_grid(source: TakeSource) -> tuple[FrameGrid, int]:
+    """The segments' framing and the number of bins kept (up to TOP_HZ)."""
     seconds = min(SEGMENT_S, source.seconds)
     grid = FrameGrid.at(source.fs, seconds, min(SEGMENT_HOP_S, seconds / 2.0), padded=True)
+    return grid, int(np.searchsorted(grid.f_hz, TOP_HZ))
+
+
+def _iter_segments(source: TakeSource, grid: FrameGrid, top: int):
+    """Power spectra (bins up to TOP_HZ) of the take's segments, one at a time."""
+    for power in iter_frame_power(source, grid):
+        yield from power[:, :top]
+
+
+def _mean_spectrum(source: TakeSource, grid: FrameGrid, top: int) -> np.ndarray:
+    """Mean power spectrum of the segments (one pass; memory: one spectrum)."""
+    total, count = np.zeros(top), 0
+    for power in _iter_segments(source, grid, top):
+        total += power
+        count += 1
+    return total / max(count, 1)
+
+
+def _steady_spectrum(source: TakeSource, f_hz: np.ndarray, mean: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """What stays in every part of the take: the median over short segments of their power
+    spectra (a mains line is in all of them; a voice's moving low harmonics in a few), and
+    its bin frequencies; the mean spectrum when the take holds under three short segments.
+    At most STEADY_MAX_SEGMENTS segments, spread evenly over the take (bounded memory)."""
+    grid = FrameGrid.at(source.fs, STEADY_SEGMENT_S, STEADY_SEGMENT_S / 4.0, padded=True)
+    if source.seconds < STEADY_SEGMENT_S * 1.5:
+        return mean, f_hz
     top = int(np.searchsorted(grid.f_hz, TOP_HZ))
-    segments = [power[:, :top] for power in iter_frame_power(source, grid)]
-    return grid, np.concatenate(segments)
+    count = 1 + (source.frames - grid.size) // grid.hop
+    step = -(-count // STEADY_MAX_SEGMENTS)
+    kept = [power.copy() for i, power in enumerate(_iter_segments(source, grid, top)) if i % step == 0]  # a
+    # copy: a view would keep its whole chunk of full-length spectra alive
+    return np.median(np.stack(kept), axis=0), grid.f_hz[:top]
 
 
 def _line(power: np.ndarray, f_hz: np.ndarray, centre_hz: float) -> tuple[int, float, float]:
@@ -191,8 +233,9 @@ def _prominences(mean: np.ndarray, f_hz: np.ndarray, mains: float) -> dict[int, 
     return found
 
 
-def _segment_fundamental(power, f_hz, mains, present) -> tuple[float, float]:
-    """One segment's fundamental (Hz) and the share of present harmonics standing 6 dB out."""
+def _segment_fundamental(power, f_hz, mains, present) -> tuple[float, float, float]:
+    """One segment's fundamental (Hz), the share of present harmonics standing 6 dB out, and
+    the segment's weight (the sum of the harmonics' weights)."""
     estimates, weights, standing = [], [], 0
     for k in present:
         peak, line, around = _line(power, f_hz, k * mains)
@@ -202,8 +245,8 @@ def _segment_fundamental(power, f_hz, mains, present) -> tuple[float, float]:
         estimates.append(_refined_hz(power, f_hz, peak) / k)
         weights.append(k * k * (line / around if around > 0 else 1e12))
     if not estimates:
-        return float("nan"), 0.0
-    return float(np.average(estimates, weights=weights)), standing / len(present)
+        return float("nan"), 0.0, 0.0
+    return float(np.average(estimates, weights=weights)), standing / len(present), float(np.sum(weights))
 
 
 def _level_above_programme(mean: np.ndarray, f_hz: np.ndarray, f_line: float) -> tuple[float, float]:
@@ -268,26 +311,96 @@ def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> Hu
         raise BadValueError(f"mains_hz = {mains_hz!r} is not allowed; choose 50 or 60 (or none for both)")
     if source.seconds < MIN_SECONDS:
         return _not_found(f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s", source.seconds)
-    grid, segments = _read_segments(source)
-    f_hz, mean = grid.f_hz[: segments.shape[1]], segments.mean(axis=0)
-    families = {m: _prominences(mean, f_hz, m) for m in (MAINS_HZ if mains_hz is None else (float(mains_hz),))}
+    grid, top = _segment_grid(source)
+    f_hz, mean = grid.f_hz[:top], _mean_spectrum(source, grid, top)
+    steady, steady_f_hz = _steady_spectrum(source, f_hz, mean)
+    families = {m: _prominences(steady, steady_f_hz, m)
+                for m in (MAINS_HZ if mains_hz is None else (float(mains_hz),))}
     score = {m: sum(p for p in proms.values() if p >= PRESENT_DB) for m, proms in families.items()}
     mains = max(score, key=score.get)
     present = [k for k, p in families[mains].items() if p >= PRESENT_DB]
     if not present:
         return _not_found("no mains line stands out of the programme", source.seconds)
-    per_segment = [_segment_fundamental(power, f_hz, mains, present) for power in segments]
-    persistent = np.mean([share > 0 for _, share in per_segment])
+    per_segment = [_segment_fundamental(power, f_hz, mains, present) for power in _iter_segments(source, grid, top)]
+    persistent = np.mean([share > 0 for _, share, _ in per_segment])
     if persistent < PERSISTENT_SHARE:
         return _not_found(f"mains lines in only {persistent:.0%} of the take (need {PERSISTENT_SHARE:.0%})",
                           source.seconds)
-    track = tuple((float((i * grid.hop + grid.size / 2) / grid.fs), f) for i, (f, _) in enumerate(per_segment)
+    track = tuple((float((i * grid.hop + grid.size / 2) / grid.fs), f) for i, (f, _, _) in enumerate(per_segment)
                   if np.isfinite(f))
     f0s = np.array([f for _, f in track])
-    f0, drift = float(f0s.mean()), float(f0s.max() - f0s.min())
+    weights = [w for f, _, w in per_segment if np.isfinite(f)]
+    f0, drift = float(np.average(f0s, weights=weights)), float(f0s.max() - f0s.min())
     lines = []
     for k in present:
         level, above = _level_above_programme(mean, f_hz, k * f0)
         lines.append(HumLine(k, k * f0, level, above, families[mains][k]))
     return HumReport(True, "", source.seconds, mains, f0, drift, track, tuple(lines),
                      _suggestions(lines, drift))
+
+
+#: Pooling sets aside a take whose fundamental lies this far from the others', octaves
+#: (50 against 60 Hz mains is 0.26 octave; one grid's wander is under 0.01).
+OUTLIER_OCTAVES = 0.1
+
+
+def combine_hum(reports, labels=None) -> HumReport:
+    """Pool the hum found in several takes (one session, one mains) into one report.
+
+    Exact repeats are left out and, with three or more takes that found hum, one whose
+    fundamental lies far from the others' (another mains family) is set aside
+    (:func:`emulate.voice.pooling.select_takes`; ``set_aside`` says which and why). Of the
+    rest, the takes that found hum are pooled: the fundamental is their mean weighted by
+    duration; the drift spans every segment of every pooled take (one notch must hold its
+    depth over all of them); each harmonic's level over the programme is the highest any
+    take measured (the notch is deep enough for the worst take). Hum is found when at least
+    half the pooled takes found it.
+
+    Parameters
+    ----------
+    reports : iterable of HumReport
+        One or more reports of :func:`find_hum`.
+    labels : sequence of str, optional
+        A name per report for ``set_aside`` (default "take 1", "take 2", ...).
+
+    Returns
+    -------
+    HumReport
+
+    Raises
+    ------
+    BadValueError
+        No reports, something other than a HumReport, or labels that do not match.
+
+    Example
+    -------
+    >>> t = np.arange(6 * 48000) / 48000
+    >>> noise = np.random.default_rng(0).standard_normal(t.size) * 0.01
+    >>> takes = [noise + 0.003 * np.sin(2 * np.pi * f * t) for f in (49.98, 50.02)]
+    >>> r = combine_hum([find_hum(x, 48000) for x in takes])
+    >>> r.found, round(r.fundamental_hz, 2), r.drift_hz >= 0.04
+    (True, 50.0, True)
+    """
+    reports = list(reports)
+    if not reports or not all(isinstance(r, HumReport) for r in reports):
+        raise BadValueError(f"reports = {reports!r:.80} is not allowed; need one or more HumReport")
+    labels = label_takes(len(reports), labels)
+    keys = [(r.seconds, r.fundamental_hz, r.track, r.lines) for r in reports]
+    kept, aside = select_takes(keys, [r.fundamental_hz for r in reports], labels, OUTLIER_OCTAVES, "fundamental")
+    pool = [reports[i] for i in kept]
+    seconds = sum(r.seconds for r in pool)
+    found = [r for r in pool if r.found]
+    if not found or len(found) < len(pool) / 2.0:
+        return _not_found(f"hum in {len(found)} of {len(pool)} takes (need half)", seconds, aside)
+    mains = found[0].mains_hz
+    found = [r for r in found if r.mains_hz == mains]
+    f0 = float(np.average([r.fundamental_hz for r in found], weights=[r.seconds for r in found]))
+    points = [f for r in found for _, f in r.track]
+    drift = float(max(points) - min(points))
+    lines = []
+    for k in sorted({line.k for r in found for line in r.lines}):
+        worst = max((line for r in found for line in r.lines if line.k == k), key=lambda x: x.above_programme_db)
+        lines.append(HumLine(k, k * f0, worst.level_dbfs, worst.above_programme_db, worst.prominence_db))
+    track = tuple(point for r in found for point in r.track)
+    return HumReport(True, "", seconds, mains, f0, drift, track, tuple(lines), _suggestions(lines, drift),
+                     tuple(aside))

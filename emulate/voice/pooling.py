@@ -1,8 +1,9 @@
 """Pooling several takes of one speaker: exact duplicates dropped, one outlying take set aside.
 
-The finders pool their per-take reports the same way: a take that is an exact copy of
-one already pooled adds nothing (it would double its own weight), and when three or more
-takes agree and one lies far from them, that one is set aside with the reason.
+The finders pool their per-take reports the same way (:func:`select_takes`): a take that
+is an exact copy of one already pooled adds nothing (it would double its own weight), and
+when three or more takes agree and one lies far from them, that one is set aside with the
+reason; :func:`label_takes` names the takes for those reasons.
 
 What this module does *not* do: it does not weight or average; each finder pools its
 own figures.
@@ -14,7 +15,7 @@ import math
 
 import numpy as np
 
-__all__ = ["distinct", "outlying"]
+__all__ = ["distinct", "label_takes", "outlying", "select_takes"]
 
 
 def distinct(keys) -> tuple[list[int], list[int]]:
@@ -42,7 +43,7 @@ def distinct(keys) -> tuple[list[int], list[int]]:
     return kept, repeats
 
 
-def outlying(frequencies_hz, limit_octaves: float) -> tuple[int | None, str]:
+def outlying(frequencies_hz, limit_octaves: float, what: str = "peak") -> tuple[int | None, str]:
     """The one take whose frequency lies far from the others', if there is one.
 
     With three or more takes, each take's distance (octaves) from the median of the
@@ -56,6 +57,8 @@ def outlying(frequencies_hz, limit_octaves: float) -> tuple[int | None, str]:
         One frequency per take, Hz, > 0.
     limit_octaves : float
         How far is too far, octaves.
+    what : str, optional
+        What the frequency is, for the reason (default "peak").
 
     Returns
     -------
@@ -77,5 +80,64 @@ def outlying(frequencies_hz, limit_octaves: float) -> tuple[int | None, str]:
     spread = float(np.max(np.abs(np.log2(rest / np.median(rest)))))
     if distance[worst] <= limit_octaves or spread > limit_octaves / 2.0:
         return None, ""
-    return worst, (f"its peak {f[worst]:.0f} Hz lies {distance[worst]:.2f} octave from the other takes "
-                   f"(median {np.median(rest):.0f} Hz)")
+    return worst, (f"its {what} {f[worst]:.4g} Hz lies {distance[worst]:.2f} octave from the other takes "
+                   f"(median {np.median(rest):.4g} Hz)")
+
+
+def label_takes(count: int, labels=None) -> list[str]:
+    """One name per take: ``labels`` as text, or "take 1", "take 2", ...
+
+    Raises
+    ------
+    BadValueError
+        When ``labels`` does not hold one name per take.
+
+    Example
+    -------
+    >>> label_takes(2)
+    ['take 1', 'take 2']
+    """
+    from emulate.errors import BadValueError
+
+    names = [f"take {i + 1}" for i in range(count)] if labels is None else [str(s) for s in labels]
+    if len(names) != count:
+        raise BadValueError(f"labels: {len(names)} given for {count} takes; give one per take")
+    return names
+
+
+def select_takes(keys, frequencies_hz, labels, limit_octaves: float,
+                 what: str = "peak") -> tuple[list[int], list[str]]:
+    """The takes to pool, and each one left out with why (repeats first, then one outlier).
+
+    Parameters
+    ----------
+    keys : sequence of hashable
+        One key per take; equal keys are exact repeats (see :func:`distinct`).
+    frequencies_hz : sequence of float
+        Each take's frequency (NaN where the take found nothing: it cannot be an outlier).
+    labels : sequence of str
+        A name per take for the reasons.
+    limit_octaves : float
+        See :func:`outlying`.
+    what : str, optional
+        What the frequency is, for the reason.
+
+    Returns
+    -------
+    (list of int, list of str)
+        The indices kept, and the reasons (``"LABEL: why"``) for each take left out.
+
+    Example
+    -------
+    >>> select_takes([1, 2, 1, 3, 4], [50.0, 50.01, 50.0, 49.99, 60.0], list("abcde"), 0.1, "fundamental")
+    ([0, 1, 3], ['c: an exact repeat of an earlier take', 'e: its fundamental 60 Hz lies 0.26 octave \
+from the other takes (median 50 Hz)'])
+    """
+    kept, repeats = distinct(keys)
+    aside = [f"{labels[i]}: an exact repeat of an earlier take" for i in repeats]
+    found = [i for i in kept if np.isfinite(frequencies_hz[i])]
+    odd, why = outlying([frequencies_hz[i] for i in found], limit_octaves, what)
+    if odd is not None:
+        aside.append(f"{labels[found[odd]]}: {why}")
+        kept.remove(found[odd])
+    return kept, aside

@@ -1,28 +1,36 @@
 """The resonance finder: one narrow, persistent spectral peak (a room mode, a stand or capsule ringing).
 
-The finder reads a take once, block by block:
+A voice's own harmonics and formants are peaks too, and they move; a resonance is fixed
+and colours everything the microphone hears, the room's quiet noise between words
+included. So the finder reads the resonance where the voice is absent:
 
-1. frames: 1 s Hann frames every 0.5 s, mixed to mono (about 0.7 Hz bins with zero
-   padding, fine enough for a Q of 20 at 100 Hz, whose -3 dB width is 5 Hz); the mean
-   power spectrum over the take, and over each quarter of it;
-2. neighbourhood: the mean spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at
-   most 20 kHz), its level in dB against the running median over +-half an octave; the
-   excess is where the take stands over its own neighbourhood;
-3. candidates: local maxima of the excess of at least 4 dB; for each, a second-order
-   peaking response (the analog prototype of R. Bristow-Johnson's audio EQ cookbook
-   peaking filter, ``H(s) = (s^2 + s (A/Q) w0 + w0^2) / (s^2 + s w0 / (A Q) + w0^2)``,
-   ``A = 10**(gain/40)``) is fitted by least squares to the excess (dB) within two of its
-   widths, on the fine bins: frequency, gain and Q;
-4. accepted: a fit with gain >= 5 dB and Q >= 1.5 (narrow: broad tilts and formant
-   averages are not ringing), standing at least half its gain over the neighbourhood in
-   at least three quarters of the take (persistent), and where the fit explains the
-   excess (RMS misfit under a third of the gain);
-5. the strongest accepted peak is reported with a suggested notch: at its frequency, its
+1. quiet moments: 20 ms frames within 6 dB of the take's quietest tenth, each run less
+   one frame at each end (the edges of words), at most 60 s of them in all;
+2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): 0.2 s
+   Hann frames over the quiet moments joined end to end (at least 4 frames, else nothing is
+   examined), also over each half of them;
+3. neighbourhood: the spectrum in dB against its running median over +-1 octave; local
+   maxima standing 2.5 dB out are candidates (the 24 strongest);
+4. fit: for each, a second-order peaking response (the analog prototype of R.
+   Bristow-Johnson's audio EQ cookbook peaking filter, ``H(s) = (s^2 + s (A/Q) w0 + w0^2) /
+   (s^2 + s w0 / (A Q) + w0^2)``, ``A = 10**(gain/40)``), as the Hann frame sees it (its
+   power smeared over the window's main lobe), plus a level and a tilt, by least squares
+   on the spectrum (dB) within two of its widths: frequency, gain and Q;
+5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
+   fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
+   half its gain out in both halves of the quiet material (persistent);
+6. the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
+Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
+the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 %; at
+100-250 Hz the 0.2 s frames (5 Hz apart) resolve a narrow peak coarsely, and the Q is the
+weak part; longer takes (more quiet material) do better.
+
 What this module does *not* do: it does not tell a resonance of the room from one of the
-voice or the instrument; a steady tone in the programme reads as a (very narrow)
-resonance too.
+microphone; a resonance that only the voice excites (a take whose quiet moments are
+electrical noise or digital silence) is not seen; a steady tone in the quiet moments
+reads as a (very narrow) resonance.
 """
 
 from __future__ import annotations
@@ -32,18 +40,24 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from emulate.voice.frames import FrameGrid, iter_frame_power
+from emulate.voice.frames import FrameGrid, iter_frame_power, iter_mono, runs
+from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
+from emulate.voice.pooling import label_takes, select_takes
 from emulate.voice.takes import TakeSource
 
-__all__ = ["ResonancePeak", "ResonanceReport", "find_resonance", "peaking_db"]
+__all__ = ["ResonancePeak", "ResonanceReport", "combine_resonance", "find_resonance", "peaking_db"]
 
-#: Frame lengths, s (hop: half a frame): long frames below SPLIT_HZ, short ones above.
-LONG_FRAME_S = 1.0
-SHORT_FRAME_S = 0.2
-SPLIT_HZ = 400.0
+#: Frame length of the quiet spectrum, s (hop: a quarter frame).
+FRAME_S = 0.2
+#: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
+GATE_FRAME_S = 0.02
+QUIET_WITHIN_DB = 6.0
+QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
+#: A range is examined only with at least this many quiet frames (fewer scatter too much).
+MIN_FRAMES = 4
 #: Lowest frequency examined, Hz; the highest is 0.45 fs, at most TOP_HZ.
 LOW_HZ = 60.0
 TOP_HZ = 20000.0
@@ -51,17 +65,18 @@ TOP_HZ = 20000.0
 GRID_PER_OCTAVE = 96
 NEIGHBOURHOOD_OCTAVES = 1.0
 #: A candidate's excess over the neighbourhood, dB.
-CANDIDATE_DB = 3.0
+CANDIDATE_DB = 2.5
 #: An accepted peak's fitted gain (dB) and Q ...
 MIN_GAIN_DB = 4.0
+MAX_GAIN_DB = 30.0
 MIN_Q = 1.5
-MAX_Q = 60.0
-#: ... its share of quarters where it stands at least half its gain out ...
-PERSISTENT_SHARE = 0.75
+MAX_Q = 40.0
+#: ... standing at least half its gain out in both halves of the take ...
+PERSISTENT_SHARE = 1.0
 #: ... and its largest RMS misfit as a share of its gain.
-MAX_MISFIT = 1.0 / 3.0
+MAX_MISFIT = 1.0 / 4.0
 #: Candidates fitted at most (strongest first).
-MAX_CANDIDATES = 8
+MAX_CANDIDATES = 24
 
 
 @dataclass(frozen=True)
@@ -103,7 +118,9 @@ class ResonanceReport:
     notch : SuggestedNotch or None
         At the peak's frequency and Q, as deep as its gain.
     grid_hz, excess_db : numpy.ndarray
-        The mean excess over the neighbourhood (dB) the finder read, for pictures.
+        The quiet spectrum's excess over the neighbourhood (dB) the finder read, for pictures.
+    set_aside : tuple of str
+        Pooled reports only: the takes left out and why (see :func:`combine_resonance`).
     """
 
     found: bool
@@ -114,6 +131,7 @@ class ResonanceReport:
     notch: SuggestedNotch | None
     grid_hz: np.ndarray = field(default=None, repr=False, compare=False)
     excess_db: np.ndarray = field(default=None, repr=False, compare=False)
+    set_aside: tuple[str, ...] = ()
 
 
 def peaking_db(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:
@@ -137,7 +155,7 @@ def _grid_hz(fs: float) -> np.ndarray:
 
 def _on_grid(f_hz: np.ndarray, power: np.ndarray, grid_hz: np.ndarray) -> np.ndarray:
     """Frame spectra (frames, bins) as mean power per bin in each grid cell (interpolated where a
-    cell holds no bin), float32."""
+    cell holds no bin)."""
     edges = np.sqrt(grid_hz[1:] * grid_hz[:-1])
     edges = np.concatenate(([grid_hz[0] ** 2 / edges[0]], edges, [grid_hz[-1] ** 2 / edges[-1]]))
     index = np.searchsorted(f_hz, edges)
@@ -147,43 +165,99 @@ def _on_grid(f_hz: np.ndarray, power: np.ndarray, grid_hz: np.ndarray) -> np.nda
     empty = count == 0
     if empty.any():
         mean[:, empty] = np.stack([np.interp(grid_hz[empty], f_hz, row) for row in power])
-    return mean.astype(np.float32)
-
-
-def _frames_excess_db(source: TakeSource, grid_hz: np.ndarray, frame_s: float) -> np.ndarray:
-    """Each frame's level on the grid (dB) over its own running median within +-half an octave,
-    (frames, grid points) float32; frames of digital silence left out."""
-    from scipy.ndimage import median_filter
-
-    grid = FrameGrid.at(source.fs, frame_s, frame_s / 2.0, padded=True)
-    width = 2 * round(NEIGHBOURHOOD_OCTAVES * GRID_PER_OCTAVE) + 1
-    out = []
-    for power in iter_frame_power(source, grid):
-        power = power[power.sum(axis=1) > 0]
-        level = _level_db(_on_grid(grid.f_hz, power, grid_hz).astype(np.float64))
-        out.append((level - median_filter(level, size=(1, width), mode="nearest")).astype(np.float32))
-    return np.concatenate(out) if out else np.zeros((0, grid_hz.size), np.float32)
-
-
-def _spectra(source: TakeSource, grid_hz: np.ndarray) -> tuple[np.ndarray, list[np.ndarray]]:
-    """The mean over frames of each frame's excess over its neighbourhood (dB), and the same
-    over each quarter of the take: long frames below SPLIT_HZ (resolution), short above
-    (a frame holds about one syllable, so one vowel's formants do not persist)."""
-    low = grid_hz < SPLIT_HZ
-    parts = [_frames_excess_db(source, grid_hz, LONG_FRAME_S)[:, low],
-             _frames_excess_db(source, grid_hz, SHORT_FRAME_S)[:, ~low]]
-    mean = np.concatenate([p.mean(axis=0) for p in parts])
-    quarters = [np.concatenate([q.mean(axis=0) for q in qs])
-                for qs in zip(*(np.array_split(p, 4) for p in parts)) if all(q.size for q in qs)]
-    return mean, quarters
+    return mean
 
 
 def _level_db(power: np.ndarray) -> np.ndarray:
     return 10.0 * np.log10(np.maximum(power, 1e-30))
 
 
-def _fit(grid_hz, level, excess, i: int) -> tuple[float, float, float, float] | None:
-    """Fit peaking response + a level tilt near grid point ``i``; (f0, gain, Q, misfit) or None."""
+@dataclass(frozen=True)
+class _Quiet:
+    """The take's quiet spectrum on the grid (dB) at one frame length, over the whole take and
+    over each half (for persistence)."""
+
+    frame_s: float
+    level_db: np.ndarray
+    halves_db: tuple[np.ndarray, ...]
+    frames: int
+
+
+def _quiet_moments(source: TakeSource) -> np.ndarray:
+    """The take's quiet moments (between words: the room's own noise, through the same
+    resonance), joined end to end (float32), at most QUIET_MAX_S seconds in all:
+    runs of 20 ms frames whose power lies within QUIET_WITHIN_DB of the take's quietest
+    tenth (frames of digital silence aside), less one frame at each end (word edges)."""
+    grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
+    power = np.concatenate([p.sum(axis=1) for p in iter_frame_power(source, grid)] or [np.zeros(0)])
+    live = power[power > 0]
+    if live.size == 0:
+        return np.zeros(0, np.float32)
+    quiet = (power > 0) & (power <= np.percentile(live, 10.0) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
+    spans, budget = [], round(QUIET_MAX_S * source.fs)
+    for a, b in runs(quiet):
+        if b - a > 2 and budget > 0:
+            start, stop = (a + 1) * grid.hop, (b - 1) * grid.hop
+            spans.append((start, min(stop, start + budget)))
+            budget -= spans[-1][1] - start
+    pieces, offset, first = [[] for _ in spans], 0, 0  # spans are in order: walk them with the blocks
+    for block in iter_mono(source):
+        end = offset + block.size
+        while first < len(spans) and spans[first][1] <= offset:
+            first += 1
+        for i in range(first, len(spans)):
+            a, b = spans[i]
+            if a >= end:
+                break
+            pieces[i].append(block[max(a, offset) - offset : min(b, end) - offset].astype(np.float32))
+        offset = end
+        if first >= len(spans):
+            break
+    return np.concatenate([part for piece in pieces for part in piece] or [np.zeros(0, np.float32)])
+
+
+def _quiet_spectrum(quiet: np.ndarray, fs: float, grid_hz: np.ndarray, frame_s: float) -> _Quiet:
+    """The mean power spectrum of the quiet moments with frames of ``frame_s`` (hop a quarter
+    of it), over all of them and over each half."""
+    grid = FrameGrid.at(fs, frame_s, frame_s / 4.0, padded=True)
+    rows = [_on_grid(grid.f_hz, power, grid_hz)
+            for power in iter_frame_power(TakeSource.from_array(quiet, fs), grid)] if quiet.size >= grid.size else []
+    if sum(r.shape[0] for r in rows) < MIN_FRAMES:
+        return _Quiet(frame_s, np.zeros(grid_hz.size), (), 0)
+    rows = np.concatenate(rows)
+    halves = tuple(_level_db(chunk.mean(axis=0)) for chunk in np.array_split(rows, 2))
+    return _Quiet(frame_s, _level_db(rows.mean(axis=0)), halves, rows.shape[0])
+
+
+def _excess(level_db: np.ndarray) -> np.ndarray:
+    """Level over its running median within +-NEIGHBOURHOOD_OCTAVES, dB."""
+    from scipy.ndimage import median_filter
+
+    width = 2 * round(NEIGHBOURHOOD_OCTAVES * GRID_PER_OCTAVE) + 1
+    return level_db - median_filter(level_db, size=width, mode="nearest")
+
+
+def _window_kernel(frame_s: float) -> tuple[np.ndarray, np.ndarray]:
+    """Frequency offsets (Hz) and weights of a Hann frame's power response (main lobe)."""
+    offsets = np.linspace(-2.0, 2.0, 33) / frame_s
+    x = offsets * frame_s
+    # Hann window transform: sinc(x) / (1 - x^2) (the main lobe spans +-2 bins of 1/T)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = np.where(np.abs(np.abs(x) - 1.0) < 1e-9, 0.5, np.sinc(x) / (1.0 - x * x))
+    weights = w**2
+    return offsets, weights / weights.sum()
+
+
+def _smeared_db(f_hz, f0: float, gain: float, q: float, frame_s: float) -> np.ndarray:
+    """The peaking response as a Hann frame of ``frame_s`` sees it (its power smeared over the
+    window's main lobe), dB."""
+    offsets, weights = _window_kernel(frame_s)
+    f = np.abs(np.asarray(f_hz)[:, None] + offsets[None, :]) + 1e-9
+    return 10.0 * np.log10((10.0 ** (peaking_db(f, f0, gain, q) / 10.0)) @ weights)
+
+
+def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, float, float] | None:
+    """Fit the smeared peaking response + a level tilt near grid point ``i``; (f0, gain, Q, misfit)."""
     from scipy.optimize import least_squares
 
     centre, gain0 = float(grid_hz[i]), float(excess[i])
@@ -201,7 +275,7 @@ def _fit(grid_hz, level, excess, i: int) -> tuple[float, float, float, float] | 
     f_fit, target = grid_hz[inside], level[inside]
 
     def misfit(p):
-        return peaking_db(f_fit, p[0], p[1], p[2]) + p[3] + p[4] * np.log2(f_fit / centre) - target
+        return _smeared_db(f_fit, p[0], p[1], p[2], frame_s) + p[3] + p[4] * np.log2(f_fit / centre) - target
 
     start = [centre, max(gain0, 1.0), q0, float(level[i] - gain0), 0.0]
     try:
@@ -213,26 +287,33 @@ def _fit(grid_hz, level, excess, i: int) -> tuple[float, float, float, float] | 
     return float(f0), float(gain), float(q), float(np.sqrt(np.mean(result.fun**2)))
 
 
-def _standing_share(grid_hz, quarters, f0: float, gain: float) -> float:
-    """Share of the quarters where the take stands at least half the gain out at ``f0``."""
-    standing = [float(np.interp(f0, grid_hz, q)) >= gain / 2.0 for q in quarters]
-    return float(np.mean(standing)) if standing else 0.0
+def _standing_share(grid_hz, halves, f0: float, gain: float) -> float:
+    """Share of the take's halves where it stands at least half the gain out at ``f0``."""
+    return float(np.mean([float(np.interp(f0, grid_hz, _excess(h))) >= gain / 2.0 for h in halves]))
 
 
-def _peaks(grid_hz, level, quarters) -> list[ResonancePeak]:
-    """Accepted peaks of the mean excess spectrum (see the module's stages 3-4)."""
-    excess = level
-    maxima = np.flatnonzero((excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:])
-                            & (excess[1:-1] >= CANDIDATE_DB)) + 1
+def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
+    """Local maxima of the quiet spectrum's excess: (excess dB, grid index), strongest first."""
+    if quiet.frames < MIN_FRAMES:
+        return []
+    excess = _excess(quiet.level_db)
+    peak = np.zeros(excess.size, bool)
+    peak[1:-1] = (excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:]) & (excess[1:-1] >= CANDIDATE_DB)
+    found = [(float(excess[i]), int(i)) for i in np.flatnonzero(peak)]
+    return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
+
+
+def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
+    """Accepted peaks of the quiet spectrum (see the module's stages 3-5)."""
     accepted = []
-    for i in maxima[np.argsort(-excess[maxima])][:MAX_CANDIDATES]:
-        fit = _fit(grid_hz, level, excess, int(i))
+    for _, i in _candidates(quiet):
+        fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.frame_s)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
-        if gain < MIN_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain:
+        if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain:
             continue
-        share = _standing_share(grid_hz, quarters, f0, gain)
+        share = _standing_share(grid_hz, quiet.halves_db, f0, gain)
         if share >= PERSISTENT_SHARE:
             accepted.append(ResonancePeak(f0, q, gain, share))
     return accepted
@@ -272,13 +353,15 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     (True, True)
     """
     source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
+    quiet = _quiet_moments(source)  # reads the whole take first: a damaged file is refused, short or not
     if source.seconds < MIN_SECONDS:
         return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
                                source.seconds, None, (), None)
     grid_hz = _grid_hz(source.fs)
     accepted = []
-    mean, quarters = _spectra(source, grid_hz)
-    for peak in _peaks(grid_hz, mean, quarters):
+    spectrum = _quiet_spectrum(quiet, source.fs, grid_hz, FRAME_S)
+    mean = _excess(spectrum.level_db)
+    for peak in _peaks(grid_hz, spectrum):
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
     if not accepted:
@@ -288,3 +371,65 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     peak = accepted[0]
     notch = SuggestedNotch.of("resonance", peak.frequency_hz, peak.q, peak.gain_db)
     return ResonanceReport(True, "", source.seconds, peak, tuple(accepted[1:]), notch, grid_hz, mean)
+
+
+#: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).
+OUTLIER_OCTAVES = 1.0 / 12.0
+
+
+def combine_resonance(reports, labels=None) -> ResonanceReport:
+    """Pool the resonance found in several takes (one room, one microphone) into one report.
+
+    Exact repeats are left out and, with three or more takes that found a peak, one whose
+    peak lies more than a semitone from the others' is set aside
+    (:func:`emulate.voice.pooling.select_takes`; ``set_aside`` says which and why). The
+    resonance is found when at least half the pooled takes found it; its frequency is the
+    duration-weighted geometric mean of theirs, its Q and gain the duration-weighted means,
+    its persistence the share of pooled takes that found it.
+
+    Parameters
+    ----------
+    reports : iterable of ResonanceReport
+        One or more reports of :func:`find_resonance`.
+    labels : sequence of str, optional
+        A name per report for ``set_aside`` (default "take 1", "take 2", ...).
+
+    Returns
+    -------
+    ResonanceReport
+        Without the spectra (``grid_hz`` and ``excess_db`` are None).
+
+    Raises
+    ------
+    BadValueError
+        No reports, something other than a ResonanceReport, or labels that do not match.
+
+    Example
+    -------
+    >>> peak = ResonancePeak(1000.0, 8.0, 12.0, 1.0)
+    >>> a = ResonanceReport(True, "", 10.0, peak, (), None)
+    >>> b = ResonanceReport(True, "", 12.0, ResonancePeak(1010.0, 8.0, 12.0, 1.0), (), None)
+    >>> r = combine_resonance([a, b, a])
+    >>> round(r.peak.frequency_hz), r.set_aside
+    (1005, ('take 3: an exact repeat of an earlier take',))
+    """
+    reports = list(reports)
+    if not reports or not all(isinstance(r, ResonanceReport) for r in reports):
+        raise BadValueError(f"reports = {reports!r:.80} is not allowed; need one or more ResonanceReport")
+    labels = label_takes(len(reports), labels)
+    keys = [(r.seconds, r.peak, r.others) for r in reports]
+    peaks = [r.peak.frequency_hz if r.found else float("nan") for r in reports]
+    kept, aside = select_takes(keys, peaks, labels, OUTLIER_OCTAVES)
+    pool = [reports[i] for i in kept]
+    seconds = sum(r.seconds for r in pool)
+    found = [r for r in pool if r.found]
+    if not found or len(found) < len(pool) / 2.0:
+        return ResonanceReport(False, f"a resonance in {len(found)} of {len(pool)} takes (need half)", seconds,
+                               None, (), None, set_aside=tuple(aside))
+    w = np.array([r.seconds for r in found])
+    f0 = float(2.0 ** np.average([math.log2(r.peak.frequency_hz) for r in found], weights=w))
+    q = float(np.average([r.peak.q for r in found], weights=w))
+    gain = float(np.average([r.peak.gain_db for r in found], weights=w))
+    peak = ResonancePeak(f0, q, gain, len(found) / len(pool))
+    return ResonanceReport(True, "", seconds, peak, (), SuggestedNotch.of("resonance", f0, q, gain),
+                           set_aside=tuple(aside))

@@ -54,10 +54,11 @@ from emulate.analog.response import measure
 from emulate.report.summary import json_text, rows_as_csv
 from emulate.validate import check_count, check_range
 
-__all__ = ["TIE_DB", "MAX_STEPS", "MAX_WORKERS", "SweepPlan", "held_by",
-           "notch_steps", "JobResult", "SweepResult", "setting_label", "run_sweep", "check_workers",
-           "MEASURES", "summarise", "pick_setting", "rows_as_csv", "read_pick", "check_out",
-           "sweep_into", "write_summary"]
+__all__ = ["TIE_DB", "MAX_STEPS", "PASSIVE_Q", "Q_STEPS_TOP", "Setting", "MAX_WORKERS", "SweepPlan",
+           "mix_steps", "q_steps", "held_by", "notch_steps", "JobResult", "SweepResult", "setting_label",
+           "render_path", "removed_path", "run_sweep", "check_workers", "MEASURES", "summarise",
+           "pick_setting", "rows_as_csv", "read_pick", "check_out", "sweep_into", "write_listening_page",
+           "write_summary"]
 
 TIE_DB = 0.25  # relative reductions this close count as equal (a judgement call)
 MAX_STEPS = 64
@@ -397,7 +398,7 @@ def _dry_take(take: Path) -> _DryTake:
     band_hz = report.band_hz if report.usable else report.search_band_hz
     levels = compare.take_levels(x, fs, band_hz)
     _check_measurable(take, levels)
-    return _DryTake(levels, (start, stop), x[start:stop], fs, audio.read_info(take).subtype)
+    return _DryTake(levels, (start, stop), x[start:stop].copy(), fs, audio.read_info(take).subtype)  # not the take
 
 
 def _check_measurable(take: Path, levels) -> None:
@@ -418,7 +419,7 @@ def _render_job(take: Path, setting: Setting, network, dry_levels, excerpt, out_
     result = JobResult(take=str(take), setting=setting.label, q=_q_value(setting.q), mix=setting.mix,
                        notch_target_hz=setting.notch_hz, notch_hz=measure(network.response).notch_hz,
                        path=str(out_path), **measures)
-    return result, wet[excerpt[0]:excerpt[1]]
+    return result, wet[excerpt[0]:excerpt[1]].copy()  # a copy: a slice would keep the whole render alive
 
 
 MEASURES = ("sibilance_reduction_db", "loudness_change_db", "intelligibility_cost")

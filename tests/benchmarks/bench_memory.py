@@ -1,8 +1,8 @@
 """Memory benchmark: peak resident memory of each command of issue 8 against the size of its work.
 
-Every figure is one fresh ``python -m emulate ...`` process; its peak resident set
-(``ru_maxrss`` from ``os.wait4``, which includes any worker it waited for) is read
-when it ends. Each command runs at a small and a large size of its work, and the
+Every figure is one fresh ``python -m emulate ...`` process, started by a small meter
+process; its peak resident set (``ru_maxrss`` of the meter's children, which includes any
+worker the command waited for) is read when it ends. Each command runs at a small and a large size of its work, and the
 report gives both peaks, the growth per unit of work and the goal from issue 8:
 
 * ``render``      a --minutes-long take (default 1 and 6 minutes), 48 kHz stereo
@@ -55,19 +55,30 @@ def write_take(path: Path, seconds: float, sibilance_hz: float = 6000.0) -> Path
     return path
 
 
+# A small meter process runs the command and reports its children's peak resident set: a
+# child forked straight from this (large) process would start from this process's peak.
+METER = """
+import resource, subprocess, sys
+run = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+sys.stderr.write(run.stderr[-500:])
+sys.exit(run.returncode)
+"""
+
+
 def peak_mb(args: list[str], cwd: Path) -> tuple[float, float]:
-    """Peak resident memory (MB) and wall time (s) of one fresh ``python -m emulate`` process."""
+    """Peak resident memory (MB) and wall time (s) of one fresh ``python -m emulate`` process.
+
+    The peak is ``ru_maxrss`` over the command and every worker it waited for.
+    """
     env = dict(os.environ, PYTHONPATH=str(ROOT), EMULATE_PRESETS_DIR=str(cwd / "presets"))
     t0 = time.perf_counter()
-    child = subprocess.Popen([sys.executable, "-m", "emulate", *args], cwd=cwd, env=env,
-                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    _, status, usage = os.wait4(child.pid, 0)
+    run = subprocess.run([sys.executable, "-c", METER, sys.executable, "-m", "emulate", *args], cwd=cwd,
+                         env=env, capture_output=True, text=True)
     wall = time.perf_counter() - t0
-    child.returncode = os.waitstatus_to_exitcode(status)
-    if child.returncode != 0:
-        raise SystemExit(f"{' '.join(args)} failed: {child.stderr.read().decode()[-500:]}")
-    child.stderr.close()
-    return usage.ru_maxrss / 1024.0, wall
+    if run.returncode != 0:
+        raise SystemExit(f"{' '.join(args)} failed: {run.stderr}")
+    return int(run.stdout.split()[-1]) / 1024.0, wall
 
 
 def measure(name: str, runs: dict, unit: str, cwd: Path) -> dict:
