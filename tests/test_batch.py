@@ -207,6 +207,13 @@ class TestPrepareBatch:
         checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season), force=True)
         assert [job.replace for job in checked.jobs if job.out_path.endswith("host-b/t1.wav")] == [True]
 
+    def test_a_foreign_file_at_an_excerpt_path_is_refused_without_force(self, season):
+        excerpt = season / "renders" / "listening" / "host-b" / "t1.wav--dry.wav"
+        excerpt.parent.mkdir(parents=True)
+        excerpt.write_text("someone's file")
+        with pytest.raises(OutputRefusedError, match="t1.wav--dry.wav.*--force"):
+            batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
+
     def test_a_foreign_summary_is_refused_without_force(self, season):
         (season / "renders").mkdir()
         (season / "renders" / "summary.json").write_text('{"rows": []}')

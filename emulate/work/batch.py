@@ -201,10 +201,12 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
             jobs.append(replace(job, replace=True))
         else:
             refused.append(planned.out_path)
+        ours = str(planned.out_path.resolve()) in earlier or force
+        refused += [Path(e) for e in job.excerpts or () if os.path.lexists(e) and not ours]
     if refused:
-        raise OutputRefusedError(f"{refused[0]}: exists, is out of date and no earlier batch here wrote it "
-                                 f"({len(refused)} such file(s)); pass --force to replace them, or choose "
-                                 "another output folder")
+        raise OutputRefusedError(f"{refused[0]}: exists, no earlier batch here wrote it and the batch would "
+                                 f"replace it ({len(refused)} such file(s)); pass --force to replace them, or "
+                                 "choose another output folder")
     made = [Path(path) for j in jobs for path in (j.out_path, *(j.excerpts or ()))]
     return Batch(plan, jobs, kept, _folders_missing(out, made), page)
 
