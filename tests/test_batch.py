@@ -282,6 +282,15 @@ class TestRunBatch:
             assert b.clipped_samples is None  # not known from the file alone
         assert len(list((season / "renders" / "listening").rglob("*--dry.wav"))) == 3  # the page's excerpts again
 
+    def test_regression_a_killed_runs_temporary_beside_a_complete_render_goes(self, season):
+        # kill -9 between the link onto the target and the unlink of the temporary
+        first = self.run(season)
+        target = Path(first[0].output)
+        stale = target.parent / f".{target.name}.999999999-0123456789ab.part"
+        os.link(target, stale)
+        self.run(season)
+        assert not stale.exists() and target.exists()
+
     def test_regression_an_interrupted_batch_keeps_only_complete_renders(self, season):
         checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
 

@@ -548,7 +548,8 @@ class ClusterRunner:
 def run_batch(batch: Batch, runner, *, progress=None) -> list[TakeResult]:
     """Run a checked batch; write the summary (also of what is complete when interrupted).
 
-    ``progress(frames)`` is called as each take finishes. On any error or interruption
+    ``progress(frames)`` is called as each take finishes. Temporaries that a killed
+    run left beside renders kept now are removed first. On any error or interruption
     the runner is stopped, the renders in flight are removed (their temporaries too,
     once their workers are gone), folders the batch made and left empty are removed,
     the summary of the complete renders is written, and the exception goes on.
@@ -560,6 +561,8 @@ def run_batch(batch: Batch, runner, *, progress=None) -> list[TakeResult]:
     """
     results = list(batch.kept)
     pending = {job.index: job for job in batch.jobs}
+    for path in [r.output for r in batch.kept] + [j.out_path for j in batch.jobs if j.action == "measure"]:
+        files.remove_stale(path)  # a killed run's temporary beside a render it completed (link, then unlink)
     try:
         for job, result in runner.results(batch.jobs):
             results.append(result)
