@@ -52,8 +52,8 @@ class Case:
     inject: str | None = None  # "disk_full": every audio write and picture save fails with ENOSPC;
     # "interrupt_batch": Ctrl-C lands in a batch as its second take starts
     env: dict = field(default_factory=dict)
-    may_keep: tuple[str, ...] = ()  # glob patterns allowed to appear even on failure (complete outputs kept)
     slow: bool = False  # a whole end-to-end run of seconds: with the slow checks (pytest -m slow)
+    may_keep: tuple[str, ...] = ()  # glob patterns allowed to appear even on failure (complete outputs kept)
 
 
 @dataclass
@@ -505,58 +505,6 @@ def _cases() -> list[Case]:
         _c("demo presets missing", "demo --out {w}/demo --seconds 1 --presets {w}/presets", 1, "demo presets"),
         _c("regression_full_disk_demo", "demo --out {w}/demo --seconds 1", 1, "writing failed",
            inject="disk_full"),
-        # --- batch -------------------------------------------------------------------------------
-        _c("batch inline ok", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 0, "2 rendered",
-           may_create=batch_out),
-        _c("batch plan ok", f"batch {{w}}/plan.toml --workers 1 {BP}", 0, "2 rendered", may_create=batch_out),
-        _c("batch nested out", f"batch {B} --takes {{w}}/season/a --out {{w}}/x/y/renders --workers 1", 0,
-           "1 rendered", may_create=("x", "x/*", "x/*/*", "x/*/*/*")),
-        _c("batch same names in two folders", f"batch {B} --takes {{w}}/take.wav --takes {{w}}/same/take.wav "
-           f"--out {{w}}/renders --workers 1", 0, "2 rendered", may_create=batch_out),
-        _c("batch silent take", f"batch {B} --takes {{w}}/silent.wav --out {{w}}/renders --workers 1", 0,
-           "n/a", may_create=batch_out),
-        _c("batch no plan", "batch", 2, "plan file"),
-        _c("batch inline incomplete", "batch --speaker A --preset host", 2, "missing --takes, --out"),
-        _c("batch plan and inline", f"batch {{w}}/plan.toml {B} --takes {{w}}/season", 2, "not both"),
-        _c("batch workers and cluster", f"batch {{w}}/plan.toml --workers 2 --cluster tcp://127.0.0.1:9 {BP}",
-           2, "not both"),
-        _c("batch plan missing", f"batch {{w}}/noplan.toml {BP}", 1, "cannot read the batch plan"),
-        _c("batch plan not toml", f"batch {{w}}/notoml.toml {BP}", 1, "not a TOML"),
-        _c("batch plan unknown key", f"batch {{w}}/badplan.toml {BP}", 1, "unknown key.*speakers"),
-        _c("batch plan not utf8", f"batch {{w}}/latin1.toml {BP}", 1, "UTF-8"),
-        _c("batch preset missing", "batch --speaker A --preset nobody --takes {w}/season --out {w}/renders "
-           "--presets {w}/presets", 1, "no preset 'nobody'"),
-        _c("batch preset broken", "batch --speaker A --preset broken --takes {w}/season --out {w}/renders "
-           "--presets {w}/presets", 1, "broken"),
-        _c("batch unreadable take", f"batch {B} --takes {{w}}/*.wav --out {{w}}/renders", 1, "empty file"),
-        _c("batch pattern finds nothing", f"batch {B} --takes {{w}}/*.mp3 --out {{w}}/renders", 1, "matches no file"),
-        _c("batch folder without audio", f"batch {B} --takes {{w}}/busy --out {{w}}/renders", 1, "no audio files"),
-        _c("batch take listed twice", f"batch {B} --takes {{w}}/season --takes {{w}}/season/a/take.wav "
-           "--out {w}/renders", 1, "listed twice"),
-        _c("regression_batch_never_writes_inside_its_input_folder", f"batch {B} --takes {{w}}/season "
-           "--out {w}/season/renders", 1, "overlaps"),
-        _c("regression_batch_never_writes_over_a_take", f"batch {B} --takes {{w}}/holds-take/take.wav "
-           "--out {w}/holds-take", 1, "overlaps"),
-        _c("batch out contains the takes", f"batch {B} --takes {{w}}/season/a --out {{w}}/season", 1, "overlaps"),
-        _c("batch out is a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile", 2, "file"),
-        _c("batch out under a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile/r", 1, "not a folder"),
-        _c("batch workers zero", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 0", 1, "workers"),
-        _c("batch workers huge", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 100000", 1,
-           "workers"),
-        _c("batch existing output without force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old", 1,
-           "no earlier batch.*--force"),
-        _c("batch existing output force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old --force", 0,
-           "1 rendered", may_change=("renders-old/take.wav",), may_create=("renders-old/*",)),
-        _c("batch foreign summary", f"batch {B} --takes {{w}}/season --out {{w}}/sw", 1, "not an earlier batch"),
-        _c("batch foreign summary force", f"batch {B} --takes {{w}}/season --out {{w}}/sw --force --workers 1", 0,
-           "2 rendered", may_change=("sw/summary.json",), may_create=("sw/*", "sw/*/*")),
-        _c("batch truncated flac", f"batch {B} --takes {{w}}/cut.flac --out {{w}}/renders", 1, "damaged or cut short"),
-        _c("regression_batch_interrupted_keeps_only_complete_renders", f"batch {B} --takes {{w}}/season "
-           "--out {w}/renders --workers 1", 1, "interrupted.*kept.*resume", inject="interrupt_batch",
-           may_keep=("renders", "renders/a", "renders/a/take.wav", "renders/summary.*", "renders/index.html",
-                     "renders/listening", "renders/listening/a", "renders/listening/a/take.wav--*.wav")),
-        _c("batch full disk", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 1,
-           "writing failed", inject="disk_full"),
         # --- measure ----------------------------------------------------------------------------
         _c("measure stimulus ok", "measure stimulus {w}/sweep.wav --length 1", 0, "hearing",
            may_create=("sweep.wav",)),
@@ -611,6 +559,58 @@ def _cases() -> list[Case]:
         _c("resonance missing take", "resonance {w}/nothere.wav", 1, "nothere"),
         _c("resonance plot disk full", "resonance {w}/take.wav --plot {w}/r.png", 1, "space|r.png",
            inject="disk_full"),
+        # --- batch -------------------------------------------------------------------------------
+        _c("batch inline ok", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 0, "2 rendered",
+           may_create=batch_out),
+        _c("batch plan ok", f"batch {{w}}/plan.toml --workers 1 {BP}", 0, "2 rendered", may_create=batch_out),
+        _c("batch nested out", f"batch {B} --takes {{w}}/season/a --out {{w}}/x/y/renders --workers 1", 0,
+           "1 rendered", may_create=("x", "x/*", "x/*/*", "x/*/*/*")),
+        _c("batch same names in two folders", f"batch {B} --takes {{w}}/take.wav --takes {{w}}/same/take.wav "
+           f"--out {{w}}/renders --workers 1", 0, "2 rendered", may_create=batch_out),
+        _c("batch silent take", f"batch {B} --takes {{w}}/silent.wav --out {{w}}/renders --workers 1", 0,
+           "n/a", may_create=batch_out),
+        _c("batch no plan", "batch", 2, "plan file"),
+        _c("batch inline incomplete", "batch --speaker A --preset host", 2, "missing --takes, --out"),
+        _c("batch plan and inline", f"batch {{w}}/plan.toml {B} --takes {{w}}/season", 2, "not both"),
+        _c("batch workers and cluster", f"batch {{w}}/plan.toml --workers 2 --cluster tcp://127.0.0.1:9 {BP}",
+           2, "not both"),
+        _c("batch plan missing", f"batch {{w}}/noplan.toml {BP}", 1, "cannot read the batch plan"),
+        _c("batch plan not toml", f"batch {{w}}/notoml.toml {BP}", 1, "not a TOML"),
+        _c("batch plan unknown key", f"batch {{w}}/badplan.toml {BP}", 1, "unknown key.*speakers"),
+        _c("batch plan not utf8", f"batch {{w}}/latin1.toml {BP}", 1, "UTF-8"),
+        _c("batch preset missing", "batch --speaker A --preset nobody --takes {w}/season --out {w}/renders "
+           "--presets {w}/presets", 1, "no preset 'nobody'"),
+        _c("batch preset broken", "batch --speaker A --preset broken --takes {w}/season --out {w}/renders "
+           "--presets {w}/presets", 1, "broken"),
+        _c("batch unreadable take", f"batch {B} --takes {{w}}/*.wav --out {{w}}/renders", 1, "empty file"),
+        _c("batch pattern finds nothing", f"batch {B} --takes {{w}}/*.mp3 --out {{w}}/renders", 1, "matches no file"),
+        _c("batch folder without audio", f"batch {B} --takes {{w}}/busy --out {{w}}/renders", 1, "no audio files"),
+        _c("batch take listed twice", f"batch {B} --takes {{w}}/season --takes {{w}}/season/a/take.wav "
+           "--out {w}/renders", 1, "listed twice"),
+        _c("regression_batch_never_writes_inside_its_input_folder", f"batch {B} --takes {{w}}/season "
+           "--out {w}/season/renders", 1, "overlaps"),
+        _c("regression_batch_never_writes_over_a_take", f"batch {B} --takes {{w}}/holds-take/take.wav "
+           "--out {w}/holds-take", 1, "overlaps"),
+        _c("batch out contains the takes", f"batch {B} --takes {{w}}/season/a --out {{w}}/season", 1, "overlaps"),
+        _c("batch out is a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile", 2, "file"),
+        _c("batch out under a file", f"batch {B} --takes {{w}}/season --out {{w}}/afile/r", 1, "not a folder"),
+        _c("batch workers zero", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 0", 1, "workers"),
+        _c("batch workers huge", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 100000", 1,
+           "workers"),
+        _c("batch existing output without force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old", 1,
+           "no earlier batch.*--force"),
+        _c("batch existing output force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old --force", 0,
+           "1 rendered", may_change=("renders-old/take.wav",), may_create=("renders-old/*",)),
+        _c("batch foreign summary", f"batch {B} --takes {{w}}/season --out {{w}}/sw", 1, "not an earlier batch"),
+        _c("batch foreign summary force", f"batch {B} --takes {{w}}/season --out {{w}}/sw --force --workers 1", 0,
+           "2 rendered", may_change=("sw/summary.json",), may_create=("sw/*", "sw/*/*")),
+        _c("batch truncated flac", f"batch {B} --takes {{w}}/cut.flac --out {{w}}/renders", 1, "damaged or cut short"),
+        _c("regression_batch_interrupted_keeps_only_complete_renders", f"batch {B} --takes {{w}}/season "
+           "--out {w}/renders --workers 1", 1, "interrupted.*kept.*resume", inject="interrupt_batch",
+           may_keep=("renders", "renders/a", "renders/a/take.wav", "renders/summary.*", "renders/index.html",
+                     "renders/listening", "renders/listening/a", "renders/listening/a/take.wav--*.wav")),
+        _c("batch full disk", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 1", 1,
+           "writing failed", inject="disk_full"),
         # --- the group ------------------------------------------------------------------------
         _c("unknown command", "frobnicate", 2, "No such command"),
         _c("unknown option", "response --frob", 2, "No such option"),
