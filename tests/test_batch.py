@@ -455,6 +455,8 @@ class TestListeningPage:
         sources = [unquote(src) for src in re.findall(r'<audio controls preload="metadata" src="([^"]+)"', page)]
         assert len(sources) == 6 and all((out / src).is_file() for src in sources)
         assert "sibilance band" in page and "Host B" in page
+        assert "<caption>one row per take</caption>" in page
+        assert '<th scope="col">pick</th>' not in page  # a batch has no pick
 
     def test_excerpts_line_up_with_the_take_and_the_render(self, season):
         results = batch.run_batch(batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season)),

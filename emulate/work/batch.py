@@ -625,7 +625,7 @@ def write_page(out: Path, results: list[TakeResult]) -> Path:
                f"under {LISTENING_FOLDER}/); the renders themselves are beside that folder.",
                "Listen at a moderate level."))
     takes = tuple(replace(listing, notes=(_row_words(r),)) for listing, r in zip(page.takes, heard))
-    return listening.write_page(replace(page, takes=takes), out)
+    return listening.write_page(replace(page, takes=takes, caption="one row per take"), out)
 
 
 def _row_words(r: TakeResult) -> str:
