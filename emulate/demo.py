@@ -161,7 +161,8 @@ def _pictures(out_dir, speaker, network, dry, wet_path, notch_hz, report) -> tup
     response = plots.plot_response(network, folder / f"{speaker.key}-response.png", fs=DEMO_RATE_HZ)
     wet, _ = audio.read_all(wet_path)
     spectrum = plots.plot_take_spectrum(dry, wet, DEMO_RATE_HZ, folder / f"{speaker.key}-spectrum.png",
-                                        notch_hz=notch_hz, band_hz=report.band_hz)
+                                        notch_hz=notch_hz, band_hz=report.band_hz,
+                                        label=f"{Path(wet_path).name} through the {plots.circuit_words(network)}")
     return response, spectrum
 
 

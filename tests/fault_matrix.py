@@ -598,7 +598,7 @@ def _cases() -> list[Case]:
         _c("batch workers huge", f"batch {B} --takes {{w}}/season --out {{w}}/renders --workers 100000", 1,
            "workers"),
         _c("batch existing output without force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old", 1,
-           "out of date.*--force"),
+           "no earlier batch.*--force"),
         _c("batch existing output force", f"batch {B} --takes {{w}}/season/a --out {{w}}/renders-old --force", 0,
            "1 rendered", may_change=("renders-old/take.wav",), may_create=("renders-old/*",)),
         _c("batch foreign summary", f"batch {B} --takes {{w}}/season --out {{w}}/sw", 1, "not an earlier batch"),

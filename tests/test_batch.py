@@ -207,6 +207,13 @@ class TestPrepareBatch:
         checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season), force=True)
         assert [job.replace for job in checked.jobs if job.out_path.endswith("host-b/t1.wav")] == [True]
 
+    def test_a_foreign_file_at_an_excerpt_path_is_refused_without_force(self, season):
+        excerpt = season / "renders" / "listening" / "host-b" / "t1.wav--dry.wav"
+        excerpt.parent.mkdir(parents=True)
+        excerpt.write_text("someone's file")
+        with pytest.raises(OutputRefusedError, match="t1.wav--dry.wav.*--force"):
+            batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
+
     def test_a_foreign_summary_is_refused_without_force(self, season):
         (season / "renders").mkdir()
         (season / "renders" / "summary.json").write_text('{"rows": []}')
@@ -274,6 +281,15 @@ class TestRunBatch:
             assert b.sibilance_band_change_db == pytest.approx(a.sibilance_band_change_db, abs=0.05)
             assert b.clipped_samples is None  # not known from the file alone
         assert len(list((season / "renders" / "listening").rglob("*--dry.wav"))) == 3  # the page's excerpts again
+
+    def test_regression_a_killed_runs_temporary_beside_a_complete_render_goes(self, season):
+        # kill -9 between the link onto the target and the unlink of the temporary
+        first = self.run(season)
+        target = Path(first[0].output)
+        stale = target.parent / f".{target.name}.999999999-0123456789ab.part"
+        os.link(target, stale)
+        self.run(season)
+        assert not stale.exists() and target.exists()
 
     def test_regression_an_interrupted_batch_keeps_only_complete_renders(self, season):
         checked = batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season))
@@ -439,6 +455,8 @@ class TestListeningPage:
         sources = [unquote(src) for src in re.findall(r'<audio controls preload="metadata" src="([^"]+)"', page)]
         assert len(sources) == 6 and all((out / src).is_file() for src in sources)
         assert "sibilance band" in page and "Host B" in page
+        assert "<caption>one row per take</caption>" in page
+        assert '<th scope="col">pick</th>' not in page  # a batch has no pick
 
     def test_excerpts_line_up_with_the_take_and_the_render(self, season):
         results = batch.run_batch(batch.prepare_batch(read_plan(season / "plan.toml"), store_of(season)),

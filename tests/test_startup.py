@@ -85,6 +85,7 @@ class TestImportsPerCommand:
         assert not under(modules, "numba")
 
 
+    @pytest.mark.slow  # a whole batch in a fresh interpreter: over 2 s on a loaded machine
     def test_batch_without_cluster_loads_no_dask_and_no_plotting(self, tmp_path):
         import numpy as np
         import soundfile as sf

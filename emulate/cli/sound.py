@@ -59,6 +59,7 @@ def render(in_path, out_path, subtype, as_float, build, r_tol, c_tol, distributi
         raise click.UsageError("--with-noise needs --level DBU or --full-scale DBU (the noise is in volts)")
     info = audio.read_info(in_path)
     audio.check_out_path(in_path, out_path)
+    files.remove_stale(out_path)  # a killed render's temporary, even beside an OUT it completed
     files.check_new_output(out_path, force=force, what="OUT")
     audio.output_format(out_path)
     _check_removed(in_path, out_path, removed_path, force)

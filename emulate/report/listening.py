@@ -93,6 +93,7 @@ class ListeningPage:
     pictures: tuple[str, ...] = ()
     matched: bool = True
     notes: tuple[str, ...] = ()
+    caption: str = "per setting, means over the takes"  # what a row of the table is
 
 
 def match_levels(listing: TakeListing) -> TakeListing:
@@ -276,11 +277,12 @@ def _table(page: ListeningPage) -> str:
     for row in page.rows:
         picked = page.pick is not None and row.get("setting") == page.pick
         cells = "".join(f"<td>{_cell(row.get(key, ''))}</td>" for key, _ in page.columns)
-        mark = "<td>pick</td>" if picked else "<td></td>"
+        mark = "" if page.pick is None else "<td>pick</td>" if picked else "<td></td>"  # no pick: no column
         body.append(f'<tr{" class=picked" if picked else ""}>{cells}{mark}</tr>')
+    pick_head = "" if page.pick is None else '<th scope="col">pick</th>'
     return (f'<section aria-labelledby="summary"><h2 id="summary">Summary</h2><div class="scroll">'
-            f'<table><caption>per setting, means over the takes</caption><thead><tr>{head}'
-            f'<th scope="col">pick</th></tr></thead><tbody>{"".join(body)}</tbody></table></div></section>')
+            f'<table><caption>{_text(page.caption)}</caption><thead><tr>{head}'
+            f'{pick_head}</tr></thead><tbody>{"".join(body)}</tbody></table></div></section>')
 
 
 def _blind(index: int, listing: TakeListing) -> str:

@@ -201,10 +201,12 @@ def prepare_batch(plan: BatchPlan, store, *, redo: bool = False, force: bool = F
             jobs.append(replace(job, replace=True))
         else:
             refused.append(planned.out_path)
+        ours = str(planned.out_path.resolve()) in earlier or force
+        refused += [Path(e) for e in job.excerpts or () if os.path.lexists(e) and not ours]
     if refused:
-        raise OutputRefusedError(f"{refused[0]}: exists, is out of date and no earlier batch here wrote it "
-                                 f"({len(refused)} such file(s)); pass --force to replace them, or choose "
-                                 "another output folder")
+        raise OutputRefusedError(f"{refused[0]}: exists, no earlier batch here wrote it and the batch would "
+                                 f"replace it ({len(refused)} such file(s)); pass --force to replace them, or "
+                                 "choose another output folder")
     made = [Path(path) for j in jobs for path in (j.out_path, *(j.excerpts or ()))]
     return Batch(plan, jobs, kept, _folders_missing(out, made), page)
 
@@ -546,7 +548,8 @@ class ClusterRunner:
 def run_batch(batch: Batch, runner, *, progress=None) -> list[TakeResult]:
     """Run a checked batch; write the summary (also of what is complete when interrupted).
 
-    ``progress(frames)`` is called as each take finishes. On any error or interruption
+    ``progress(frames)`` is called as each take finishes. Temporaries that a killed
+    run left beside renders kept now are removed first. On any error or interruption
     the runner is stopped, the renders in flight are removed (their temporaries too,
     once their workers are gone), folders the batch made and left empty are removed,
     the summary of the complete renders is written, and the exception goes on.
@@ -558,6 +561,8 @@ def run_batch(batch: Batch, runner, *, progress=None) -> list[TakeResult]:
     """
     results = list(batch.kept)
     pending = {job.index: job for job in batch.jobs}
+    for path in [r.output for r in batch.kept] + [j.out_path for j in batch.jobs if j.action == "measure"]:
+        files.remove_stale(path)  # a killed run's temporary beside a render it completed (link, then unlink)
     try:
         for job, result in runner.results(batch.jobs):
             results.append(result)
@@ -620,7 +625,7 @@ def write_page(out: Path, results: list[TakeResult]) -> Path:
                f"under {LISTENING_FOLDER}/); the renders themselves are beside that folder.",
                "Listen at a moderate level."))
     takes = tuple(replace(listing, notes=(_row_words(r),)) for listing, r in zip(page.takes, heard))
-    return listening.write_page(replace(page, takes=takes), out)
+    return listening.write_page(replace(page, takes=takes, caption="one row per take"), out)
 
 
 def _row_words(r: TakeResult) -> str:
