@@ -50,7 +50,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import special
 
 from emulate.analog import parts
 from emulate.errors import BadValueError
@@ -253,6 +252,8 @@ def deviations(tolerances: Tolerances, seed: int, which) -> np.ndarray:
     if tolerances.distribution == "uniform":
         unit = 2.0 * u - 1.0
     else:
+        from scipy import special  # about 0.25 s of import: only for normal draws
+
         unit = np.clip(special.ndtri(u), -_NORMAL_CUT, _NORMAL_CUT) / NORMAL_SIGMAS
     return unit * tolerances.fractions(TOL_PARTS)
 

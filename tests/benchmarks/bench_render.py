@@ -275,7 +275,7 @@ def cli_peak_rss(src: Path, dst: Path) -> dict:
     peak, and the CLI's own VmHWM is recorded beside it as a cross-check.
     """
     hwm = dst.with_suffix(".hwm")
-    cmd = [sys.executable, "-c", CLI_CHILD, str(hwm), "render", str(src), str(dst), *CLI_PARTS]
+    cmd = [sys.executable, "-c", CLI_CHILD, str(hwm), "render", str(src), str(dst), *CLI_PARTS, "--force"]
     result = json.loads(_fresh_child([sys.executable, "-c", METER, json.dumps(cmd), str(hwm)]))
     hwm.unlink()
     return result
