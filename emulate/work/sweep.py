@@ -36,7 +36,7 @@ import json
 import math
 import os
 import shutil
-from concurrent.futures import Future
+from concurrent.futures import Future, as_completed
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
@@ -291,20 +291,27 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
     out_dir.mkdir(parents=True, exist_ok=True)
     settings = plan.settings
     with _executor(workers, len(takes) * len(settings)) as pool:
-        # designs and dry takes in one wave, so neither waits for the other
-        network_futures = [pool.submit(plan.network, setting) for setting in settings]
-        dry_futures = [pool.submit(_dry_take, t) for t in takes]
-        networks = {s.label: f.result() for s, f in zip(settings, network_futures)}
-        dries = {t: f.result() for t, f in zip(takes, dry_futures)}
-        jobs = [(t, s, networks[s.label], dries[t].levels, dries[t].excerpt, render_path(out_dir, t, s.label))
-                for t in takes for s in settings]
-        futures = [pool.submit(_render_job, *job) for job in jobs]
+        # designs and dry takes in one wave, so neither waits for the other; each take's renders
+        # are queued as soon as its own dry analysis is done, not after every take's
+        network_futures = [pool.submit(_built, plan, setting) for setting in settings]
+        dry_futures = {pool.submit(_dry_take, t): t for t in takes}
+        built = {s.label: f.result() for s, f in zip(settings, network_futures)}
+        dries, futures = {}, {}
+        for done in as_completed(dry_futures):
+            take = dry_futures[done]
+            dries[take] = dry = done.result()
+            for s in settings:
+                network, notch_hz = built[s.label]
+                futures[take, s.label] = pool.submit(_render_job, take, s, network, notch_hz, dry.levels,
+                                                     dry.excerpt, render_path(out_dir, take, s.label))
+        networks = {label: network for label, (network, _) in built.items()}
         results, excerpts = [], {}
-        for future, job in zip(futures, jobs):
-            result, excerpts[job[0], job[1].label] = future.result()
-            results.append(result)
-            if progress is not None:
-                progress(frames[job[0]])
+        for take in takes:  # results in take x setting order, whichever finished first
+            for s in settings:
+                result, excerpts[take, s.label] = futures[take, s.label].result()
+                results.append(result)
+                if progress is not None:
+                    progress(frames[take])
         rows = summarise(results, plan)
         pick = pick_setting(rows)
         chosen = networks[pick["setting"]]
@@ -410,15 +417,21 @@ def _check_measurable(take: Path, levels) -> None:
                             "(nothing was rendered)") from None
 
 
-def _render_job(take: Path, setting: Setting, network, dry_levels, excerpt, out_path: Path):
+def _built(plan: SweepPlan, setting: Setting):
+    """The as-built network of one setting and its measured notch (Hz), found once per setting."""
+    network = plan.network(setting)
+    return network, measure(network.response).notch_hz
+
+
+def _render_job(take: Path, setting: Setting, network, notch_hz: float, dry_levels, excerpt,
+                out_path: Path):
     """One take at one setting (runs in a worker process): its result and its reel excerpt."""
     processor = emulation.processor_for(network)
     audio.render_file(take, out_path, processor)
     wet, fs = audio.read_all(out_path)
     measures = compare.compare_levels(dry_levels, compare.take_levels(wet, fs, dry_levels.band_hz))
     result = JobResult(take=str(take), setting=setting.label, q=_q_value(setting.q), mix=setting.mix,
-                       notch_target_hz=setting.notch_hz, notch_hz=measure(network.response).notch_hz,
-                       path=str(out_path), **measures)
+                       notch_target_hz=setting.notch_hz, notch_hz=notch_hz, path=str(out_path), **measures)
     return result, wet[excerpt[0]:excerpt[1]].copy()  # a copy: a slice would keep the whole render alive
 
 
