@@ -280,7 +280,8 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
 
     ``progress(n)`` is called with the frames finished, across the whole job
     (takes x settings). ``workers`` defaults to the machine's cores; designs,
-    sibilance bands and renders run on the same pool; the reels are put together
+    sibilance bands and renders run on the same pool (a take's renders are queued as soon
+    as its own dry analysis is done); the reels are put together
     here from the excerpts the renders return, loudness-matched unless ``match`` is
     False. With ``removed``, each take is rendered once more at the picked setting as
     dry minus wet (:class:`emulate.dsp.removed.RemovedPart`).
