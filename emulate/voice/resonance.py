@@ -15,7 +15,7 @@ included. So the finder reads the resonance where the voice is absent:
    Bristow-Johnson's audio EQ cookbook peaking filter, ``H(s) = (s^2 + s (A/Q) w0 + w0^2) /
    (s^2 + s w0 / (A Q) + w0^2)``, ``A = 10**(gain/40)``), as the Hann frame sees it (its
    power smeared over the window's main lobe), plus a level and a tilt, by least squares
-   on the spectrum (dB) within two of its widths: frequency, gain and Q;
+   on the spectrum (dB) within four of its widths: frequency, gain and Q;
 5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
    fit that explains the peak (RMS misfit under a quarter of the gain), rising over its
    flanks in both halves of the quiet material by at least half what the fit rises there
@@ -76,6 +76,8 @@ MAX_Q = 40.0
 PERSISTENT_SHARE = 1.0
 #: ... and its largest RMS misfit as a share of its gain.
 MAX_MISFIT = 1.0 / 4.0
+#: The fit reads the spectrum within this many half-gain widths (in octaves, 1/Q) of the centre.
+FIT_WIDTHS = 4.0
 #: Candidates fitted at most (strongest first).
 MAX_CANDIDATES = 24
 
@@ -269,7 +271,7 @@ def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, 
     while hi < half.size - 1 and half[hi + 1]:
         hi += 1
     q0 = float(np.clip(centre / max(grid_hz[hi] - grid_hz[lo], centre / MAX_Q), 0.5, MAX_Q))
-    span = (centre * 2.0 ** (-2.0 / q0), centre * 2.0 ** (2.0 / q0))
+    span = (centre * 2.0 ** (-FIT_WIDTHS / q0), centre * 2.0 ** (FIT_WIDTHS / q0))
     inside = (grid_hz >= span[0]) & (grid_hz <= span[1])
     if np.count_nonzero(inside) < 7:
         return None
