@@ -85,10 +85,14 @@ class TestWatchParent:
         assert pids and gone_within(pids, 5.0)
 
     def test_workers_ignore_ctrl_c(self):
+        # the pool starts its workers on demand, so a second worker may first appear after the
+        # Ctrl-C: what must hold is that every worker that got it is still alive and the pool works
         lines = worker_pids_after("[os.kill(pid, signal.SIGINT) for pid in pids]; time.sleep(0.3); "
-                                  "print(len({pool.submit(os.getpid).result() for _ in range(8)} - pids)); "
+                                  "[pool.submit(os.getpid).result() for _ in range(8)]; "
+                                  "print(sum(open(f'/proc/{p}/stat').read().rsplit(')', 1)[1].split()[0] != 'Z' "
+                                  "for p in pids) - len(pids)); "
                                   "os.kill(os.getpid(), signal.SIGKILL)")
-        assert len(lines) == 2 and lines[1] == [0]  # the same workers answered after Ctrl-C
+        assert len(lines) == 2 and lines[1] == [0]  # every worker outlived its Ctrl-C
         assert gone_within(lines[0], 5.0)
 
 
