@@ -4,7 +4,7 @@ A voice's own harmonics and formants are peaks too, and they move; a resonance i
 and colours everything the microphone hears, the room's quiet noise between words
 included. So the finder reads the resonance where the voice is absent:
 
-1. quiet moments: 20 ms frames within 6 dB of the take's quietest tenth, each run less
+1. quiet moments: 20 ms frames within 12 dB of the take's quietest tenth, each run less
    one frame at each end (the edges of words), at most 60 s of them in all;
 2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): 0.2 s
    Hann frames over the quiet moments joined end to end (at least 4 frames, else nothing is
@@ -58,7 +58,7 @@ KERNEL_REACH = 12.0
 KERNEL_FRAMES = 24
 #: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
 GATE_FRAME_S = 0.02
-QUIET_WITHIN_DB = 6.0
+QUIET_WITHIN_DB = 12.0
 QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
