@@ -26,8 +26,9 @@ included. So the finder reads the resonance where the voice is absent:
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
 the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 %; at
-100-250 Hz the 0.2 s frames (5 Hz apart) resolve a narrow peak coarsely, and the Q is the
-weak part; longer takes (more quiet material) do better.
+100-250 Hz a narrow peak is only a few hertz wide and the pauses are short (tens of ms), so
+the fit must undo much smearing and the Q is the weak part; longer takes (more and longer
+quiet moments) do better.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
