@@ -97,6 +97,31 @@ class TestFindResonance:
             find_resonance(np.array([np.nan] * 96000), 48000)
 
 
+class TestSmearingKernel:
+    def test_one_continuous_piece_is_the_hann_window(self):
+        # F. J. Harris, Proc. IEEE 66 (1978), table 1: the Hann window's equivalent noise
+        # bandwidth is 1.50 bins (1.5 / frame length); the kernel is normalised to sum 1
+        from emulate.voice.frames import FrameGrid
+        from emulate.voice.resonance import _smearing_kernel
+
+        grid = FrameGrid.at(48000, 0.2, 0.05, padded=True)
+        offsets, weights = _smearing_kernel(grid, np.array([48000 * 4]))
+        step = offsets[1] - offsets[0]
+        assert weights.sum() == pytest.approx(1.0)
+        assert step / weights.max() == pytest.approx(1.5 / 0.2, rel=0.02)
+
+    def test_short_pieces_smear_wider(self):
+        # a frame cut into short joined pieces sees each through a shorter window: its
+        # equivalent noise bandwidth grows (Welch 1967: the expected periodogram)
+        from emulate.voice.frames import FrameGrid
+        from emulate.voice.resonance import _smearing_kernel
+
+        grid = FrameGrid.at(48000, 0.2, 0.05, padded=True)
+        offsets, one = _smearing_kernel(grid, np.array([48000 * 4]))
+        _, pieces = _smearing_kernel(grid, np.full(40, 4800))
+        assert (offsets[1] - offsets[0]) / pieces.max() > 1.5 * (offsets[1] - offsets[0]) / one.max()
+
+
 class TestCombineResonance:
     @staticmethod
     def _report(f, seconds=10.0, q=8.0, gain=12.0):

@@ -4,7 +4,7 @@ A voice's own harmonics and formants are peaks too, and they move; a resonance i
 and colours everything the microphone hears, the room's quiet noise between words
 included. So the finder reads the resonance where the voice is absent:
 
-1. quiet moments: 20 ms frames within 6 dB of the take's quietest tenth, each run less
+1. quiet moments: 20 ms frames within 12 dB of the take's quietest tenth, each run less
    one frame at each end (the edges of words), at most 60 s of them in all;
 2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): 0.2 s
    Hann frames over the quiet moments joined end to end (at least 4 frames, else nothing is
@@ -13,20 +13,22 @@ included. So the finder reads the resonance where the voice is absent:
    maxima standing 2.5 dB out are candidates (the 24 strongest);
 4. fit: for each, a second-order peaking response (the analog prototype of R.
    Bristow-Johnson's audio EQ cookbook peaking filter, ``H(s) = (s^2 + s (A/Q) w0 + w0^2) /
-   (s^2 + s w0 / (A Q) + w0^2)``, ``A = 10**(gain/40)``), as the Hann frame sees it (its
-   power smeared over the window's main lobe), plus a level and a tilt, by least squares
-   on the spectrum (dB) within two of its widths: frequency, gain and Q;
+   (s^2 + s w0 / (A Q) + w0^2)``, ``A = 10**(gain/40)``), as the quiet spectrum sees it
+   (its power smeared by the Hann frame cut at the joins of the quiet pieces: short pieces
+   blur a narrow low peak, and the fit undoes that rather than reading a low Q), plus a level and a tilt, by least squares
+   on the spectrum (dB) within four of its widths: frequency, gain and Q;
 5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
    fit that explains the peak (RMS misfit under a quarter of the gain), rising over its
    flanks in both halves of the quiet material by at least half what the fit rises there
-   (persistent);
+   (persistent; the rise expected as the quiet spectrum sees it);
 6. the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
 the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 %; at
-100-250 Hz the 0.2 s frames (5 Hz apart) resolve a narrow peak coarsely, and the Q is the
-weak part; longer takes (more quiet material) do better.
+100-250 Hz a narrow peak is only a few hertz wide and the pauses are short (tens of ms), so
+the fit must undo much smearing and the Q is the weak part; longer takes (more and longer
+quiet moments) do better.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -51,9 +53,13 @@ __all__ = ["ResonancePeak", "ResonanceReport", "combine_resonance", "find_resona
 
 #: Frame length of the quiet spectrum, s (hop: a quarter frame).
 FRAME_S = 0.2
+#: The smearing kernel: offsets within this many frame-resolutions (1 / frame length) either
+#: side, read from at most this many frames.
+KERNEL_REACH = 12.0
+KERNEL_FRAMES = 24
 #: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
 GATE_FRAME_S = 0.02
-QUIET_WITHIN_DB = 6.0
+QUIET_WITHIN_DB = 12.0
 QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
@@ -76,6 +82,8 @@ MAX_Q = 40.0
 PERSISTENT_SHARE = 1.0
 #: ... and its largest RMS misfit as a share of its gain.
 MAX_MISFIT = 1.0 / 4.0
+#: The fit reads the spectrum within this many half-gain widths (in octaves, 1/Q) of the centre.
+FIT_WIDTHS = 4.0
 #: Candidates fitted at most (strongest first).
 MAX_CANDIDATES = 24
 
@@ -179,21 +187,23 @@ class _Quiet:
     over each half (for persistence)."""
 
     frame_s: float
+    kernel: tuple[np.ndarray, np.ndarray]
     level_db: np.ndarray
     halves_db: tuple[np.ndarray, ...]
     frames: int
 
 
-def _quiet_moments(source: TakeSource) -> np.ndarray:
+def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
     """The take's quiet moments (between words: the room's own noise, through the same
     resonance), joined end to end (float32), at most QUIET_MAX_S seconds in all:
     runs of 20 ms frames whose power lies within QUIET_WITHIN_DB of the take's quietest
-    tenth (frames of digital silence aside), less one frame at each end (word edges)."""
+    tenth (frames of digital silence aside), less one frame at each end (word edges).
+    Also the joined pieces' lengths (samples)."""
     grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
     power = np.concatenate([p.sum(axis=1) for p in iter_frame_power(source, grid)] or [np.zeros(0)])
     live = power[power > 0]
     if live.size == 0:
-        return np.zeros(0, np.float32)
+        return np.zeros(0, np.float32), np.zeros(0, int)
     quiet = (power > 0) & (power <= np.percentile(live, 10.0) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
     spans, budget = [], round(QUIET_MAX_S * source.fs)
     for a, b in runs(quiet):
@@ -214,20 +224,23 @@ def _quiet_moments(source: TakeSource) -> np.ndarray:
         offset = end
         if first >= len(spans):
             break
-    return np.concatenate([part for piece in pieces for part in piece] or [np.zeros(0, np.float32)])
+    lengths = np.array([sum(part.size for part in piece) for piece in pieces], int)
+    return np.concatenate([part for piece in pieces for part in piece] or [np.zeros(0, np.float32)]), lengths
 
 
-def _quiet_spectrum(quiet: np.ndarray, fs: float, grid_hz: np.ndarray, frame_s: float) -> _Quiet:
-    """The mean power spectrum of the quiet moments with frames of ``frame_s`` (hop a quarter
-    of it), over all of them and over each half."""
+def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
+                    frame_s: float) -> _Quiet:
+    """The mean power spectrum of the quiet moments (pieces of ``lengths`` joined end to end)
+    with frames of ``frame_s`` (hop a quarter of it), over all of them and over each half,
+    and the smearing it suffers (:func:`_smearing_kernel`)."""
     grid = FrameGrid.at(fs, frame_s, frame_s / 4.0, padded=True)
     rows = [_on_grid(grid.f_hz, power, grid_hz)
             for power in iter_frame_power(TakeSource.from_array(quiet, fs), grid)] if quiet.size >= grid.size else []
     if sum(r.shape[0] for r in rows) < MIN_FRAMES:
-        return _Quiet(frame_s, np.zeros(grid_hz.size), (), 0)
+        return _Quiet(frame_s, _smearing_kernel(grid, lengths), np.zeros(grid_hz.size), (), 0)
     rows = np.concatenate(rows)
     halves = tuple(_level_db(chunk.mean(axis=0)) for chunk in np.array_split(rows, 2))
-    return _Quiet(frame_s, _level_db(rows.mean(axis=0)), halves, rows.shape[0])
+    return _Quiet(frame_s, _smearing_kernel(grid, lengths), _level_db(rows.mean(axis=0)), halves, rows.shape[0])
 
 
 def _excess(level_db: np.ndarray) -> np.ndarray:
@@ -238,26 +251,44 @@ def _excess(level_db: np.ndarray) -> np.ndarray:
     return level_db - median_filter(level_db, size=width, mode="nearest")
 
 
-def _window_kernel(frame_s: float) -> tuple[np.ndarray, np.ndarray]:
-    """Frequency offsets (Hz) and weights of a Hann frame's power response (main lobe)."""
-    offsets = np.linspace(-2.0, 2.0, 33) / frame_s
-    x = offsets * frame_s
-    # Hann window transform: sinc(x) / (1 - x^2) (the main lobe spans +-2 bins of 1/T)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        w = np.where(np.abs(np.abs(x) - 1.0) < 1e-9, 0.5, np.sinc(x) / (1.0 - x * x))
-    weights = w**2
+def _smearing_kernel(grid: FrameGrid, lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Frequency offsets (Hz) and weights of the quiet spectrum's smearing of a steady spectrum.
+
+    A frame holding one continuous stretch sees the spectrum through the Hann window's power
+    response; the quiet moments are short pieces joined end to end, and a frame spanning a
+    join holds unrelated pieces whose powers add, each seen through its own cut of the
+    window (a shorter, coarser look: this is what limits a narrow low peak's resolution).
+    So the kernel is the mean over frames (at most KERNEL_FRAMES, evenly spread) of the
+    summed power responses of each piece's windowed part (the expected periodogram of a
+    stationary signal, e.g. P. Welch, IEEE Trans. Audio Electroacoust. 15 (1967), eq. 5)."""
+    window, ends = grid.window, np.cumsum(lengths)
+    count = 1 + (int(ends[-1]) - grid.size) // grid.hop if ends.size and ends[-1] >= grid.size else 0
+    nfft = 1 << (8 * grid.size - 1).bit_length()
+    reach = round(KERNEL_REACH / (grid.size / grid.fs) * nfft / grid.fs)
+    power = np.zeros(reach + 1)
+    starts = np.unique(np.linspace(0, count - 1, min(count, KERNEL_FRAMES)).round().astype(int)) * grid.hop
+    for start in starts if count else [None]:
+        cuts = [0, grid.size] if start is None else \
+            [0, *(ends[(ends > start) & (ends < start + grid.size)] - start), grid.size]
+        parts = np.zeros((len(cuts) - 1, grid.size))
+        for k, (a, b) in enumerate(zip(cuts[:-1], cuts[1:])):
+            parts[k, a:b] = window[a:b]
+        spectrum = np.fft.rfft(parts, nfft, axis=1)[:, : reach + 1]
+        power += (spectrum.real**2 + spectrum.imag**2).sum(axis=0)
+    offsets = np.arange(-reach, reach + 1) * grid.fs / nfft
+    weights = np.concatenate((power[:0:-1], power))
     return offsets, weights / weights.sum()
 
 
-def _smeared_db(f_hz, f0: float, gain: float, q: float, frame_s: float) -> np.ndarray:
-    """The peaking response as a Hann frame of ``frame_s`` sees it (its power smeared over the
-    window's main lobe), dB."""
-    offsets, weights = _window_kernel(frame_s)
+def _smeared_db(f_hz, f0: float, gain: float, q: float, kernel) -> np.ndarray:
+    """The peaking response as the quiet spectrum sees it (its power smeared by ``kernel``,
+    offsets and weights from :func:`_smearing_kernel`), dB."""
+    offsets, weights = kernel
     f = np.abs(np.asarray(f_hz)[:, None] + offsets[None, :]) + 1e-9
     return 10.0 * np.log10((10.0 ** (peaking_db(f, f0, gain, q) / 10.0)) @ weights)
 
 
-def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, float, float] | None:
+def _fit(grid_hz, level, excess, i: int, kernel) -> tuple[float, float, float, float] | None:
     """Fit the smeared peaking response + a level tilt near grid point ``i``; (f0, gain, Q, misfit)."""
     from scipy.optimize import least_squares
 
@@ -269,14 +300,14 @@ def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, 
     while hi < half.size - 1 and half[hi + 1]:
         hi += 1
     q0 = float(np.clip(centre / max(grid_hz[hi] - grid_hz[lo], centre / MAX_Q), 0.5, MAX_Q))
-    span = (centre * 2.0 ** (-2.0 / q0), centre * 2.0 ** (2.0 / q0))
+    span = (centre * 2.0 ** (-FIT_WIDTHS / q0), centre * 2.0 ** (FIT_WIDTHS / q0))
     inside = (grid_hz >= span[0]) & (grid_hz <= span[1])
     if np.count_nonzero(inside) < 7:
         return None
     f_fit, target = grid_hz[inside], level[inside]
 
     def misfit(p):
-        return _smeared_db(f_fit, p[0], p[1], p[2], frame_s) + p[3] + p[4] * np.log2(f_fit / centre) - target
+        return _smeared_db(f_fit, p[0], p[1], p[2], kernel) + p[3] + p[4] * np.log2(f_fit / centre) - target
 
     start = [centre, max(gain0, 1.0), q0, float(level[i] - gain0), 0.0]
     try:
@@ -288,11 +319,13 @@ def _fit(grid_hz, level, excess, i: int, frame_s: float) -> tuple[float, float, 
     return float(f0), float(gain), float(q), float(np.sqrt(np.mean(result.fun**2)))
 
 
-def _standing_share(grid_hz, halves, f0: float, gain: float, q: float) -> float:
+def _standing_share(grid_hz, halves, f0: float, gain: float, q: float, kernel) -> float:
     """Share of the take's halves where the peak rises over its flanks (two half-gain widths
-    either side) by at least half what the fitted response rises there."""
+    either side) by at least half what the fitted response rises there as the quiet spectrum
+    sees it (smeared by ``kernel``)."""
     flanks = f0 * 2.0 ** (np.array([-2.0, 2.0]) / (2.0 * q))
-    expected = gain - float(np.mean(peaking_db(flanks, f0, gain, q)))
+    seen = _smeared_db(np.array([f0, *flanks]), f0, gain, q, kernel)
+    expected = float(seen[0] - np.mean(seen[1:]))
     rises = [float(np.interp(f0, grid_hz, h)) - float(np.mean(np.interp(flanks, grid_hz, h))) for h in halves]
     return float(np.mean([rise >= expected / 2.0 for rise in rises]))
 
@@ -312,13 +345,13 @@ def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
     """Accepted peaks of the quiet spectrum (see the module's stages 3-5)."""
     accepted = []
     for _, i in _candidates(quiet):
-        fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.frame_s)
+        fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
         if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain:
             continue
-        share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q)
+        share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q, quiet.kernel)
         if share >= PERSISTENT_SHARE:
             accepted.append(ResonancePeak(f0, q, gain, share))
     return accepted
@@ -358,13 +391,13 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     (True, True)
     """
     source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
-    quiet = _quiet_moments(source)  # reads the whole take first: a damaged file is refused, short or not
+    quiet, lengths = _quiet_moments(source)  # reads the whole take first: a damaged file is refused, short or not
     if source.seconds < MIN_SECONDS:
         return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
                                source.seconds, None, (), None)
     grid_hz = _grid_hz(source.fs)
     accepted = []
-    spectrum = _quiet_spectrum(quiet, source.fs, grid_hz, FRAME_S)
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
     mean = _excess(spectrum.level_db)
     for peak in _peaks(grid_hz, spectrum):
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
