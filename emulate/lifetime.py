@@ -68,8 +68,13 @@ def stop_on_signals() -> Iterator[None]:
             signal.signal(number, handler)
 
 
-def watch_parent() -> None:
+def watch_parent(parent: int | None = None) -> None:
     """Worker initializer: ignore Ctrl-C and SIGTERM/SIGHUP defaults aside, die with the parent.
+
+    ``parent`` is the parent's process id as the parent saw it before starting the
+    worker (default: the worker's parent now). Given, a worker forked just before its
+    parent was killed sees that it was orphaned and ends at once, instead of taking
+    the reaper for its parent and running a job nobody will collect.
 
     Ctrl-C in a terminal reaches the whole process group; the worker ignores it and
     the parent ends it (:func:`end_workers`). Its stop signals are reset to their
@@ -83,7 +88,7 @@ def watch_parent() -> None:
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     for number in STOP_SIGNALS:
         signal.signal(number, signal.SIG_DFL)
-    parent = os.getppid()
+    parent = os.getppid() if parent is None else parent
     if sys.platform.startswith("linux"):
         with contextlib.suppress(OSError, AttributeError):
             libc = ctypes.CDLL(None, use_errno=True)
@@ -124,7 +129,7 @@ class WorkerPool(ProcessPoolExecutor):
         self._started = context.SimpleQueue()
         self._ids: set[int] = set()
         super().__init__(max_workers=max_workers, mp_context=context, initializer=_start_worker,
-                         initargs=(self._started,))
+                         initargs=(self._started, os.getpid()))
 
     def worker_ids(self) -> set[int]:
         """The process ids of the workers started so far (a worker running a job is always among them)."""
@@ -134,9 +139,9 @@ class WorkerPool(ProcessPoolExecutor):
         return set(self._ids)
 
 
-def _start_worker(started) -> None:
+def _start_worker(started, parent: int) -> None:
     """Worker initializer of :class:`WorkerPool`: watch the parent, then say who we are."""
-    watch_parent()
+    watch_parent(parent)
     started.put(os.getpid())
 
 

@@ -84,6 +84,14 @@ class TestWatchParent:
         (pids,) = worker_pids_after("os.kill(os.getpid(), signal.SIGKILL)")
         assert pids and gone_within(pids, 5.0)
 
+    def test_regression_a_worker_orphaned_before_it_started_ends_at_once(self):
+        # a worker forked just before its parent's kill -9 finds another parent (the reaper)
+        # than the one that started it: it must end instead of taking a job
+        code = "from emulate import lifetime; lifetime.watch_parent(1); print('survived')"
+        env = dict(os.environ, PYTHONPATH=str(REPO))
+        done = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=60)
+        assert done.returncode == 1 and "survived" not in done.stdout
+
     def test_workers_ignore_ctrl_c(self):
         # the pool starts its workers on demand, so a second worker may first appear after the
         # Ctrl-C: what must hold is that every worker that got it is still alive and the pool works
