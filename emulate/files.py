@@ -286,6 +286,7 @@ def remove_stale(target) -> list[Path]:
 
 
 def _alive(pid: int) -> bool:
+    """Whether process ``pid`` still runs (a zombie, dead but not yet reaped, does not)."""
     if pid == os.getpid():
         return True
     try:
@@ -293,8 +294,12 @@ def _alive(pid: int) -> bool:
     except ProcessLookupError:
         return False
     except OSError:  # exists, owned by someone else
+        pass
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except (OSError, IndexError):  # no /proc here: trust the signal check
         return True
-    return True
+    return state != "Z"
 
 
 def _inside(path: Path, folder: Path) -> bool:

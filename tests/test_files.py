@@ -1,6 +1,7 @@
 """Tests for emulate.files: atomic replacement of files and folders (POSIX rename semantics)."""
 
 import os
+from pathlib import Path
 import stat
 
 import pytest
@@ -285,3 +286,22 @@ class TestKeptFiles:
             write_text(temp / "inner.txt", "x")
             assert files.kept_files(mark) == []
         assert files.kept_files(mark) == [tmp_path / "out"]
+
+
+@pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="reads /proc")
+def test_regression_a_zombie_owns_no_temporary(tmp_path):
+    # a killed worker not yet reaped (a zombie) is dead: its .part is stale and goes
+    import subprocess
+    import sys
+    import time
+
+    child = subprocess.Popen([sys.executable, "-c", "pass"])
+    deadline = time.monotonic() + 30
+    while time.monotonic() < deadline and "Z" not in Path(f"/proc/{child.pid}/stat").read_text().rsplit(")", 1)[1][:3]:
+        time.sleep(0.02)
+    stale = tmp_path / f".out.wav.{child.pid}-0123456789ab.part"
+    stale.write_bytes(b"half")
+    try:
+        assert files.remove_stale(tmp_path / "out.wav") == [stale] and not stale.exists()
+    finally:
+        child.wait()
