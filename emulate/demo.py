@@ -139,7 +139,7 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
     schedule = synth.take_schedule(seconds, seed=speaker.seed)
     bursts = tuple(round(start, 2) for start, _ in schedule.bursts_s)
     notch_hz = measure(network.response).notch_hz
-    pictures = _pictures(out_dir, speaker, network, x, renders[-1].path, notch_hz, report)
+    pictures = _pictures(out_dir, speaker, network, x, renders[-1], notch_hz, report)
     more = tuple(_more_take(out_dir, speaker, number, seconds) for number in range(2, 2 + MORE_TAKES))
     return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts,
                     pictures, more)
@@ -155,14 +155,15 @@ def _more_take(out_dir, speaker, number: int, seconds: float) -> Path:
     return path
 
 
-def _pictures(out_dir, speaker, network, dry, wet_path, notch_hz, report) -> tuple[Path, ...]:
-    """The preset's analog-vs-digital response and the take's spectrum before and after."""
+def _pictures(out_dir, speaker, network, dry, heard: "DemoRender", notch_hz, report) -> tuple[Path, ...]:
+    """The preset's analog-vs-digital response and the take's spectrum before and after ``heard``."""
+    wet_path, words = heard.path, plots.circuit_words(network.replace(mix=heard.mix))
     folder = out_dir / "pictures"
     response = plots.plot_response(network, folder / f"{speaker.key}-response.png", fs=DEMO_RATE_HZ)
     wet, _ = audio.read_all(wet_path)
     spectrum = plots.plot_take_spectrum(dry, wet, DEMO_RATE_HZ, folder / f"{speaker.key}-spectrum.png",
                                         notch_hz=notch_hz, band_hz=report.band_hz,
-                                        label=f"{Path(wet_path).name} through the {plots.circuit_words(network)}")
+                                        label=f"{Path(wet_path).name} through the {words}")
     return response, spectrum
 
 
