@@ -35,3 +35,14 @@ def hermetic_user_folders(tmp_path_factory, monkeypatch):
     monkeypatch.setenv("EMULATE_PRESETS_DIR", str(home / "presets"))
     monkeypatch.setenv("XDG_DATA_HOME", str(home / "data"))
     return home
+
+
+@pytest.fixture(scope="module")
+def browser(page):
+    """A headless Chromium on the test module's ``page`` (the module's own fixture), module-wide."""
+    from helpers_browser import open_browser, open_page
+
+    driver = open_browser()
+    open_page(driver, page)
+    yield driver
+    driver.quit()

@@ -14,7 +14,7 @@ import pytest
 from click.testing import CliRunner
 
 from emulate.cli import main
-from helpers_browser import chromium_missing, open_browser, open_page, players_state
+from helpers_browser import chromium_missing, players_state
 from test_batch import make_season
 
 pytestmark = [pytest.mark.slow, pytest.mark.skipif(chromium_missing() is not None,
@@ -28,14 +28,6 @@ def page(tmp_path_factory):
                                        "--presets", str(season / "presets")])
     assert result.exit_code == 0, result.output
     return season / "renders" / "index.html"
-
-
-@pytest.fixture(scope="module")
-def browser(page):
-    driver = open_browser()
-    open_page(driver, page)
-    yield driver
-    driver.quit()
 
 
 def test_loads_without_script_errors(browser):

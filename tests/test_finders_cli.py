@@ -20,6 +20,7 @@ from emulate.audio import stream as audio
 from emulate.cli import main
 from emulate.voice import synth
 from resonance_grid import peaking_ba
+from helpers_cli import assert_one_line_error
 
 FS = 48000
 
@@ -27,14 +28,6 @@ FS = 48000
 def run(*args):
     return CliRunner().invoke(main, [str(a) for a in args])
 
-
-def assert_one_line_error(result, match: str):
-    """A user error: non-zero exit, one line naming the problem, no traceback."""
-    assert result.exit_code != 0
-    assert result.exception is None or isinstance(result.exception, SystemExit)
-    assert "Traceback" not in result.output
-    lines = [line for line in result.output.splitlines() if line.strip()]
-    assert len(lines) == 1 and match in lines[0], result.output
 
 
 def _voice(seconds, seed):

@@ -21,7 +21,7 @@ from click.testing import CliRunner
 from emulate.audio import stream as audio
 from emulate.cli import main
 from emulate.voice import synth
-from helpers_browser import chromium_missing, open_browser, open_page, players_state
+from helpers_browser import chromium_missing, players_state
 
 pytestmark = [pytest.mark.slow, pytest.mark.skipif(chromium_missing() is not None,
                                                    reason=f"listening page not tested: {chromium_missing()}")]
@@ -44,14 +44,6 @@ def page(tmp_path_factory):
                                        "--workers", "1", "--removed", "--plot", str(out / "sweep.png")])
     assert result.exit_code == 0, result.output
     return out / "index.html"
-
-
-@pytest.fixture(scope="module")
-def browser(page):
-    driver = open_browser()
-    open_page(driver, page)
-    yield driver
-    driver.quit()
 
 
 def test_loads_without_script_errors(browser):

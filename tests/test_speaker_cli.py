@@ -18,6 +18,7 @@ from emulate.audio import stream as audio
 from emulate.work import presets
 from emulate.voice import synth
 from emulate.cli import main
+from helpers_cli import assert_one_line_error
 
 FS = 48000
 PLANTED_HZ = 6000.0
@@ -25,15 +26,6 @@ PLANTED_HZ = 6000.0
 
 def run(*args, env=None):
     return CliRunner().invoke(main, [str(a) for a in args], env=env)
-
-
-def assert_one_line_error(result, match: str):
-    """A user error: non-zero exit, one 'Error: ...' line naming the problem, no traceback."""
-    assert result.exit_code != 0
-    assert result.exception is None or isinstance(result.exception, SystemExit)
-    assert "Traceback" not in result.output
-    lines = [line for line in result.output.splitlines() if line.strip()]
-    assert len(lines) == 1 and match in lines[0], result.output
 
 
 def write_take(path, seconds=2.0, *, sibilance_hz=PLANTED_HZ, seed=1):
