@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from emulate.errors import CircuitError
+from emulate.analog.pencil import UntrustedPencil, finite_eigenvalues
 from emulate.analog.roots import pair_conjugates
 
 __all__ = ["GROUND", "SOURCE", "Circuit", "Compiled", "Rational"]
@@ -422,8 +423,21 @@ def _positive(value, what: str):
 
 
 def _finite_eigenvalues(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Finite generalized eigenvalues of ``a v = lambda b v`` (pencil scaled to ~1)."""
-    import scipy.linalg  # about 0.3 s of start-up: loaded only when roots are asked for
+    """Finite generalized eigenvalues of ``a v = lambda b v`` (pencil scaled to ~1).
+
+    numpy's deflation (:func:`emulate.analog.pencil.finite_eigenvalues`) first; QZ
+    (``scipy.linalg.eig``, about 0.2 s to import) only where that route cannot
+    decide the pencil's structure.
+    """
+    try:
+        return _tidy(finite_eigenvalues(a, b))
+    except UntrustedPencil:
+        return _finite_eigenvalues_qz(a, b)
+
+
+def _finite_eigenvalues_qz(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """:func:`_finite_eigenvalues` by the QZ algorithm (scipy.linalg)."""
+    import scipy.linalg  # about 0.2 s of start-up: loaded only when the numpy route gives up
 
     try:
         alpha, beta = scipy.linalg.eig(a, b, right=False, homogeneous_eigvals=True)
