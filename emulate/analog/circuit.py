@@ -15,8 +15,10 @@ polynomial roots (which are ill-conditioned for these coefficient scales):
   ``(-[[G, b], [l, 0]], [[C, 0], [0, 0]])``;
 * the gain follows from one exact evaluation of ``H`` at a test point.
 
-The pencils are scaled to unit conductance and unit frequency first. Pole-zero
-pairs that cancel (uncontrollable or unobservable modes) are removed.
+The pencils are scaled to unit conductance and unit frequency first and solved
+with numpy (:mod:`emulate.analog.pencil`; scipy.linalg's QZ only where that route
+cannot decide a rank). Pole-zero pairs that cancel (uncontrollable or
+unobservable modes) are removed.
 
 Element values may be arrays of one common length (a batch of builds, as a
 Monte Carlo draw); :meth:`Circuit.response` then returns one row per build.

@@ -18,10 +18,11 @@ The pipeline, top to bottom:
                (:class:`emulate.analog.circuit.Rational`, ``TwinT.rational``): evaluating a
                cubic is ~100x cheaper than solving the nodal equations at each
                frequency.
-4. measure     :func:`emulate.analog.response.measure_batch` on that rational form, in a
-               narrow band around the nominal notch (the notch of a build moves by
-               no more than a few times the tolerances) with a coarse grid and the
-               usual golden-section refinement.  Depths below the passband are
+4. measure     :func:`emulate.analog.response.notch_depth_batch` on that rational
+               form's ``|H|`` (notch, depth, in range; no -3 dB edges), in a narrow
+               band around the nominal notch (the notch of a build moves by no more
+               than a few times the tolerances) with a coarse grid and the usual
+               golden-section refinement.  Depths below the passband are
                capped at ``DEPTH_CAP_DB`` (deeper is an exact null in floating point).
    stability   every build's poles (the roots of its D(s),
                :func:`emulate.analog.stability.batch_stability`): a build with a pole
