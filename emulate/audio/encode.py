@@ -124,14 +124,34 @@ class Encoder:
 
     def _encode_int(self, y: np.ndarray) -> np.ndarray:
         codes = np.empty(y.shape, self._dtype)  # new per block: the writer may still hold the last
+        self._kernels.encode_codes(np.ascontiguousarray(y, dtype=np.float64), *self.code_args(), codes)
+        self.count_codes()
+        return codes
+
+    @property
+    def code_dtype(self):
+        """numpy dtype of the codes handed to libsndfile (int16 or int32); integer PCM only."""
+        return self._dtype
+
+    def code_args(self) -> tuple:
+        """``scale, lo, hi, align, dither, rng, tally`` as :func:`emulate.dsp.kernels.encode_codes`
+        takes them (integer PCM only): for a kernel that encodes in its own pass; call
+        :meth:`count_codes` after each such call."""
+        return self.scale, self.lo, self.hi, self.align, self.dither, self._rng, self._tally
+
+    def count_codes(self) -> None:
+        """Take the peak and clip counts from the kernels' tally.
+
+        Raises
+        ------
+        EmulateError
+            The samples encoded held NaN/Inf.
+        """
         tally = self._tally
-        self._kernels.encode_codes(np.ascontiguousarray(y, dtype=np.float64), self.scale, self.lo,
-                                   self.hi, self.align, self.dither, self._rng, tally, codes)
         if tally[self._kernels.TALLY_NON_FINITE]:
             raise _non_finite()
         self.clipped = int(tally[self._kernels.TALLY_CLIPPED])
         self.peak = max(tally[self._kernels.TALLY_TOP], -tally[self._kernels.TALLY_BOTTOM], 0.0) / self.scale
-        return codes
 
 
 def _non_finite() -> EmulateError:
