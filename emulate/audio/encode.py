@@ -23,6 +23,7 @@ import math
 
 import numpy as np
 
+from emulate.dsp.state_layout import TALLY_BOTTOM, TALLY_CLIPPED, TALLY_NON_FINITE, TALLY_TOP
 from emulate.errors import EmulateError
 
 __all__ = ["Encoder", "PCM_BITS", "FLOAT_SUBTYPES", "DITHER_MAX_BITS", "container_bits"]
@@ -86,9 +87,9 @@ class Encoder:
         self.clipped = 0
         self.over = 0
         if self.bits is not None:
-            from emulate.dsp import kernels  # numba: loaded only when integers are written
+            from emulate.dsp.compiled import kernels  # loaded only when integers are written
 
-            self._kernels = kernels
+            self._kernels = kernels()
             self.scale = float(2 ** (self.bits - 1))
             self.lo, self.hi = -self.scale, self.scale - 1.0
             wide = container_bits(self.bits)
@@ -148,10 +149,10 @@ class Encoder:
             The samples encoded held NaN/Inf.
         """
         tally = self._tally
-        if tally[self._kernels.TALLY_NON_FINITE]:
+        if tally[TALLY_NON_FINITE]:
             raise _non_finite()
-        self.clipped = int(tally[self._kernels.TALLY_CLIPPED])
-        self.peak = max(tally[self._kernels.TALLY_TOP], -tally[self._kernels.TALLY_BOTTOM], 0.0) / self.scale
+        self.clipped = int(tally[TALLY_CLIPPED])
+        self.peak = max(tally[TALLY_TOP], -tally[TALLY_BOTTOM], 0.0) / self.scale
 
 
 def _non_finite() -> EmulateError:

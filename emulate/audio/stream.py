@@ -411,7 +411,9 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
     """
     if kernel:
-        from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
+        from emulate.dsp.compiled import kernels  # loaded only when rendering
+
+        codes_to_float = kernels().codes_to_float
     else:
         codes_to_float = _codes_to_float_numpy
     wide = container_bits(PCM_BITS[snd.subtype])

@@ -39,10 +39,11 @@ def _check_smoothing_ms(smoothing_ms):
 
 
 def _kernels():
-    """The numba kernels, loaded on the first block: a design or a response needs no numba."""
-    from emulate.dsp import kernels
+    """The kernels, loaded on the first block (compiled ahead of time, else numba's JIT):
+    a design or a response needs neither."""
+    from emulate.dsp.compiled import kernels
 
-    return kernels
+    return kernels()
 
 
 class _Stage:
