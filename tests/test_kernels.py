@@ -77,11 +77,12 @@ def textbook_cascade(sos, x):
 
 
 class TestSosFilterIdenticalSamples:
-    @pytest.mark.parametrize("sections", [1, 2, 3])
+    @pytest.mark.parametrize("sections", [1, 2, 3, 5])
     @pytest.mark.parametrize("channels", [1, 2, 3])
     def test_equals_the_textbook_loop_bit_for_bit(self, sections, channels):
-        # registers and channel pairs change the schedule, not the arithmetic: exact equality
-        sos = SOS_CASES["ellip"][:sections]
+        # registers, channel pairs and section pairs/triples change the schedule, not the
+        # arithmetic: exact equality
+        sos = np.vstack([SOS_CASES["ellip"]] * 2)[:sections]
         x = noise(700, channels)
         out, state = np.empty_like(x), np.zeros((sections, channels, 2))
         sos_filter(sos, x[:300], state, out[:300])

@@ -33,10 +33,10 @@ _TWO_POW_MINUS_32 = 2.0 ** -32
 def sos_filter(sos, x, state, out):
     """Filter ``x`` through cascaded second-order sections (Direct Form II transposed).
 
-    The sections run two at a time over two channels at a time, with the coefficients
-    and the eight state values held in local variables (registers) for the whole
-    block: four independent recurrences per sample, so the processor overlaps their
-    feedback latencies. The arithmetic per section and sample is the textbook DF-II-T
+    The sections run two at a time (the last three of an odd cascade at once) over two
+    channels at a time, with the coefficients and the state values held in local
+    variables (registers) for the whole block: four (six) independent recurrences per
+    sample, so the processor overlaps their feedback latencies. The arithmetic per section and sample is the textbook DF-II-T
     order, so the samples equal a section-by-section, sample-by-sample loop exactly.
 
     Parameters
@@ -67,15 +67,22 @@ def sos_filter(sos, x, state, out):
 @njit(cache=True, nogil=True)
 def _sections(sos, x, frames, state, out):
     """:func:`sos_filter` on the first ``frames`` frames of ``x`` into ``out``."""
-    channels = x.shape[1]
+    channels, sections = x.shape[1], sos.shape[0]
     src = x
-    for s in range(0, sos.shape[0], 2):
+    s = 0
+    while s < sections:
+        width = 3 if sections - s == 3 else 2  # an odd cascade ends with three at once, not a pass-through
         for c in range(0, channels, 2):
-            if c + 1 < channels:
+            if c + 1 < channels and width == 3:
+                _section_triple_stereo(sos, s, src, c, state, out, frames)
+            elif c + 1 < channels:
                 _section_pair_stereo(sos, s, src, c, state, out, frames)
             else:
                 _section_pair_mono(sos, s, src, c, state, out, frames)
+                if width == 3:
+                    _section_pair_mono(sos, s + 2, out, c, state, out, frames)
         src = out
+        s += width
 
 
 @njit(cache=True, nogil=True, inline="always")
@@ -131,6 +138,49 @@ def _section_pair_stereo(sos, s, x, c, state, out, frames):
     _keep_state(state, s, c + 1, q1, q2)
     _keep_state(state, s + 1, c, r1, r2)
     _keep_state(state, s + 1, c + 1, t1, t2)
+
+
+@njit(cache=True, nogil=True)
+def _section_triple_stereo(sos, s, x, c, state, out, frames):
+    """Sections ``s``, ``s + 1`` and ``s + 2`` on channels ``c`` and ``c + 1``: six recurrences at once."""
+    b0, b1, b2, a1, a2 = _coefficients(sos, s)
+    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
+    f0, f1, f2, g1, g2 = _coefficients(sos, s + 2)
+    p1, p2 = _state(state, s, c)
+    q1, q2 = _state(state, s, c + 1)
+    r1, r2 = _state(state, s + 1, c)
+    t1, t2 = _state(state, s + 1, c + 1)
+    m1, m2 = _state(state, s + 2, c)
+    n1, n2 = _state(state, s + 2, c + 1)
+    for i in range(frames):
+        v = x[i, c]
+        w = x[i, c + 1]
+        y = b0 * v + p1
+        p1 = b1 * v - a1 * y + p2
+        p2 = b2 * v - a2 * y
+        z = b0 * w + q1
+        q1 = b1 * w - a1 * z + q2
+        q2 = b2 * w - a2 * z
+        u = d0 * y + r1
+        r1 = d1 * y - e1 * u + r2
+        r2 = d2 * y - e2 * u
+        h = d0 * z + t1
+        t1 = d1 * z - e1 * h + t2
+        t2 = d2 * z - e2 * h
+        k = f0 * u + m1
+        m1 = f1 * u - g1 * k + m2
+        m2 = f2 * u - g2 * k
+        g = f0 * h + n1
+        n1 = f1 * h - g1 * g + n2
+        n2 = f2 * h - g2 * g
+        out[i, c] = k
+        out[i, c + 1] = g
+    _keep_state(state, s, c, p1, p2)
+    _keep_state(state, s, c + 1, q1, q2)
+    _keep_state(state, s + 1, c, r1, r2)
+    _keep_state(state, s + 1, c + 1, t1, t2)
+    _keep_state(state, s + 2, c, m1, m2)
+    _keep_state(state, s + 2, c + 1, n1, n2)
 
 
 @njit(cache=True, nogil=True)
