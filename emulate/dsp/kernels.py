@@ -107,33 +107,27 @@ def _keep_state(state, s, c, s1, s2):
         state[s, c, 1] = s2
 
 
+@njit(cache=True, nogil=True, inline="always")
+def _step(coefficients, v, s1, s2):
+    """One DF-II-T sample of one section: ``(y, s1, s2)`` after input ``v``."""
+    b0, b1, b2, a1, a2 = coefficients
+    y = b0 * v + s1
+    return y, b1 * v - a1 * y + s2, b2 * v - a2 * y
+
+
 @njit(cache=True, nogil=True)
 def _section_pair_stereo(sos, s, x, c, state, out, frames):
     """Sections ``s`` and ``s + 1`` on channels ``c`` and ``c + 1`` (a missing section passes)."""
-    b0, b1, b2, a1, a2 = _coefficients(sos, s)
-    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
+    first, second = _coefficients(sos, s), _coefficients(sos, s + 1)
     p1, p2 = _state(state, s, c)
     q1, q2 = _state(state, s, c + 1)
     r1, r2 = _state(state, s + 1, c)
     t1, t2 = _state(state, s + 1, c + 1)
     for i in range(frames):
-        v = x[i, c]
-        w = x[i, c + 1]
-        # y = b0 v + s1; s1 = b1 v - a1 y + s2; s2 = b2 v - a2 y (DF-II-T)
-        y = b0 * v + p1
-        p1 = b1 * v - a1 * y + p2
-        p2 = b2 * v - a2 * y
-        z = b0 * w + q1
-        q1 = b1 * w - a1 * z + q2
-        q2 = b2 * w - a2 * z
-        u = d0 * y + r1
-        r1 = d1 * y - e1 * u + r2
-        r2 = d2 * y - e2 * u
-        h = d0 * z + t1
-        t1 = d1 * z - e1 * h + t2
-        t2 = d2 * z - e2 * h
-        out[i, c] = u
-        out[i, c + 1] = h
+        y, p1, p2 = _step(first, x[i, c], p1, p2)
+        z, q1, q2 = _step(first, x[i, c + 1], q1, q2)
+        out[i, c], r1, r2 = _step(second, y, r1, r2)
+        out[i, c + 1], t1, t2 = _step(second, z, t1, t2)
     _keep_state(state, s, c, p1, p2)
     _keep_state(state, s, c + 1, q1, q2)
     _keep_state(state, s + 1, c, r1, r2)
@@ -143,9 +137,7 @@ def _section_pair_stereo(sos, s, x, c, state, out, frames):
 @njit(cache=True, nogil=True)
 def _section_triple_stereo(sos, s, x, c, state, out, frames):
     """Sections ``s``, ``s + 1`` and ``s + 2`` on channels ``c`` and ``c + 1``: six recurrences at once."""
-    b0, b1, b2, a1, a2 = _coefficients(sos, s)
-    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
-    f0, f1, f2, g1, g2 = _coefficients(sos, s + 2)
+    first, second, third = _coefficients(sos, s), _coefficients(sos, s + 1), _coefficients(sos, s + 2)
     p1, p2 = _state(state, s, c)
     q1, q2 = _state(state, s, c + 1)
     r1, r2 = _state(state, s + 1, c)
@@ -153,28 +145,12 @@ def _section_triple_stereo(sos, s, x, c, state, out, frames):
     m1, m2 = _state(state, s + 2, c)
     n1, n2 = _state(state, s + 2, c + 1)
     for i in range(frames):
-        v = x[i, c]
-        w = x[i, c + 1]
-        y = b0 * v + p1
-        p1 = b1 * v - a1 * y + p2
-        p2 = b2 * v - a2 * y
-        z = b0 * w + q1
-        q1 = b1 * w - a1 * z + q2
-        q2 = b2 * w - a2 * z
-        u = d0 * y + r1
-        r1 = d1 * y - e1 * u + r2
-        r2 = d2 * y - e2 * u
-        h = d0 * z + t1
-        t1 = d1 * z - e1 * h + t2
-        t2 = d2 * z - e2 * h
-        k = f0 * u + m1
-        m1 = f1 * u - g1 * k + m2
-        m2 = f2 * u - g2 * k
-        g = f0 * h + n1
-        n1 = f1 * h - g1 * g + n2
-        n2 = f2 * h - g2 * g
-        out[i, c] = k
-        out[i, c + 1] = g
+        y, p1, p2 = _step(first, x[i, c], p1, p2)
+        z, q1, q2 = _step(first, x[i, c + 1], q1, q2)
+        u, r1, r2 = _step(second, y, r1, r2)
+        h, t1, t2 = _step(second, z, t1, t2)
+        out[i, c], m1, m2 = _step(third, u, m1, m2)
+        out[i, c + 1], n1, n2 = _step(third, h, n1, n2)
     _keep_state(state, s, c, p1, p2)
     _keep_state(state, s, c + 1, q1, q2)
     _keep_state(state, s + 1, c, r1, r2)
@@ -186,19 +162,12 @@ def _section_triple_stereo(sos, s, x, c, state, out, frames):
 @njit(cache=True, nogil=True)
 def _section_pair_mono(sos, s, x, c, state, out, frames):
     """Sections ``s`` and ``s + 1`` on channel ``c`` (a missing section passes)."""
-    b0, b1, b2, a1, a2 = _coefficients(sos, s)
-    d0, d1, d2, e1, e2 = _coefficients(sos, s + 1)
+    first, second = _coefficients(sos, s), _coefficients(sos, s + 1)
     p1, p2 = _state(state, s, c)
     r1, r2 = _state(state, s + 1, c)
     for i in range(frames):
-        v = x[i, c]
-        y = b0 * v + p1
-        p1 = b1 * v - a1 * y + p2
-        p2 = b2 * v - a2 * y
-        u = d0 * y + r1
-        r1 = d1 * y - e1 * u + r2
-        r2 = d2 * y - e2 * u
-        out[i, c] = u
+        y, p1, p2 = _step(first, x[i, c], p1, p2)
+        out[i, c], r1, r2 = _step(second, y, r1, r2)
     _keep_state(state, s, c, p1, p2)
     _keep_state(state, s + 1, c, r1, r2)
 
