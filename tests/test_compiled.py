@@ -38,6 +38,23 @@ class TestWithoutTheModule:
         assert compiled.kernels_folder().parent == tmp_path / "emulate" / "kernels"
 
 
+class TestBuildCommand:
+    def test_failure_is_one_line(self, monkeypatch, capsys):
+        def fails():
+            raise RuntimeError("no C compiler found\nlong details")
+        monkeypatch.setattr(compiled, "build", fails)
+        assert compiled.main() == 1
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1 and "no C compiler found" in err and "JIT" in err
+
+    def test_interrupted_says_nothing_kept(self, monkeypatch, capsys):
+        def interrupted():
+            raise KeyboardInterrupt
+        monkeypatch.setattr(compiled, "build", interrupted)
+        assert compiled.main() == 130
+        assert "nothing was kept" in capsys.readouterr().err
+
+
 class Recorder:
     """Stands in for the compiled module: records which export was called."""
 
