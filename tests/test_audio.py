@@ -653,6 +653,21 @@ class TestCodesPathEqualsTheFloatPath:
         for key in ("peak_dbfs", "clipped_samples", "dithered", "frames"):
             assert codes[key] == floats[key]
 
+    def test_a_forwarding_wrapper_keeps_its_own_process(self, tmp_path):
+        # a wrapper handing unknown attributes to a notch processor (as the real box does)
+        # is rendered through its own process(), never through the wrapped process_codes
+        class Doubling(FloatOnly):
+            def __getattr__(self, name):
+                return getattr(self.processor, name)
+
+            def process(self, block):
+                return 2.0 * self.processor.process(block)
+
+        path, _ = make_input(tmp_path, "wav", "PCM_24", frames=3000)
+        quiet = render_file(path, tmp_path / "plain.wav", notch_processor())
+        loud = render_file(path, tmp_path / "doubled.wav", Doubling(notch_processor()))
+        assert loud.peak_dbfs == pytest.approx(quiet.peak_dbfs + 20 * math.log10(2.0), abs=1e-9)
+
     def test_input_shorter_than_the_latency(self, tmp_path):
         path, _ = make_input(tmp_path, "wav", "PCM_16", frames=1)
         render_file(path, tmp_path / "codes.wav", notch_processor())

@@ -600,8 +600,10 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
 
 def _codes_through(processor, in_subtype: str, encoder: Encoder) -> bool:
     """Whether the render runs codes to codes in one kernel pass: integer PCM in and out and a
-    processor that offers it (:meth:`emulate.dsp.processor.NotchProcessor.process_codes`)."""
-    return (processor is not None and callable(getattr(processor, "process_codes", None))
+    processor whose class defines it (:meth:`emulate.dsp.processor.NotchProcessor.process_codes`;
+    a wrapper that forwards attributes to a notch processor, e.g. the real box, has its own
+    ``process`` and must not be bypassed)."""
+    return (processor is not None and callable(getattr(type(processor), "process_codes", None))
             and in_subtype in PCM_BITS and encoder.bits is not None)
 
 
