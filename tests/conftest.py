@@ -30,10 +30,11 @@ if os.environ.get("CI"):
 
 @pytest.fixture(autouse=True)
 def hermetic_user_folders(tmp_path_factory, monkeypatch):
-    """$EMULATE_PRESETS_DIR and $XDG_DATA_HOME inside a fresh temporary folder."""
+    """$EMULATE_PRESETS_DIR, $XDG_DATA_HOME and $EMULATE_KERNELS_DIR inside a fresh temporary folder."""
     home = tmp_path_factory.mktemp("user")
     monkeypatch.setenv("EMULATE_PRESETS_DIR", str(home / "presets"))
     monkeypatch.setenv("XDG_DATA_HOME", str(home / "data"))
+    monkeypatch.setenv("EMULATE_KERNELS_DIR", str(home / "kernels"))
     return home
 
 

@@ -615,6 +615,66 @@ class TestRenderEqualsThePlainPath:
         assert np.abs(read_codes(tmp_path / "o.flac", 16) - expected).max() <= 1
 
 
+class FloatOnly:
+    """A processor's float path alone (``process_codes`` hidden): the render's general path."""
+
+    def __init__(self, processor):
+        self.processor = processor
+
+    def prepare(self, sample_rate, channels):
+        self.processor.prepare(sample_rate, channels)
+
+    @property
+    def latency_samples(self):
+        return self.processor.latency_samples
+
+    def process(self, block):
+        return self.processor.process(block)
+
+
+class TestCodesPathEqualsTheFloatPath:
+    """Integer PCM in and out runs codes to codes in one kernel pass
+    (``NotchProcessor.process_codes``); the file is the one the float path writes, byte
+    for byte, dither sequence included (the float path is checked against scipy above)."""
+
+    @pytest.mark.parametrize("in_subtype, out_subtype, mix, block_frames", [
+        ("PCM_24", None, 1.0, 4096), ("PCM_16", None, 0.7, 1000), ("PCM_24", "PCM_16", 0.5, 3),
+        ("PCM_16", "PCM_24", 1.0, 20000)])
+    def test_same_file(self, tmp_path, in_subtype, out_subtype, mix, block_frames):
+        path, _ = make_input(tmp_path, "wav", in_subtype, frames=9000)
+        reports = []
+        for name, wrap in (("codes.wav", lambda p: p), ("floats.wav", FloatOnly)):
+            proc = notch_processor()
+            proc.set_mix(mix)
+            reports.append(render_file(path, tmp_path / name, wrap(proc), subtype=out_subtype,
+                                       block_frames=block_frames, dither_seed=4))
+        assert (tmp_path / "codes.wav").read_bytes() == (tmp_path / "floats.wav").read_bytes()
+        codes, floats = (r.to_dict() for r in reports)
+        for key in ("peak_dbfs", "clipped_samples", "dithered", "frames"):
+            assert codes[key] == floats[key]
+
+    def test_a_forwarding_wrapper_keeps_its_own_process(self, tmp_path):
+        # a wrapper handing unknown attributes to a notch processor (as the real box does)
+        # is rendered through its own process(), never through the wrapped process_codes
+        class Doubling(FloatOnly):
+            def __getattr__(self, name):
+                return getattr(self.processor, name)
+
+            def process(self, block):
+                return 2.0 * self.processor.process(block)
+
+        path, _ = make_input(tmp_path, "wav", "PCM_24", frames=3000)
+        quiet = render_file(path, tmp_path / "plain.wav", notch_processor())
+        loud = render_file(path, tmp_path / "doubled.wav", Doubling(notch_processor()))
+        assert loud.peak_dbfs == pytest.approx(quiet.peak_dbfs + 20 * math.log10(2.0), abs=1e-9)
+
+    def test_input_shorter_than_the_latency(self, tmp_path):
+        path, _ = make_input(tmp_path, "wav", "PCM_16", frames=1)
+        render_file(path, tmp_path / "codes.wav", notch_processor())
+        render_file(path, tmp_path / "floats.wav", FloatOnly(notch_processor()))
+        assert (tmp_path / "codes.wav").read_bytes() == (tmp_path / "floats.wav").read_bytes()
+
+
 class TestInterruptedRender:
     @staticmethod
     def pipeline_threads():
@@ -629,6 +689,22 @@ class TestInterruptedRender:
         with pytest.raises(KeyboardInterrupt):
             render_file(path, tmp_path / "o.wav", Interrupting(after=4), block_frames=1000)
         assert snapshot(tmp_path) == before and not self.pipeline_threads()
+
+    def test_ctrl_c_in_the_codes_path_leaves_no_file_and_no_thread(self, tmp_path, monkeypatch):
+        path, _ = make_input(tmp_path, "wav", "PCM_24", frames=20000)
+        proc, calls = notch_processor(), []
+        run = proc.process_codes
+
+        def interrupted(*args, **kwargs):
+            calls.append(1)
+            if len(calls) >= 4:
+                raise KeyboardInterrupt
+            return run(*args, **kwargs)
+        monkeypatch.setattr(proc, "process_codes", interrupted)
+        before = snapshot(tmp_path)
+        with pytest.raises(KeyboardInterrupt):
+            render_file(path, tmp_path / "o.wav", proc, block_frames=1000)
+        assert len(calls) == 4 and snapshot(tmp_path) == before and not self.pipeline_threads()
 
     def test_write_failure_leaves_no_file_and_no_thread(self, tmp_path, monkeypatch):
         path, _ = make_input(tmp_path, "wav", "PCM_16", frames=20000)

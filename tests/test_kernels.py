@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from emulate.dsp.kernels import codes_to_float, delay_line, encode_codes, ramp_blend, sos_filter
+from emulate.dsp.kernels import codes_to_float, delay_line, encode_codes, filter_codes, ramp_blend, sos_filter
 
 
 def noise(frames, channels, seed=1):
@@ -77,11 +77,12 @@ def textbook_cascade(sos, x):
 
 
 class TestSosFilterIdenticalSamples:
-    @pytest.mark.parametrize("sections", [1, 2, 3])
+    @pytest.mark.parametrize("sections", [1, 2, 3, 5])
     @pytest.mark.parametrize("channels", [1, 2, 3])
     def test_equals_the_textbook_loop_bit_for_bit(self, sections, channels):
-        # registers and channel pairs change the schedule, not the arithmetic: exact equality
-        sos = SOS_CASES["ellip"][:sections]
+        # registers, channel pairs and section pairs/triples change the schedule, not the
+        # arithmetic: exact equality
+        sos = np.vstack([SOS_CASES["ellip"]] * 2)[:sections]
         x = noise(700, channels)
         out, state = np.empty_like(x), np.zeros((sections, channels, 2))
         sos_filter(sos, x[:300], state, out[:300])
@@ -181,3 +182,54 @@ class TestDelayLine:
             delay_line(x[s:e], buffer, position, out[s:e])
         expected = np.vstack([np.zeros((delay, 2)), x[:-delay]])
         np.testing.assert_array_equal(out, expected)
+
+
+class TestFilterCodes:
+    """The one-pass kernel gives, bit for bit, the kernels above run one after the other
+    (the reference here is this module's own kernels, each checked against scipy or a
+    closed form above): codes to float, the sections, the delayed dry blended in, encoded."""
+
+    @staticmethod
+    def in_steps(codes, in_scale, sos, blend, ramp, delay, skip, enc):
+        x = np.empty(codes.shape)
+        codes_to_float(codes, in_scale, x)
+        wet = np.empty_like(x)
+        sos_filter(sos, x, np.zeros((len(sos), x.shape[1], 2)), wet)
+        if blend:
+            dry = x
+            if delay:
+                dry = np.empty_like(x)
+                delay_line(x, np.zeros((delay, x.shape[1])), np.zeros(1, np.int64), dry)
+            ramp_blend(dry, wet, ramp, wet)
+        out = np.empty((len(x) - skip, x.shape[1]), enc[-1])
+        encode_codes(np.ascontiguousarray(wet[skip:]), *enc[:-1], out)
+        return out
+
+    @pytest.mark.parametrize("channels", [1, 2, 3])
+    @pytest.mark.parametrize("blend, delay", [(False, 0), (True, 0), (True, 3)])
+    @pytest.mark.parametrize("bits, dither", [(16, True), (24, False)])
+    def test_equals_the_kernels_in_steps(self, channels, blend, delay, bits, dither):
+        rng = np.random.default_rng(channels)
+        wide, dtype = (16, np.int16) if bits == 16 else (32, np.int32)
+        codes = (rng.integers(-2 ** (bits - 1), 2 ** (bits - 1), (1000, channels)) << (wide - bits)).astype(dtype)
+        sos, in_scale, skip = SOS_CASES["ellip"], 2.0 ** -(wide - 1), 5
+        scale = 2.0 ** (bits - 1)
+
+        def encoder():
+            return [scale, -scale, scale - 1, 2.0 ** (wide - bits), dither, np.array([9], np.uint64),
+                    np.array([-np.inf, np.inf, 0.0, 0.0]), dtype]
+
+        ramp = [0.1, 1.0 / 400, 0.8]
+        expected_enc = encoder()
+        expected = self.in_steps(codes, in_scale, sos, blend, np.array(ramp), delay, skip, expected_enc)
+        enc, state, ramp_state = encoder(), np.zeros((len(sos), channels, 2)), np.array(ramp)
+        dry, position = np.zeros((delay, channels)), np.zeros(1, np.int64)
+        out, scratch = np.empty((len(codes) - skip, channels), dtype), np.empty((3, 64, channels))
+        done = 0
+        for first, stop in [(0, 3), (3, 500), (500, 1000)]:  # blocks across the skip and the chunks
+            dropped = max(0, min(skip - first, stop - first))
+            filter_codes(codes[first:stop], in_scale, sos, state, blend, ramp_state, dry, position,
+                         dropped, *enc[:-1], scratch, out[done:done + stop - first - dropped])
+            done += stop - first - dropped
+        np.testing.assert_array_equal(out, expected)
+        np.testing.assert_array_equal(enc[6], expected_enc[6])  # peak, clip and non-finite tally

@@ -292,3 +292,49 @@ class TestLiveChangesAreBlockSizeInvariant:
         proc.set_mix(0.0)
         out = np.vstack([head, run_blocks(proc, x[2400:], block)])
         assert max_step(out) <= 1.05 * max_step(x)
+
+
+class TestProcessCodes:
+    """``process_codes`` writes the codes the float path gives: ``process`` on the scaled
+    codes, the first ``skip`` frames dropped, then the encoder (checked in test_encode.py)."""
+
+    @staticmethod
+    def both_paths(change=None, mix=1.0):
+        from emulate.audio.encode import Encoder
+
+        rng = np.random.default_rng(11)
+        codes = rng.integers(-2 ** 15, 2 ** 15, (6000, 2)).astype(np.int16)
+        results = []
+        for use_codes in (True, False):
+            proc, enc = prepared(mix=mix, smoothing_ms=5.0), Encoder("PCM_16", True, 3)
+            parts = []
+            for k, first in enumerate(range(0, len(codes), 1000)):
+                if k == 2 and change:
+                    change(proc)
+                block, skip = codes[first:first + 1000], 2 if k == 0 else 0
+                if use_codes:
+                    out = np.empty((len(block) - skip, 2), enc.code_dtype)
+                    proc.process_codes(block, 2.0 ** -15, enc, out, skip)
+                else:
+                    out = enc.encode(proc.process(block * 2.0 ** -15)[skip:])
+                parts.append(out)
+            results.append((np.vstack(parts), enc.peak, enc.clipped))
+        return results
+
+    @pytest.mark.parametrize("change, mix", [
+        (None, 1.0), (None, 0.3), (lambda p: p.set_mix(0.2), 1.0),
+        (lambda p: p.set_circuit(*balanced_zpk(3000.0), 3000.0), 0.6)])
+    def test_equals_the_float_path(self, change, mix):
+        (codes, peak, clipped), (floats, peak_f, clipped_f) = self.both_paths(change, mix)
+        np.testing.assert_array_equal(codes, floats)
+        assert (peak, clipped) == (peak_f, clipped_f)
+
+    def test_bad_arrays_refused(self):
+        from emulate.audio.encode import Encoder
+
+        proc = prepared()
+        with pytest.raises(BadValueError, match="allowed: C-contiguous int16/int32"):
+            proc.process_codes(np.zeros((4, 2)), 1.0, Encoder("PCM_16", False, 0), np.empty((4, 2), np.int16))
+        with pytest.raises(BadValueError, match="allowed: C-contiguous int16/int32 .3, 2"):
+            proc.process_codes(np.zeros((4, 2), np.int16), 1.0, Encoder("PCM_16", False, 0),
+                               np.empty((4, 2), np.int16), skip=1)

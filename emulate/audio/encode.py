@@ -23,6 +23,7 @@ import math
 
 import numpy as np
 
+from emulate.dsp.state_layout import TALLY_BOTTOM, TALLY_CLIPPED, TALLY_NON_FINITE, TALLY_TOP
 from emulate.errors import EmulateError
 
 __all__ = ["Encoder", "PCM_BITS", "FLOAT_SUBTYPES", "DITHER_MAX_BITS", "container_bits"]
@@ -86,9 +87,9 @@ class Encoder:
         self.clipped = 0
         self.over = 0
         if self.bits is not None:
-            from emulate.dsp import kernels  # numba: loaded only when integers are written
+            from emulate.dsp.compiled import kernels  # loaded only when integers are written
 
-            self._kernels = kernels
+            self._kernels = kernels()
             self.scale = float(2 ** (self.bits - 1))
             self.lo, self.hi = -self.scale, self.scale - 1.0
             wide = container_bits(self.bits)
@@ -124,14 +125,34 @@ class Encoder:
 
     def _encode_int(self, y: np.ndarray) -> np.ndarray:
         codes = np.empty(y.shape, self._dtype)  # new per block: the writer may still hold the last
-        tally = self._tally
-        self._kernels.encode_codes(np.ascontiguousarray(y, dtype=np.float64), self.scale, self.lo,
-                                   self.hi, self.align, self.dither, self._rng, tally, codes)
-        if tally[self._kernels.TALLY_NON_FINITE]:
-            raise _non_finite()
-        self.clipped = int(tally[self._kernels.TALLY_CLIPPED])
-        self.peak = max(tally[self._kernels.TALLY_TOP], -tally[self._kernels.TALLY_BOTTOM], 0.0) / self.scale
+        self._kernels.encode_codes(np.ascontiguousarray(y, dtype=np.float64), *self.code_args(), codes)
+        self.count_codes()
         return codes
+
+    @property
+    def code_dtype(self):
+        """numpy dtype of the codes handed to libsndfile (int16 or int32); integer PCM only."""
+        return self._dtype
+
+    def code_args(self) -> tuple:
+        """``scale, lo, hi, align, dither, rng, tally`` as :func:`emulate.dsp.kernels.encode_codes`
+        takes them (integer PCM only): for a kernel that encodes in its own pass; call
+        :meth:`count_codes` after each such call."""
+        return self.scale, self.lo, self.hi, self.align, self.dither, self._rng, self._tally
+
+    def count_codes(self) -> None:
+        """Take the peak and clip counts from the kernels' tally.
+
+        Raises
+        ------
+        EmulateError
+            The samples encoded held NaN/Inf.
+        """
+        tally = self._tally
+        if tally[TALLY_NON_FINITE]:
+            raise _non_finite()
+        self.clipped = int(tally[TALLY_CLIPPED])
+        self.peak = max(tally[TALLY_TOP], -tally[TALLY_BOTTOM], 0.0) / self.scale
 
 
 def _non_finite() -> EmulateError:

@@ -18,11 +18,51 @@ import threading
 from collections.abc import Callable, Iterable, Iterator
 from contextlib import contextmanager
 
-__all__ = ["read_ahead", "write_behind", "DEFAULT_DEPTH"]
+import numpy as np
+
+__all__ = ["read_ahead", "write_behind", "BlockPool", "DEFAULT_DEPTH"]
 
 DEFAULT_DEPTH = 3  # blocks waiting on each side of the caller
 _POLL_S = 0.05  # how often a waiting thread looks at the stop flag
 _END = object()
+
+
+class BlockPool:
+    """Arrays of one shape and dtype, reused: taken by one thread, given back by another.
+
+    A render hands its blocks between the reader, the filter and the writer; reusing
+    them spares an allocation (and the kernel's page faults on fresh memory) per block.
+    A block is made when none is free, so ``take`` never waits: how many exist is
+    bounded by the queues around them (``depth`` per queue plus one per thread).
+
+    Parameters
+    ----------
+    shape : tuple of int
+        Shape of every block.
+    dtype : numpy dtype
+        Element type.
+
+    Example
+    -------
+    >>> pool = BlockPool((4, 2), np.int32)
+    >>> a = pool.take(); pool.give(a); pool.take() is a
+    True
+    """
+
+    def __init__(self, shape, dtype):
+        self.shape, self.dtype = tuple(shape), np.dtype(dtype)
+        self._free: queue.SimpleQueue = queue.SimpleQueue()
+
+    def take(self) -> np.ndarray:
+        """A free block (its contents are left over), or a new one."""
+        try:
+            return self._free.get_nowait()
+        except queue.Empty:
+            return np.empty(self.shape, self.dtype)
+
+    def give(self, block: np.ndarray) -> None:
+        """Give ``block`` back (nothing may use it after)."""
+        self._free.put(block)
 
 
 class _Failed:

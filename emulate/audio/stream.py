@@ -29,6 +29,13 @@ bounded whatever the file length.
 Reading, processing and writing overlap (libsndfile and the kernels release the GIL);
 bounded queues keep memory at a few blocks whatever the length.
 
+Integer PCM in and out with a processor that offers ``process_codes`` (the notch
+processor) takes a shorter road: the reader reads codes into reused int16/int32 blocks,
+one kernel pass turns them into output codes (2.-5. together: scale, filter, mix,
+measure, dither, round, clip) in reused blocks, and the writer hands those to
+libsndfile; no float block exists and nothing is allocated per block. The file is
+byte for byte the one the float path writes.
+
 Sample scaling is libsndfile's read convention in both directions: an N-bit code ``c``
 is the value ``c / 2**(N-1)``, so 0 dBFS is 1.0, the largest positive code is
 ``1 - 2**-(N-1)`` and the smallest is exactly -1.0. Integer codes are computed here and
@@ -404,7 +411,9 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
     """
     if kernel:
-        from emulate.dsp.kernels import codes_to_float  # numba: loaded only when rendering
+        from emulate.dsp.compiled import kernels  # loaded only when rendering
+
+        codes_to_float = kernels().codes_to_float
     else:
         codes_to_float = _codes_to_float_numpy
     wide = container_bits(PCM_BITS[snd.subtype])
@@ -563,6 +572,12 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
             latency = check_count("processor latency_samples",
                                   getattr(processor, "latency_samples", 0), 0)
         encoder = Encoder(out_subtype, dither, dither_seed)
+        if _codes_through(processor, src.subtype, encoder):
+            with _atomic_output(out_path, fmt, out_subtype, rate, channels, replace) as dst:
+                frames = _render_codes(src, in_path, dst, processor, encoder, latency, block_frames,
+                                       progress)
+            return _report(in_path, out_path, frames, rate, channels, fmt, out_subtype, latency,
+                           encoder, start)
         frames = 0
         # reading (thread), processing and encoding (here), writing (thread) overlap
         with _atomic_output(out_path, fmt, out_subtype, rate, channels, replace) as dst, \
@@ -581,6 +596,71 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
                     progress(len(block))
     return _report(in_path, out_path, frames, rate, channels, fmt, out_subtype, latency,
                    encoder, start)
+
+
+def _codes_through(processor, in_subtype: str, encoder: Encoder) -> bool:
+    """Whether the render runs codes to codes in one kernel pass: integer PCM in and out and a
+    processor whose class defines it (:meth:`emulate.dsp.processor.NotchProcessor.process_codes`;
+    a wrapper that forwards attributes to a notch processor, e.g. the real box, has its own
+    ``process`` and must not be bypassed)."""
+    return (processor is not None and callable(getattr(type(processor), "process_codes", None))
+            and in_subtype in PCM_BITS and encoder.bits is not None)
+
+
+def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, encoder: Encoder,
+                  latency: int, block_frames: int, progress) -> int:
+    """Integer PCM in, integer PCM out: read codes, filter and encode them in one pass, write codes.
+
+    The reader thread reads into reused int16/int32 blocks, this thread runs
+    ``processor.process_codes`` into reused output blocks, the writer thread writes them
+    and gives them back: no float block, no conversion outside the kernel, no allocation
+    per block. The latency is compensated as in :func:`_processed` (its first output
+    frames dropped, as many zero frames fed after the input). Returns the frames written.
+    """
+    in_dtype = np.int16 if container_bits(PCM_BITS[src.subtype]) == 16 else np.int32
+    in_scale = 2.0 ** -(container_bits(PCM_BITS[src.subtype]) - 1)
+    channels = src.channels
+    inputs = pipeline.BlockPool((block_frames, channels), in_dtype)
+    outputs = pipeline.BlockPool((block_frames, channels), encoder.code_dtype)
+    skip, written = latency, 0
+
+    def read_codes():
+        done = 0
+        while True:
+            block = inputs.take()
+            n = len(_read(src, in_path, done, out=block, always_2d=True))
+            if not n:
+                return
+            done += n
+            yield block, n
+
+    def write_codes(item):
+        block, n = item
+        dst.write(block[:n])
+        outputs.give(block)
+
+    def feed(block, n, put):
+        nonlocal skip, written
+        dropped = min(skip, n)
+        skip -= dropped
+        out = outputs.take()
+        processor.process_codes(block[:n], in_scale, encoder, out[:n - dropped], dropped)
+        if n > dropped:
+            put((out, n - dropped))
+            written += n - dropped
+        else:
+            outputs.give(out)
+
+    with pipeline.read_ahead(read_codes()) as blocks, pipeline.write_behind(write_codes) as put:
+        for block, n in blocks:
+            feed(block, n, put)
+            inputs.give(block)
+            if progress is not None:
+                progress(n)
+        zeros = np.zeros((block_frames, channels), in_dtype)
+        for first in range(0, latency, block_frames):
+            feed(zeros, min(block_frames, latency - first), put)
+    return written
 
 
 def _report(in_path, out_path, frames, rate, channels, fmt, subtype, latency,

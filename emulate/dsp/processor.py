@@ -29,6 +29,8 @@ from emulate.validate import check_count, check_range
 
 __all__ = ["NotchProcessor"]
 
+_CHUNK_FRAMES = 2048  # process_codes' float samples per kernel chunk: a few tens of kB, in cache
+
 
 def _check_smoothing_ms(smoothing_ms):
     """Return ``smoothing_ms`` as float if finite and >= 0 ms, else raise BadValueError."""
@@ -37,10 +39,11 @@ def _check_smoothing_ms(smoothing_ms):
 
 
 def _kernels():
-    """The numba kernels, loaded on the first block: a design or a response needs no numba."""
-    from emulate.dsp import kernels
+    """The kernels, loaded on the first block (compiled ahead of time, else numba's JIT):
+    a design or a response needs neither."""
+    from emulate.dsp.compiled import kernels
 
-    return kernels
+    return kernels()
 
 
 class _Stage:
@@ -106,6 +109,7 @@ class NotchProcessor:
         self._fade = np.zeros(3)
         self._mix_ramp = np.array([self._mix, 1.0, self._mix])
         self._delay = None
+        self._scratch = None  # process_codes' work space, (3, chunk, channels)
 
     # --- lifecycle -----------------------------------------------------------
 
@@ -135,6 +139,7 @@ class NotchProcessor:
         """
         self._fs = check_sample_rate_hz(sample_rate)
         self._channels = check_count("channels", channels, 1)
+        self._scratch = None
         self._stage = _Stage(self._design(*self._circuit), self._channels)
         self.reset()
 
@@ -325,6 +330,58 @@ class NotchProcessor:
         _kernels().ramp_blend(dry, wet, self._mix_ramp, out)
         return out
 
+    def process_codes(self, codes, in_scale, encoder, out, skip=0):
+        """Filter a block of integer codes straight into integer codes (a render's one pass).
+
+        The codes written are those of ``encoder.encode(self.process(codes * in_scale)[skip:])``
+        (the same arithmetic per sample, the same dither sequence), but computed in one
+        kernel pass (:func:`emulate.dsp.kernels.filter_codes`) with no float block in
+        memory. During a crossfade it takes that float path itself.
+
+        Parameters
+        ----------
+        codes : ndarray of int16 or int32, shape (frames, channels), C-contiguous
+            Input codes, left-aligned in their container (as libsndfile reads them).
+        in_scale : float
+            ``2**-(container bits - 1)``: what a code is worth (full scale 1.0).
+        encoder : emulate.audio.encode.Encoder
+            The output's encoder, integer PCM (its ``code_args`` and ``count_codes``).
+        out : ndarray of ``encoder.code_dtype``, shape (frames - skip, channels), C-contiguous
+            The output codes.
+        skip : int, optional
+            Output frames at the start filtered but dropped (latency compensation).
+
+        Raises
+        ------
+        EmulateError
+            If :meth:`prepare` has not been called, or the output held NaN/Inf.
+        BadValueError
+            If the arrays are not as described.
+
+        Example
+        -------
+        >>> from emulate.audio.encode import Encoder
+        >>> w0 = 2 * np.pi * 1000.0
+        >>> proc = NotchProcessor([1j * w0, -1j * w0], np.roots([1, 4 * w0, w0 ** 2]), 1.0, notch_hz=1000, mix=0.0)
+        >>> proc.prepare(44100, 1); out = np.empty((4, 1), np.int16)
+        >>> proc.process_codes(np.full((4, 1), 1000, np.int16), 2.0 ** -15, Encoder("PCM_16", False, 0), out)
+        >>> out[:, 0].tolist(), proc.latency_samples  # mix 0: the dry path, delayed by the latency
+        ([0, 1000, 1000, 1000], 1)
+        """
+        self._require_prepared()
+        self._check_codes(codes, out, skip)
+        if self._old is not None:  # a crossfade: the float path (rare: live circuit changes)
+            out[:] = encoder.encode(self.process(codes * in_scale)[skip:])
+            return
+        blend = not self._mix_settled_at(1.0)
+        dry_buffer, dry_position = self._delay or (np.zeros((0, self._channels)), np.zeros(1, np.int64))
+        if self._scratch is None:
+            self._scratch = np.empty((3, _CHUNK_FRAMES, self._channels))
+        stage = self._stage
+        _kernels().filter_codes(codes, float(in_scale), stage.design.sos, stage.state, blend, self._mix_ramp,
+                                dry_buffer, dry_position, int(skip), *encoder.code_args(), self._scratch, out)
+        encoder.count_codes()
+
     # --- helpers -------------------------------------------------------------
 
     def _design(self, z, p, k, notch_hz):
@@ -358,6 +415,19 @@ class NotchProcessor:
     def _require_prepared(self):
         if self._stage is None:
             raise EmulateError("NotchProcessor is not prepared; call prepare(sample_rate, channels) first")
+
+    def _check_codes(self, codes, out, skip):
+        channels = self._channels
+        for name, a, frames in (("codes", codes, None), ("out", out, len(codes) - skip)):
+            if (not isinstance(a, np.ndarray) or a.dtype not in (np.int16, np.int32) or a.ndim != 2
+                    or a.shape[1] != channels or not a.flags.c_contiguous
+                    or (frames is not None and len(a) != frames)):
+                raise BadValueError(
+                    f"{name} of {getattr(a, 'dtype', type(a).__name__)} {getattr(a, 'shape', '')} is not "
+                    f"allowed; allowed: C-contiguous int16/int32 ({frames if frames is not None else 'frames'}, "
+                    f"{channels})")
+        if not 0 <= skip <= len(codes):
+            raise BadValueError(f"skip {skip} is not allowed; allowed: 0 to {len(codes)} frames")
 
     def _check_block(self, block):
         self._require_prepared()

@@ -200,9 +200,9 @@ class SectionFilter:
 
     def __call__(self, block) -> np.ndarray:
         """The next block filtered (a new array; ``block`` is not changed)."""
-        from emulate.dsp.kernels import sos_filter
+        from emulate.dsp.compiled import kernels  # compiled ahead of time if built, else numba's JIT
 
         x = np.ascontiguousarray(block, dtype=np.float64)
         out = np.empty_like(x)
-        sos_filter(self._sos, x, self._state, out)
+        kernels().sos_filter(self._sos, x, self._state, out)
         return out

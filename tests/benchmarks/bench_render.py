@@ -23,14 +23,15 @@ Also:
   measured it on the reference CPU, and this machine's own estimate, twice the rate of
   one section on one channel (one latency-bound recurrence; the stereo pair runs two of
   them side by side) -- goal 80 %;
-* fixed cost before the first sample, in a fresh interpreter: imports of the render
-  path, design (processor_for + prepare), first block through the kernels (numba cache
-  loads) -- goal < 0.3 s; numba's own share (its import, the scipy.linalg its first
-  cached call imports for a BLAS check, the first cached calls) is shown apart, as the
-  floor any numba-cached program pays;
+* fixed cost before the first sample, in a fresh interpreter, along the render's path
+  (integer PCM: ``process_codes``): imports, design (processor_for + prepare), choosing
+  the kernels, the first block -- goal < 0.3 s -- twice: with the kernels compiled ahead
+  of time (built first into the work folder by ``python -m emulate.dsp.compiled``, its
+  time shown) and with numba's JIT kernels (an empty kernels folder: numba imported, its
+  cached kernels loaded); whether numba and scipy.linalg were loaded;
 * peak memory on the user's path: a fresh child runs
   ``python -m emulate render IN OUT --r1 10k --r2 10k --r3 5k --c1 2n2 --c2 2n2 --c3 4n4``
-  on a 1-second take and on the timed take; the figure is ru_maxrss from
+  on a 1-second take (compiled and JIT kernels) and on the timed take; the figure is ru_maxrss from
   resource.getrusage(RUSAGE_CHILDREN) in a small meter process whose only child is the
   CLI, with the CLI's own VmHWM (read at exit) as a cross-check (goal: flat with length,
   < 200 MB); beside it the resident memory after each import on the render path.
@@ -49,6 +50,7 @@ import io
 import json
 import os
 import pstats
+import shutil
 import statistics
 import subprocess
 import sys
@@ -161,17 +163,14 @@ def kernel_rates(repeats: int = 15, frames: int = 1 << 20) -> dict:
             "share_of_limit_issue": rates["stereo_two_sections"] / KERNEL_LIMIT_ISSUE_MS}
 
 
-# Fixed cost before the first sample, in a fresh interpreter (interpreter start excluded).
+# Fixed cost before the first sample, in a fresh interpreter (interpreter start excluded),
+# along the render's own path (integer PCM in and out: process_codes).
 FIXED_COST_CHILD = """
 import json, sys, time
 sys.path.insert(0, {root!r})
 t0 = time.perf_counter()
 import numpy as np
 t_numpy = time.perf_counter()
-import numba
-t_numba = time.perf_counter()
-import scipy.linalg  # numba's first cached call imports it (its BLAS check); timed apart here
-t_scipy = time.perf_counter()
 from emulate.analog.networks import TwinT
 from emulate.audio import stream
 from emulate.audio.encode import Encoder
@@ -180,24 +179,37 @@ t1 = time.perf_counter()
 proc = processor_for(TwinT.balanced(6000.0, r_ohms=10e3))
 proc.prepare(48000, 2)
 t2 = time.perf_counter()
-codes = np.zeros((64, 2), np.int32)
-from emulate.dsp.kernels import codes_to_float
-block = np.empty(codes.shape)
-codes_to_float(codes, 2.0 ** -31, block)
-Encoder("PCM_24", True, 0).encode(proc.process(block))
+encoder = Encoder("PCM_24", True, 0)  # chooses the kernels: compiled if built, else numba's JIT
 t3 = time.perf_counter()
-print(json.dumps({{"numpy_s": t_numpy - t0, "numba_s": t_numba - t_numpy, "scipy_linalg_s": t_scipy - t_numba,
-                  "emulate_imports_s": t1 - t_scipy, "imports_s": t1 - t0, "design_s": t2 - t1,
-                  "first_block_s": t3 - t2, "total_s": t3 - t0,
-                  "numba_floor_s": (t_scipy - t_numpy) + (t3 - t2)}}))
+skip = proc.latency_samples
+codes, out = np.zeros((64, 2), np.int32), np.empty((64 - skip, 2), np.int32)
+proc.process_codes(codes, 2.0 ** -31, encoder, out, skip)
+t4 = time.perf_counter()
+print(json.dumps({{"numpy_s": t_numpy - t0, "emulate_imports_s": t1 - t_numpy, "imports_s": t1 - t0,
+                  "design_s": t2 - t1, "kernels_load_s": t3 - t2, "first_block_s": t4 - t3,
+                  "total_s": t4 - t0, "numba_loaded": "numba" in sys.modules,
+                  "scipy_linalg_loaded": "scipy.linalg" in sys.modules}}))
 """
 
 
-def fixed_cost(repeats: int) -> dict:
+def kernel_envs(work: Path) -> tuple[dict, float]:
+    """Environments for the children: numba's JIT kernels (an empty kernels folder) and the
+    kernels compiled ahead of time (built into ``work`` first: the seconds that took)."""
+    jit_dir, compiled_dir = work / "kernels-none", work / "kernels"
+    jit_dir.mkdir(exist_ok=True)
+    envs = {"jit": {**os.environ, "EMULATE_KERNELS_DIR": str(jit_dir)},
+            "compiled": {**os.environ, "EMULATE_KERNELS_DIR": str(compiled_dir)}}
+    t = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "emulate.dsp.compiled"], env=envs["compiled"], cwd=ROOT,
+                   check=True, capture_output=True)
+    return envs, time.perf_counter() - t
+
+
+def fixed_cost(repeats: int, env: dict) -> dict:
     """Median of each part over ``repeats`` fresh interpreters (the first run warms the caches)."""
     code = FIXED_COST_CHILD.format(root=str(ROOT))
-    _fresh_child([sys.executable, "-c", code])
-    runs = [json.loads(_fresh_child([sys.executable, "-c", code])) for _ in range(repeats)]
+    _fresh_child([sys.executable, "-c", code], env)
+    runs = [json.loads(_fresh_child([sys.executable, "-c", code], env)) for _ in range(repeats)]
     return {key: statistics.median(r[key] for r in runs) for key in runs[0]}
 
 
@@ -244,27 +256,27 @@ for name in {modules!r}:
     importlib.import_module(name)
     steps[name] = rss_mb()
 import numpy as np
-from emulate.dsp import kernels
-kernels.sos_filter(np.zeros((1, 6)), np.zeros((4, 2)), np.zeros((1, 2, 2)), np.empty((4, 2)))
+from emulate.dsp.compiled import kernels
+kernels().sos_filter(np.zeros((1, 6)), np.zeros((4, 2)), np.zeros((1, 2, 2)), np.empty((4, 2)))
 steps["kernels run once"] = rss_mb()
+steps["numba loaded"] = "numba" in sys.modules
 steps["scipy modules loaded"] = sorted({{m.split(".")[1] for m in sys.modules
                                         if m.startswith("scipy.") and not m.split(".")[1].startswith("_")}})
 print(json.dumps(steps))
 """
-RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "scipy.linalg", "numba", "emulate.dsp.kernels",
-                       "emulate.analog.circuit", "emulate.cli.options", "emulate.dsp.digital",
+RENDER_PATH_MODULES = ["numpy", "click", "soundfile", "emulate.dsp.compiled", "emulate.analog.circuit", "emulate.cli.options", "emulate.dsp.digital",
                        "emulate.dsp.processor", "emulate.audio.encode", "emulate.audio.pipeline",
                        "emulate.cli.sound"]
 
 
-def _fresh_child(argv: list[str]) -> str:
+def _fresh_child(argv: list[str], env: dict | None = None) -> str:
     """stdout of ``argv`` run as a fresh child (see :func:`cli_peak_rss` for why the shell)."""
-    out = subprocess.run(["/bin/sh", "-c", '"$@"; exit $?', "sh", *argv],
+    out = subprocess.run(["/bin/sh", "-c", '"$@"; exit $?', "sh", *argv], env=env,
                          check=True, capture_output=True, text=True)
     return out.stdout.strip().splitlines()[-1]
 
 
-def cli_peak_rss(src: Path, dst: Path) -> dict:
+def cli_peak_rss(src: Path, dst: Path, env: dict) -> dict:
     """Peak RSS (MB) of ``emulate render SRC DST`` with the bench parts, in a fresh child.
 
     Linux keeps the larger of a process's own peak and the peak of the memory it had
@@ -276,15 +288,15 @@ def cli_peak_rss(src: Path, dst: Path) -> dict:
     """
     hwm = dst.with_suffix(".hwm")
     cmd = [sys.executable, "-c", CLI_CHILD, str(hwm), "render", str(src), str(dst), *CLI_PARTS, "--force"]
-    result = json.loads(_fresh_child([sys.executable, "-c", METER, json.dumps(cmd), str(hwm)]))
+    result = json.loads(_fresh_child([sys.executable, "-c", METER, json.dumps(cmd), str(hwm)], env))
     hwm.unlink()
     return result
 
 
-def import_steps_rss() -> dict:
+def import_steps_rss(env: dict) -> dict:
     """Resident MB after each import of the render path (a fresh child, nothing rendered)."""
     code = STEPS_CHILD.format(root=str(ROOT), modules=RENDER_PATH_MODULES)
-    return json.loads(_fresh_child([sys.executable, "-c", code]))
+    return json.loads(_fresh_child([sys.executable, "-c", code], env))
 
 
 def profile_render(src: Path, dst: Path, block_frames: int) -> dict:
@@ -339,20 +351,20 @@ def run(args) -> dict:
     results["render"].update(fidelity_db=proc.fidelity_db, method=proc.design.method,
                              sections=int(len(proc.design.sos)))
     results["kernel"] = kernel_rates()
-    results["fixed_cost_s"] = fixed_cost(args.repeats)
+    envs, results["compile_ahead_s"] = kernel_envs(work)
+    results["fixed_cost_s"] = {kind: fixed_cost(args.repeats, env) for kind, env in envs.items()}
 
     # a 1-second take shows the fixed cost (interpreter, imports, kernels, design);
     # longer takes must not add to it if memory is bounded
     short = make_take(work / "take1s.wav", 1.0)
-    results["memory"] = {"cli_render_1s": cli_peak_rss(short, work / "out1s.wav"),
-                         f"cli_render_{args.minutes:g}min": cli_peak_rss(src, out)}
-    results["import_steps_rss_mb"] = import_steps_rss()
+    results["memory"] = {"cli_render_1s_jit": cli_peak_rss(short, work / "out1s.wav", envs["jit"]),
+                         "cli_render_1s": cli_peak_rss(short, work / "out1s.wav", envs["compiled"]),
+                         f"cli_render_{args.minutes:g}min": cli_peak_rss(src, out, envs["compiled"])}
+    results["import_steps_rss_mb"] = import_steps_rss(envs["compiled"])
     if args.profile:
         results["profile"] = profile_render(src, out, bf)
     if not args.work:
-        for p in work.iterdir():
-            p.unlink()
-        work.rmdir()
+        shutil.rmtree(work)
     return results
 
 
@@ -375,16 +387,18 @@ def report(results: dict) -> None:
           f"{k['m_samples_per_s_median']:.0f}) = "
           f"{k['share_of_limit_issue']:.0%} of issue 8's latency limit ({k['latency_limit_issue_m_samples_per_s']:.0f}), "
           f"{k['share_of_limit_here']:.0%} of this machine's estimate ({k['latency_limit_here_m_samples_per_s']:.0f})")
-    f = results["fixed_cost_s"]
-    print(f"fixed cost before the first sample: {f['total_s']:.3f} s (imports {f['imports_s']:.3f}: numpy "
-          f"{f['numpy_s']:.3f}, numba {f['numba_s']:.3f}, scipy.linalg {f['scipy_linalg_s']:.3f}, emulate "
-          f"{f['emulate_imports_s']:.3f}; design {f['design_s']:.3f}, first block {f['first_block_s']:.3f}); "
-          f"numba's own part (import, scipy.linalg, first cached calls) {f['numba_floor_s']:.3f} s")
+    print(f"kernels compiled ahead of time in {results['compile_ahead_s']:.1f} s (python -m emulate.dsp.compiled)")
+    for kind, f in results["fixed_cost_s"].items():
+        print(f"fixed cost before the first sample, {kind} kernels: {f['total_s']:.3f} s (imports {f['imports_s']:.3f}: "
+              f"numpy {f['numpy_s']:.3f}, emulate {f['emulate_imports_s']:.3f}; design {f['design_s']:.3f}, "
+              f"kernels {f['kernels_load_s']:.3f}, first block {f['first_block_s']:.3f}); numba loaded: "
+              f"{bool(f['numba_loaded'])}, scipy.linalg loaded: {bool(f['scipy_linalg_loaded'])}")
     print("peak RSS of `emulate render` in a fresh child (ru_maxrss / VmHWM): " + "; ".join(
         f"{k} {v['maxrss_mb']:.0f} / {v['vmhwm_mb']:.0f} MB ({v['elapsed_s']:.1f} s)"
         for k, v in results["memory"].items()))
     steps = dict(results["import_steps_rss_mb"])
     scipy_loaded = steps.pop("scipy modules loaded")
+    print(f"numba loaded on the render path (compiled kernels): {steps.pop('numba loaded')}")
     print("resident MB after each import: " + ", ".join(f"{k} {v:.0f}" for k, v in steps.items()))
     print("scipy subpackages loaded: " + ", ".join(scipy_loaded))
     if "profile" in results:
