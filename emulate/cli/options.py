@@ -37,7 +37,7 @@ PART_HELP = {
 # runs, so `emulate render` does not pay for plotting or speech analysis imports
 COMMAND_MODULES = {
     "response": "circuit", "design": "circuit",
-    "render": "sound", "demo": "demo",
+    "render": "sound", "precompile": "sound", "demo": "demo",
     "sibilance": "finders", "hum": "finders", "resonance": "finders",
     "sweep": "speaker", "preset": "speaker",
     "tolerance": "build", "sheet": "build", "measure": "measure",
@@ -50,6 +50,7 @@ COMMAND_SUMMARY = {
     "response": "Print what a proposed circuit does: notch, depth, Q, passband, warnings, a table.",
     "design": "Design a balanced twin-T for a target notch and build it from preferred values.",
     "render": "Render the take IN through the proposed circuit into OUT (WAV, FLAC, AIFF ...).",
+    "precompile": "Compile the render's kernels once for this machine, so a render starts without numba.",
     "demo": "Invented two-host podcast: takes, sibilance, presets, renders and pictures.",
     "sibilance": "Find where one speaker's /s/ and /sh/ sit, over one or more takes.",
     "hum": "Find mains hum: exact frequency, drift, harmonics and notches with their circuits.",
