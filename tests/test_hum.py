@@ -94,6 +94,7 @@ class TestFindHum:
         assert 0.1 <= r.drift_hz <= 0.2
         assert r.track[0][1] < r.track[-1][1]
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_steady_hum_has_no_drift(self):
         r = find_hum(_with_hum(48000, 59.9, -35, seconds=8.0), 48000)
         assert r.drift_hz < 0.02
