@@ -173,6 +173,7 @@ class TestFindSibilance:
         r = find_sibilance(voice_like_take(16000, 2.0, pitch_hz=120, sibilance_hz=4000), 16000)
         assert r.search_band_hz == (2000.0, 8000.0)
 
+    @pytest.mark.slow  # four takes; every default finding above checks its peak inside its band too
     def test_peak_always_inside_band(self):
         for seed in range(4):
             r = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=150, sibilance_hz=5000 + 800 * seed,
