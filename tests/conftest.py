@@ -57,3 +57,4 @@ def browser(page):
     open_page(driver, page)
     yield driver
     driver.quit()
+
