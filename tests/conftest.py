@@ -10,9 +10,11 @@ session's own, so no picture depends on the user's settings. No test uses the ne
 """
 
 import atexit
+import itertools
 import os
 import shutil
 import tempfile
+from pathlib import Path
 
 import pytest
 from hypothesis import settings
@@ -28,10 +30,19 @@ if os.environ.get("CI"):
     settings.load_profile("ci")
 
 
+# every test's own user folder: a fresh numbered folder under one session folder (made by a
+# counter: tmp_path_factory.mktemp lists its whole base folder at each call, about 1.5 ms a test
+# with thousands of tests)
+_USER_HOMES = tempfile.mkdtemp(prefix="emulate-tests-users-")
+atexit.register(shutil.rmtree, _USER_HOMES, ignore_errors=True)
+_NEXT_HOME = itertools.count()
+
+
 @pytest.fixture(autouse=True)
-def hermetic_user_folders(tmp_path_factory, monkeypatch):
+def hermetic_user_folders(monkeypatch):
     """$EMULATE_PRESETS_DIR, $XDG_DATA_HOME and $EMULATE_KERNELS_DIR inside a fresh temporary folder."""
-    home = tmp_path_factory.mktemp("user")
+    home = Path(_USER_HOMES) / str(next(_NEXT_HOME))
+    home.mkdir()
     monkeypatch.setenv("EMULATE_PRESETS_DIR", str(home / "presets"))
     monkeypatch.setenv("XDG_DATA_HOME", str(home / "data"))
     monkeypatch.setenv("EMULATE_KERNELS_DIR", str(home / "kernels"))
@@ -47,3 +58,26 @@ def browser(page):
     open_page(driver, page)
     yield driver
     driver.quit()
+
+
+# docstring examples that run a whole measurement, fit or picture (about 0.5-1.5 s of CPU each):
+# with the slow checks, like the tests that check the same functions further by default
+# (test_measure.py, test_sheet.py, test_plots.py)
+SLOW_DOCTESTS = frozenset({
+    "emulate.measuring.synthetic.synthetic_recording",
+    "emulate.measuring.fit.diagnose",
+    "emulate.report.sheet.write_sheet",
+    "emulate.report.plots.plot_response",
+})
+
+
+@pytest.hookimpl(tryfirst=True)
+def pytest_collection_modifyitems(config, items):
+    """Mark the long docstring examples slow (before ``-m`` selects).
+
+    A hook of this file sees every collected item, the docstring examples under ``emulate/``
+    included, whenever ``tests/`` is collected (as in the default run).
+    """
+    for item in items:
+        if item.name in SLOW_DOCTESTS and type(item).__name__ == "DoctestItem":
+            item.add_marker(pytest.mark.slow)

@@ -266,6 +266,7 @@ class TestRunBatch:
         assert all(os.stat(r.output).st_mtime_ns == before[r.output] for r in second if r.status == "kept")
         assert [r.sibilance_band_change_db for r in second[:2]] == [r.sibilance_band_change_db for r in first[:2]]
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_redo_renders_everything(self, season):
         self.run(season)
         assert [r.status for r in self.run(season, redo=True)] == ["rendered"] * 3

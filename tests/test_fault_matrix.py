@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import pytest
 
-from fault_matrix import CASES, make_template, run_case
+from fault_matrix import CASES, make_template, run_case, template_unchanged
 
 
 @pytest.fixture(scope="module")
@@ -34,3 +34,8 @@ class TestFaultMatrix:
         assert outcome.one_line, outcome.output
         assert outcome.lost == [], outcome.output
         assert outcome.stray == [], outcome.output
+
+
+def test_no_case_changed_the_template(template):
+    # runs after the matrix (file order): the workspaces' files are hard links to the template's
+    assert template_unchanged(template)

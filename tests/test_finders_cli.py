@@ -72,6 +72,7 @@ class TestHumCommand:
         notch = take["notches"][0]
         assert notch["notch_hz"] == pytest.approx(50.02, abs=0.05) and "--r1" in notch["options"]
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_pooled_over_takes_with_a_repeat(self, takes):
         payload = json.loads(run("hum", takes["hum1"], takes["hum2"], takes["hum1"], "--json").output)
         pooled = payload["pooled"]
@@ -82,6 +83,7 @@ class TestHumCommand:
         result = run("hum", takes["clean"])
         assert result.exit_code == 0 and "no mains hum" in result.output
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_plot(self, takes, tmp_path):
         picture = tmp_path / "hum.svg"
         assert run("hum", takes["hum1"], "--plot", picture).exit_code == 0 and picture.exists()
@@ -98,11 +100,13 @@ class TestResonanceCommand:
         assert take["found"] and take["peak"]["frequency_hz"] == pytest.approx(1600, rel=0.02)
         assert take["notches"][0]["notch_hz"] == pytest.approx(take["peak"]["frequency_hz"])
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_text_and_pooled(self, takes):
         result = run("resonance", takes["ringing"], takes["clean"])
         assert result.exit_code == 0 and "resonance at 16" in result.output
         assert "pooled over 2 takes" in result.output
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_plot(self, takes, tmp_path):
         picture = tmp_path / "res.png"
         assert run("resonance", takes["ringing"], "--plot", picture).exit_code == 0 and picture.exists()

@@ -57,6 +57,7 @@ class TestFromFinder:
         assert len(result.output.strip().splitlines()) == 1
         assert not (tmp_path / "presets").exists()
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_never_overwrites_without_force(self, tmp_path, takes):
         assert save(tmp_path, "host", "--speaker", "A", "--notch", "5k").exit_code == 0
         before = (tmp_path / "presets" / "host.toml").read_bytes()

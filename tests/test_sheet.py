@@ -52,6 +52,7 @@ class TestWriteSheet:
             assert f"]({name})" in md and (full_sheet / name).stat().st_size > 20_000
         assert (full_sheet / "circuit.cir").read_text().rstrip().endswith(".end")
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_refuses_non_empty_folder_unless_forced(self, tmp_path):
         out = tmp_path / "s"
         out.mkdir()

@@ -11,10 +11,13 @@ The default run checks a representative subset of the grid (every centre, level,
 background at least once); the whole grid is marked slow.
 """
 
+import functools
+
 import numpy as np
 import pytest
 
 import sibilance_grid as grid
+from helpers_lean import slow_except
 from emulate.errors import BadValueError
 from emulate.voice.sibilance import aimed_at, combine_reports, find_sibilance, most_sibilant_excerpt
 from emulate.voice.synth import bursts_over_tone, take_schedule, voice_like_take
@@ -23,10 +26,26 @@ RATES_HZ = [16000, 44100, 48000, 96000]
 CENTRES_HZ = [4500, 6000, 8000]
 # (rate, centre) pairs whose synthetic sibilant band (centre +- 25 %) fits under 0.45 * rate
 FITTING = [(fs, fc) for fs in RATES_HZ for fc in CENTRES_HZ if 1.25 * fc < 0.45 * fs]
+# the default run: one centre per rate family (16, 44.1, 48, 96 kHz); the other pairs are slow
+FITTING_DEFAULT = [FITTING.index(pair) for pair in ((16000, 4500), (44100, 6000), (48000, 8000), (96000, 4500))]
+# the negative controls at 48 kHz: by default one with vowels and no background, one with vowels
+# over noise at -30 dBFS, and every control without vowels (noise, hum); the rest are slow
+CONTROLS_48K = [c for c in grid.negative_controls() if c.fs == 48000]
+CONTROLS_DEFAULT = [i for i, c in enumerate(CONTROLS_48K)
+                    if not c.vowels or (c.tilt_db, c.background) in ((-6.0, "none"), (-12.0, "noise-30"))]
+# vowels without bursts: each pitch once by default, at a different rate each; the rest are slow
+VOWEL_ONLY = [(fs, pitch) for pitch in (90, 220, 400) for fs in RATES_HZ]
+VOWEL_ONLY_DEFAULT = [VOWEL_ONLY.index(pair) for pair in ((48000, 90), (44100, 220), (16000, 400))]
 
 
 def _noise(fs, seconds=1.0, sigma=0.1, seed=0):
     return np.random.default_rng(seed).standard_normal(int(fs * seconds)) * sigma
+
+
+@functools.lru_cache(maxsize=None)
+def _take_report(seed: int, sibilance_hz: float = 6000.0):
+    """The (frozen) report of a 2-second 48 kHz take, found once for the pooling tests that share it."""
+    return find_sibilance(voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=sibilance_hz, seed=seed), 48000)
 
 
 def _grid_subset():
@@ -68,7 +87,7 @@ class TestControlledGrid:
         found, error = grid.judge(find_sibilance(x, case.fs), case)
         assert found, f"peak error {error}"
 
-    @pytest.mark.parametrize("case", [c for c in grid.negative_controls() if c.fs == 48000], ids=lambda c: c.name)
+    @pytest.mark.parametrize("case", slow_except(CONTROLS_48K, CONTROLS_DEFAULT, ids=lambda c: c.name))
     def test_negative_controls_are_not_sibilant(self, case):
         x, _ = grid.make_case(case)
         assert grid.judge(find_sibilance(x, case.fs), case)[0]
@@ -86,7 +105,7 @@ class TestControlledGrid:
 
 
 class TestFindSibilance:
-    @pytest.mark.parametrize("fs, centre_hz", FITTING)
+    @pytest.mark.parametrize("fs, centre_hz", slow_except(FITTING, FITTING_DEFAULT))
     def test_finds_known_band_across_rates(self, fs, centre_hz):
         r = find_sibilance(voice_like_take(fs, 4.0, pitch_hz=120, sibilance_hz=centre_hz, seed=1), fs)
         assert r.usable and r.reason == ""
@@ -105,7 +124,8 @@ class TestFindSibilance:
         tolerance = 3 * 0.025 * len(schedule.bursts_s) / 6.0
         assert r.sibilant_fraction == pytest.approx(schedule.burst_seconds / 6.0, abs=tolerance)
 
-    @pytest.mark.parametrize("fs, band", [(44100, (5000, 7000)), (48000, (6000, 9000)), (96000, (4500, 6500))])
+    @pytest.mark.parametrize("fs, band", slow_except([(44100, (5000, 7000)), (48000, (6000, 9000)),
+                                                      (96000, (4500, 6500))], keep=[1]))
     def test_flat_bursts_over_tone(self, fs, band):
         r = find_sibilance(bursts_over_tone(fs, 3.0, band_hz=band), fs)
         # flat band: peak and band inside it, 3 % for the grid step and the smoothing
@@ -131,8 +151,7 @@ class TestFindSibilance:
         assert not r.usable and r.reason.startswith(reason)
         assert np.isnan(r.peak_hz)
 
-    @pytest.mark.parametrize("fs", RATES_HZ)
-    @pytest.mark.parametrize("pitch_hz", [90, 220, 400])
+    @pytest.mark.parametrize("fs, pitch_hz", slow_except(VOWEL_ONLY, VOWEL_ONLY_DEFAULT))
     def test_vowel_only_takes_have_no_sibilance(self, fs, pitch_hz):
         r = find_sibilance(voice_like_take(fs, 3.0, pitch_hz=pitch_hz, sibilance_hz=None, seed=1), fs)
         assert not any(c.usable for c in r.classes.values())
@@ -154,6 +173,7 @@ class TestFindSibilance:
         r = find_sibilance(voice_like_take(16000, 2.0, pitch_hz=120, sibilance_hz=4000), 16000)
         assert r.search_band_hz == (2000.0, 8000.0)
 
+    @pytest.mark.slow  # four takes; every default finding above checks its peak inside its band too
     def test_peak_always_inside_band(self):
         for seed in range(4):
             r = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=150, sibilance_hz=5000 + 800 * seed,
@@ -227,8 +247,7 @@ class TestSuggestionsAreContinuous:
 
 class TestCombineReports:
     def test_pools_durations_and_spectra(self):
-        reports = [find_sibilance(voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=6000, seed=s), 48000)
-                   for s in (1, 2, 3)]
+        reports = [_take_report(s) for s in (1, 2, 3)]
         r = combine_reports(reports)
         assert r.usable and r.seconds == pytest.approx(6.0) and r.set_aside == ()
         assert r.sibilant_seconds == pytest.approx(sum(x.sibilant_seconds for x in reports))
@@ -253,8 +272,7 @@ class TestCombineReports:
 
     def test_exact_duplicates_are_ignored(self):
         # regression (issue 12): pooling the same take twice doubled its confidence
-        a = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=6000, seed=1), 48000)
-        b = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=6000, seed=2), 48000)
+        a, b = _take_report(1), _take_report(2)
         once, twice = combine_reports([a, b]), combine_reports([a, b, a], labels=["one", "two", "again"])
         assert twice.confidence == once.confidence and twice.seconds == once.seconds
         assert twice.peak_hz == once.peak_hz
@@ -270,7 +288,7 @@ class TestCombineReports:
         assert "octave from the other takes" in r.set_aside[0]
 
     def test_unusable_reports_add_only_duration(self):
-        good = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=120, sibilance_hz=6000), 48000)
+        good = _take_report(0)
         bad = find_sibilance(np.zeros(48000), 48000)
         r = combine_reports([good, bad])
         assert r.seconds == pytest.approx(3.0) and r.peak_hz == pytest.approx(good.peak_hz, rel=0.01)

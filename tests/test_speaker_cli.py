@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import math
+import shutil
 from pathlib import Path
 
 import pytest
@@ -202,15 +203,21 @@ class TestPresetSave:
         assert not (tmp_path / "p").exists() and not (tmp_path / "escape.toml").exists()
 
 
-@pytest.fixture
-def store(tmp_path):
-    """A presets folder with two good presets (saved by the command) and one malformed file."""
-    folder = tmp_path / "presets"
+@pytest.fixture(scope="module")
+def saved_store(tmp_path_factory):
+    """A presets folder with two good presets (saved by the command) and one malformed file, made once."""
+    folder = tmp_path_factory.mktemp("store") / "presets"
     for name, notch in (("anna", "5k"), ("ben", "7k")):
         result = run("preset", "save", name, "--speaker", name.title(), "--notch", notch, "--presets", folder)
         assert result.exit_code == 0, result.output
     (folder / "broken.toml").write_text('name = "broken"\nmix = "lots"\n')
     return folder
+
+
+@pytest.fixture
+def store(saved_store, tmp_path):
+    """A fresh copy of the saved presets folder for each test (tests delete and replace presets)."""
+    return Path(shutil.copytree(saved_store, tmp_path / "presets"))
 
 
 class TestPresetList:

@@ -182,6 +182,7 @@ class TestRunSweep:
         again = sweep.run_sweep(takes, plan, tmp_path / "out", workers=2)
         assert again.rows == result.rows and again.pick == result.pick
 
+    @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_progress_counts_every_frame(self, swept, tmp_path):
         takes, _, _, _ = swept
         seen = []
