@@ -54,6 +54,18 @@ class TestBuildCommand:
         assert compiled.main() == 130
         assert "nothing was kept" in capsys.readouterr().err
 
+    def test_the_command_line_says_the_same(self, monkeypatch):
+        # `emulate precompile` runs the same main(): one line and a non-zero exit on failure
+        from click.testing import CliRunner
+
+        from emulate.cli import main
+        from helpers_cli import assert_one_line_error
+
+        def fails():
+            raise RuntimeError("no C compiler found\nlong details")
+        monkeypatch.setattr(compiled, "build", fails)
+        assert_one_line_error(CliRunner().invoke(main, ["precompile"]), "no C compiler found")
+
 
 class Recorder:
     """Stands in for the compiled module: records which export was called."""
