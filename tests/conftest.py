@@ -68,6 +68,14 @@ SLOW_DOCTESTS = frozenset({
     "emulate.measuring.fit.diagnose",
     "emulate.report.sheet.write_sheet",
     "emulate.report.plots.plot_response",
+    # 0.3-0.6 s each (profiled 2026-12-03): a picture, a schematic or a whole finder on a take;
+    # tested by default in test_plots.py, test_schematic.py, test_sibilance.py, test_resonance.py
+    "emulate.report.plots.plot_tolerance",
+    "emulate.report.plots.plot_take_spectrum",
+    "emulate.report.plots.plot_sweep",
+    "emulate.report.schematic.draw_schematic",
+    "emulate.voice.sibilance.most_sibilant_excerpt",
+    "emulate.voice.resonance.find_resonance",
 })
 
 
