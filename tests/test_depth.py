@@ -115,8 +115,10 @@ class TestDepthDbToMix:
 
 
 class TestMixForDepth:
-    @pytest.mark.parametrize("kind", ["passive", "Q1", "Q5"])
-    @pytest.mark.parametrize("depth", [0.0, -3.0, -20.0, -60.0, -math.inf])
+    # by default each depth once, the kinds in turn (every kind at least once); the other ten slow
+    @pytest.mark.parametrize("kind, depth", slow_except(
+        [(kind, depth) for depth in (0.0, -3.0, -20.0, -60.0, -math.inf) for kind in ("passive", "Q1", "Q5")],
+        keep=[0, 4, 8, 9, 13], ids=lambda pair: f"{pair[0]}-{pair[1]}"))
     def test_exact_null_is_the_ideal_relation(self, kind, depth):
         # A balanced network nulls exactly (MT-225), |H| ~ 1e-17 there: the ideal relation
         # 20 log10(1 - mix) (common practice, no source); 1e-9 covers that residual.
@@ -155,8 +157,10 @@ class TestMixForDepth:
 
 
 class TestPotDepthDb:
-    @pytest.mark.parametrize("kind", ["passive", "Q1", "Q5"])
-    @pytest.mark.parametrize("position", [0.0, 0.1, 0.5, 0.9, 0.99, 1.0])
+    # by default each position once, the kinds in turn (each kind twice); the other twelve slow
+    @pytest.mark.parametrize("kind, position", slow_except(
+        [(kind, position) for position in (0.0, 0.1, 0.5, 0.9, 0.99, 1.0) for kind in ("passive", "Q1", "Q5")],
+        keep=[0, 4, 8, 9, 13, 17], ids=lambda pair: f"{pair[0]}-{pair[1]}"))
     def test_exact_null_is_the_divider(self, kind, position):
         # At an exact null the buffered wiper divides input (1) and output (0): the ideal
         # relation 20 log10(1 - p) (common practice) up to the 1 ppm ends; 1e-6 dB covers
@@ -207,7 +211,8 @@ class TestPotDepthDb:
 
 
 class TestPotPositionForDepth:
-    @pytest.mark.parametrize("depth", [-0.5, -20.0, -100.0])
+    # the shallowest and the deepest by default, the middle one slow
+    @pytest.mark.parametrize("depth", slow_except([-0.5, -20.0, -100.0], keep=[0, 2], one_name=True))
     def test_exact_null_inverts_the_divider(self, depth):
         # (1 + e - p) / (1 + 2e) = 10^(depth/20) solved for p (divider arithmetic).
         expected = 1 + END - 10 ** (depth / 20) * (1 + 2 * END)
