@@ -68,7 +68,7 @@ SLOW_DOCTESTS = frozenset({
     "emulate.measuring.fit.diagnose",
     "emulate.report.sheet.write_sheet",
     "emulate.report.plots.plot_response",
-    # 0.3-0.6 s each (profiled 2026-12-03): a picture, a schematic or a whole finder on a take;
+    # 0.2-0.6 s each (measured 2026-12-03): a picture, a schematic, a finder on a take, a pot solve;
     # tested by default in test_plots.py, test_schematic.py, test_sibilance.py, test_resonance.py
     "emulate.report.plots.plot_tolerance",
     "emulate.report.plots.plot_take_spectrum",
@@ -76,6 +76,10 @@ SLOW_DOCTESTS = frozenset({
     "emulate.report.schematic.draw_schematic",
     "emulate.voice.sibilance.most_sibilant_excerpt",
     "emulate.voice.resonance.find_resonance",
+    "emulate.voice.sibilance.find_sibilance",
+    "emulate.voice.sibilance.combine_reports",
+    "emulate.voice.sibilance.aimed_at",
+    "emulate.dsp.depth.pot_position_for_depth",  # test_depth.py
 })
 
 
