@@ -7,6 +7,8 @@ frequency, so the saved notch must land near it; the circuit must be the one ``p
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 import pytest
 import soundfile as sf
@@ -19,11 +21,19 @@ from emulate.work.presets import PresetStore
 FS = 48000
 
 
+@lru_cache(maxsize=None)
+def _voice(seed):
+    """One invented take per seed, made once a session (the same seed gives the same samples), read-only."""
+    x = synth.voice_like_take(FS, 3.0, pitch_hz=120.0, sibilance_hz=6000.0, seed=seed)
+    x.setflags(write=False)
+    return x
+
+
 @pytest.fixture
 def takes(tmp_path):
     paths = []
     for seed in (1, 2):
-        x = synth.voice_like_take(FS, 3.0, pitch_hz=120.0, sibilance_hz=6000.0, seed=seed)
+        x = _voice(seed)
         sf.write(tmp_path / f"t{seed}.wav", x, FS, subtype="PCM_16")
         paths.append(str(tmp_path / f"t{seed}.wav"))
     sf.write(tmp_path / "silent.wav", np.zeros(FS), FS, subtype="PCM_16")
