@@ -1,4 +1,4 @@
-"""A parametrised check split between the default run and the slow part.
+"""A parametrised check split between the default run and the slow part; invented takes made once.
 
 The default run keeps a few representative parameter sets (every branch: each rate family, each
 background, a control); the rest run with ``python -m pytest -m slow`` (CI runs both), so nothing
@@ -7,9 +7,11 @@ is left unchecked and the default run stays within its CPU budget (issue 8: unde
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import pytest
 
-__all__ = ["slow_except"]
+__all__ = ["shared_voice_take", "slow_except"]
 
 
 def slow_except(argvalues, keep, *, ids=None, one_name=False):
@@ -26,3 +28,18 @@ def slow_except(argvalues, keep, *, ids=None, one_name=False):
         name = ids(value) if callable(ids) else (ids[index] if ids is not None else None)
         params.append(pytest.param(*values, id=name, marks=() if index in keep else pytest.mark.slow))
     return params
+
+
+@lru_cache(maxsize=None)
+def shared_voice_take(fs, seconds, **options):
+    """``emulate.voice.synth.voice_like_take(fs, seconds, **options)``, made once a session, read-only.
+
+    The same arguments (seed included) give the same samples, so one take serves every test
+    that asks for it; it is read-only so that no test can change another's (a test that needs
+    to change it works on a copy or on a new array, e.g. ``take * gain``).
+    """
+    from emulate.voice.synth import voice_like_take
+
+    take = voice_like_take(fs, seconds, **options)
+    take.setflags(write=False)
+    return take

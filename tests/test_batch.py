@@ -12,7 +12,6 @@ import math
 import os
 import shutil
 import time
-from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -22,27 +21,19 @@ from click.testing import CliRunner
 
 from emulate.cli import main
 from emulate.errors import BadValueError, OutputRefusedError, PresetError
-from emulate.voice import synth
 from emulate.work import batch
 from emulate.work.plan import BatchPlan, find_takes, read_plan
 from emulate.work.presets import Preset, PresetStore
+
+from helpers_lean import shared_voice_take
 
 FS = 16000
 PARTS = dict(zip(("r1", "r2", "r3", "c1", "c2", "c3"), ("2k7", "2k7", "1k3", "10n", "10n", "20n")))
 
 
-@lru_cache(maxsize=None)
-def _voice(seconds: float, seed: int) -> np.ndarray:
-    """One invented take per length and seed, made once a session (the same seed gives the same
-    samples, so a fresh one would be equal) and read-only, so no test can change another's."""
-    x = synth.voice_like_take(FS, seconds, pitch_hz=130.0, sibilance_hz=5000.0, seed=seed)
-    x.setflags(write=False)
-    return x
-
-
 def write_take(path: Path, seconds: float = 1.0, seed: int = 1, channels: int = 1) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
-    x = _voice(seconds, seed)
+    x = shared_voice_take(FS, seconds, pitch_hz=130.0, sibilance_hz=5000.0, seed=seed)
     sf.write(path, np.column_stack([x] * channels) if channels > 1 else x, FS, subtype="PCM_16")
     return path
 

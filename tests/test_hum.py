@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 import hum_grid as grid
-from helpers_lean import slow_except
+from helpers_lean import shared_voice_take, slow_except
 from emulate.errors import BadValueError
 from emulate.voice.hum import combine_hum, find_hum
 from emulate.voice.synth import voice_like_take
@@ -26,17 +26,8 @@ def _subset():
     return [cases[i] for i in (0, 23, 40, 63)]  # index = 16 frequency + 4 level + 2 harmonics + rate
 
 
-@functools.lru_cache(maxsize=None)
-def _voice(fs, seconds, seed):
-    """The voice under the hum, made once a session per rate, length and seed (the same seed gives
-    the same samples) and read-only; each test adds its own hum to a new array."""
-    x = voice_like_take(fs, seconds, pitch_hz=130, sibilance_hz=6000, seed=seed)[:, 0]
-    x.setflags(write=False)
-    return x
-
-
 def _with_hum(fs, f_hz, level_dbfs, *, seconds=4.0, seed=1, harmonics=False, drift_hz=0.0):
-    x = _voice(fs, seconds, seed)
+    x = shared_voice_take(fs, seconds, pitch_hz=130, sibilance_hz=6000, seed=seed)[:, 0]  # read-only
     t = np.arange(x.size) / fs
     f = f_hz + drift_hz * (t / t[-1] - 0.5)
     phase = 2 * np.pi * np.cumsum(f) / fs

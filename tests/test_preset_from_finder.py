@@ -7,33 +7,24 @@ frequency, so the saved notch must land near it; the circuit must be the one ``p
 
 from __future__ import annotations
 
-from functools import lru_cache
-
 import numpy as np
 import pytest
 import soundfile as sf
 from click.testing import CliRunner
 
 from emulate.cli import main
-from emulate.voice import synth
 from emulate.work.presets import PresetStore
 
+from helpers_lean import shared_voice_take
+
 FS = 48000
-
-
-@lru_cache(maxsize=None)
-def _voice(seed):
-    """One invented take per seed, made once a session (the same seed gives the same samples), read-only."""
-    x = synth.voice_like_take(FS, 3.0, pitch_hz=120.0, sibilance_hz=6000.0, seed=seed)
-    x.setflags(write=False)
-    return x
 
 
 @pytest.fixture
 def takes(tmp_path):
     paths = []
     for seed in (1, 2):
-        x = _voice(seed)
+        x = shared_voice_take(FS, 3.0, pitch_hz=120.0, sibilance_hz=6000.0, seed=seed)
         sf.write(tmp_path / f"t{seed}.wav", x, FS, subtype="PCM_16")
         paths.append(str(tmp_path / f"t{seed}.wav"))
     sf.write(tmp_path / "silent.wav", np.zeros(FS), FS, subtype="PCM_16")

@@ -11,7 +11,6 @@ from __future__ import annotations
 import csv
 import io
 import math
-from functools import lru_cache
 
 import numpy as np
 import pyloudnorm
@@ -19,24 +18,17 @@ import pytest
 
 from emulate.audio import stream as audio
 from emulate.errors import BadValueError
-from emulate.voice import synth
 from emulate.work import reels
+
+from helpers_lean import shared_voice_take
 
 FS = 48000
 
 
 def speech(seconds=2.0, scale=1.0, seed=1, channels=1):
     """An invented voice-like excerpt, ``(frames, channels)`` (a new array: the scaled shared take)."""
-    return scale * _take(seconds, seed, channels)
-
-
-@lru_cache(maxsize=None)
-def _take(seconds, seed, channels):
-    # made once a session per length, seed and channel count (the same seed gives the same samples)
-    # and read-only, so no test changes another's
-    x = synth.voice_like_take(FS, seconds, pitch_hz=140.0, sibilance_hz=6000.0, seed=seed, channels=channels)
-    x.setflags(write=False)
-    return x
+    return scale * shared_voice_take(FS, seconds, pitch_hz=140.0, sibilance_hz=6000.0, seed=seed,
+                                     channels=channels)
 
 
 def bs1770(x):
