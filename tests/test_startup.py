@@ -64,10 +64,12 @@ class TestImportsPerCommand:
         for heavy in ("numba", "scipy", "matplotlib"):
             assert not under(modules, heavy), heavy
 
-    def test_response_with_rate_designs_without_numba(self, tmp_path):
-        # the digital design and its fidelity are numpy only; numba loads with the first block
+    def test_response_with_rate_designs_without_numba_or_scipy(self, tmp_path):
+        # the digital design and its fidelity are numpy only; numba loads with the first block;
+        # the circuit's zeros and poles come from numpy (analog/pencil.py), not scipy.linalg
         modules = loaded_modules(["response", *PARTS, "--rate", "48000"], tmp_path)
-        assert not under(modules, "numba") and not under(modules, "matplotlib")
+        for heavy in ("numba", "scipy", "matplotlib"):
+            assert not under(modules, heavy), heavy
 
     def test_tolerance_without_plot_loads_no_plotting(self, tmp_path):
         modules = loaded_modules(["tolerance", *PARTS, "--draws", "200"], tmp_path)

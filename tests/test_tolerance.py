@@ -1,5 +1,6 @@
 """Tests for emulate.analog.tolerance: draws, the rational form, Monte Carlo, corners, builds, trim."""
 
+import dataclasses
 import math
 
 import numpy as np
@@ -108,6 +109,48 @@ class TestRational:
         exact = net.response(f)
         assert np.allclose(net.rational(1591.5).response(f), exact, rtol=1e-9, atol=1e-12)
 
+    @pytest.mark.parametrize("options", [{}, {"bootstrap": 0.95, "source_ohms": 600.0}, {"mix": 0.5}])
+    def test_evaluation_equals_a_complex_polynomial_evaluation(self, options):
+        # reference: numpy.polynomial.polynomial.polyval in complex arithmetic at sigma = j f / f_ref
+        # (what the earlier complex Horner loop computed); the real even/odd evaluation must agree to
+        # round-off, 1e-12 relative to the sum of the terms' sizes (the bound of either evaluation)
+        rational = tol.builds(NOMINAL.replace(**options), tol.deviations(ONE_PERCENT, 3, range(40))).rational(1591.5)
+        f = np.geomspace(1.0, 1e6, 301)
+        sigma = 1j * f / 1591.5
+        num = np.polynomial.polynomial.polyval(sigma, rational.num.T)
+        den = np.polynomial.polynomial.polyval(sigma, rational.den.T)
+        size = np.polynomial.polynomial.polyval(np.abs(sigma), np.abs(rational.num).T) / np.abs(den)
+        assert np.all(np.abs(rational.response(f) - num / den) <= 1e-12 * size)
+        assert np.all(np.abs(rational.magnitude(f) - np.abs(num / den)) <= 1e-12 * size)
+        per_build = f[None, :150] * np.linspace(0.9, 1.1, 40)[:, None]  # each build its own frequencies
+        sigma = 1j * per_build / 1591.5
+        reference = (np.polynomial.polynomial.polyval(sigma, rational.num.T[:, :, None], tensor=False)
+                     / np.polynomial.polynomial.polyval(sigma, rational.den.T[:, :, None], tensor=False))
+        assert np.allclose(rational.magnitude(per_build), np.abs(reference), rtol=1e-12, atol=1e-14)
+
+
+class TestEnvelope:
+    def test_equals_percentiles_of_every_build_at_every_point(self, monkeypatch):
+        # reference: np.percentile over the nodal solve of each build (exact, no polynomial), floored
+        # at the depth cap like the envelope; 1e-9 relative in |H| (the rational form's accuracy)
+        run = tol.monte_carlo(NOMINAL, tol.Tolerances(0.01, 0.05), draws=300, seed=4)
+        f = np.geomspace(200.0, 12000.0, 97)
+        exact = np.abs(tol.builds(NOMINAL, run.deviation[:250]).response(f))
+        level = 20 * np.log10(np.maximum(exact, 10 ** (-tol.DEPTH_CAP_DB / 20)))
+        expected = np.percentile(level, tol.PERCENTILES, axis=0)
+        monkeypatch.setattr(tol, "ENVELOPE_BLOCK_VALUES", 1000)  # several blocks of frequencies
+        found = run.envelope(f, max_builds=250)
+        assert np.allclose([found[f"p{p:g}"] for p in tol.PERCENTILES], expected, rtol=0, atol=1e-7)
+
+    def test_kept_polynomials_equal_fresh_ones(self):
+        # the first chunk's N(s)/D(s) kept by monte_carlo, against the builds formed again
+        run = tol.monte_carlo(NOMINAL, ONE_PERCENT, draws=120, seed=8)
+        f = np.geomspace(100.0, 25000.0, 64)
+        kept = run.envelope(f, max_builds=100)
+        fresh = dataclasses.replace(run, first_rational=None).envelope(f, max_builds=100)
+        assert all(np.allclose(kept[k], fresh[k], rtol=0, atol=1e-12) for k in kept)
+        assert run.first_rational.num.shape[0] == 120  # all the builds, never more than the first chunk
+
 
 class TestMeasureBuilds:
     def test_matches_generic_measurement(self):
@@ -210,6 +253,14 @@ class TestBuildAt:
         assert np.array_equal(signs, mt225_run.corners.signs[mt225_run.corners.worst_index])
         typical = tol.build_at(NOMINAL, ONE_PERCENT, "typical", seed=2024)
         assert typical == mt225_run.draw(mt225_run.typical_index)
+
+    def test_typical_tie_goes_to_the_lower_draw_number(self):
+        # an even count: the two middle depths lie equally far from their median (here 2.5 - 1e-9);
+        # a difference of 2e-9 dB in their distances is round-off, so the lower number wins
+        run = tol.monte_carlo(NOMINAL, ONE_PERCENT, draws=4, seed=1)
+        run = dataclasses.replace(run, depth_db=np.array([0.0, 3.0, 2.0 - 2e-9, 10.0]),
+                                  oscillation_hz=np.full(4, np.nan), in_range=np.ones(4, bool))
+        assert run.typical_index == 1
 
     @pytest.mark.parametrize("which", ["best", "-2", "3.5"])
     def test_refuses_unknown(self, which):

@@ -18,10 +18,11 @@ The pipeline, top to bottom:
                (:class:`emulate.analog.circuit.Rational`, ``TwinT.rational``): evaluating a
                cubic is ~100x cheaper than solving the nodal equations at each
                frequency.
-4. measure     :func:`emulate.analog.response.measure_batch` on that rational form, in a
-               narrow band around the nominal notch (the notch of a build moves by
-               no more than a few times the tolerances) with a coarse grid and the
-               usual golden-section refinement.  Depths below the passband are
+4. measure     :func:`emulate.analog.response.notch_depth_batch` on that rational
+               form's ``|H|`` (notch, depth, in range; no -3 dB edges), in a narrow
+               band around the nominal notch (the notch of a build moves by no more
+               than a few times the tolerances) with a coarse grid and the usual
+               golden-section refinement.  Depths below the passband are
                capped at ``DEPTH_CAP_DB`` (deeper is an exact null in floating point).
    stability   every build's poles (the roots of its D(s),
                :func:`emulate.analog.stability.batch_stability`): a build with a pole
@@ -55,12 +56,12 @@ from emulate.analog import parts
 from emulate.errors import BadValueError
 from emulate.analog.networks import PART_NAMES, TwinT
 from emulate.analog.stability import batch_stability
-from emulate.analog.response import EXACT_NULL_DB, measure_batch
+from emulate.analog.response import EXACT_NULL_DB, notch_depth_batch
 from emulate.validate import check_range, check_seed
 
 __all__ = ["Tolerances", "ToleranceResult", "Corners", "PartSensitivity", "BatchMetrics", "monte_carlo",
            "worst_corners", "build_at", "builds", "deviations", "unit_draws", "divider_k", "varied_parts",
-           "measure_builds", "search_band_hz", "check_seed", "rank_correlation", "TOL_PARTS", "DISTRIBUTIONS",
+           "measure_builds", "measure_rational", "search_band_hz", "check_seed", "rank_correlation", "TOL_PARTS", "DISTRIBUTIONS",
            "CHUNK_DRAWS"]
 
 DISTRIBUTIONS = ("uniform", "normal")
@@ -72,7 +73,10 @@ NORMAL_SIGMAS = 3.0  # the tolerance is 3 sigma for "normal"
 _NORMAL_CUT = 5.9  # sigmas: keeps 1 - 0.5 * 5.9 / 3 > 0 at the 50 % tolerance limit
 _MAX_DRAWS = 1_000_000
 CHUNK_DRAWS = 2048  # draws measured at once: bounds the nodal and search arrays (about 30 MB)
+ENVELOPE_BUILDS = 2000  # builds drawn in the envelope picture (the first ones; kept from the first chunk)
+ENVELOPE_BLOCK_VALUES = 2**17  # builds x frequencies evaluated at once (1 MB an array)
 _SEARCH_POINTS = 48
+_TIE_DB = 1e-6  # depths this close to equal are a tie (they are measured to about 1e-8 dB)
 _SEARCH_SPAN = 4.0  # the band is nominal notch x exp(+-(SPAN x (r_tol + c_tol) + 2 %))
 
 
@@ -321,13 +325,20 @@ def search_band_hz(notch_hz: float, tolerances: Tolerances) -> tuple[float, floa
 
 def measure_builds(network: TwinT, band_hz, f_ref_hz: float) -> BatchMetrics:
     """Notch and depth of each build of a batch, searched within ``band_hz`` (Hz)."""
-    rational = network.rational(f_ref_hz)
-    metrics = measure_batch(rational.response, search_hz=band_hz, points=_SEARCH_POINTS)
-    notch = np.array([m.notch_hz for m in metrics])
-    depth = np.array([m.depth_below_passband_db for m in metrics])
+    return measure_rational(network.rational(f_ref_hz), band_hz)
+
+
+def measure_rational(rational, band_hz) -> BatchMetrics:
+    """:func:`measure_builds` on a batch's N(s)/D(s) (:class:`emulate.analog.circuit.Rational`).
+
+    Only what the runs report: the notch, its depth below the passband and
+    whether it lies inside the band (:func:`emulate.analog.response.notch_depth_batch`;
+    no -3 dB edges), and which builds oscillate.
+    """
+    notch, depth, in_range = notch_depth_batch(rational.magnitude, search_hz=band_hz, points=_SEARCH_POINTS)
     unstable, oscillation_hz = batch_stability(rational)
     depth = np.where(unstable, np.nan, np.minimum(depth, DEPTH_CAP_DB))
-    return BatchMetrics(notch, depth, oscillation_hz, np.array([m.in_range for m in metrics]))
+    return BatchMetrics(notch, depth, oscillation_hz, in_range)
 
 
 def _nominal_notch_hz(nominal: TwinT) -> float:
@@ -409,6 +420,9 @@ class ToleranceResult:
         passband, dB (positive, capped at ``DEPTH_CAP_DB``).
     nominal_notch_hz, nominal_depth_db : the nominal network's.
     corners : the worst-case corners.
+    oscillation_hz, in_range : per draw, as :class:`BatchMetrics`.
+    first_rational : the first chunk's N(s)/D(s) (:class:`emulate.analog.circuit.Rational`,
+        at most ``CHUNK_DRAWS`` builds), kept for :meth:`envelope`.
     """
 
     nominal: TwinT
@@ -423,6 +437,7 @@ class ToleranceResult:
     corners: Corners = field(repr=False)
     oscillation_hz: np.ndarray = field(default=None, repr=False)
     in_range: np.ndarray = field(default=None, repr=False)
+    first_rational: object = field(default=None, repr=False, compare=False)
 
     def __post_init__(self):
         _fill_unmeasured_defaults(self)
@@ -448,11 +463,17 @@ class ToleranceResult:
 
     @property
     def typical_index(self) -> int:
-        """The measured draw whose depth is nearest their median depth (the lowest such number)."""
+        """The measured draw whose depth is nearest their median depth (the lowest such number).
+
+        With an even count the two middle draws lie equally far from the median;
+        distances within ``_TIE_DB`` of the nearest count as equal, so round-off in
+        the last digits of a depth never decides which draw is named.
+        """
         depth = np.where(self.measured, self.depth_db, np.nan)
         if not np.any(self.measured):
             return 0
-        return int(np.nanargmin(np.abs(depth - np.nanmedian(depth))))
+        distance = np.abs(depth - np.nanmedian(depth))
+        return int(np.flatnonzero(distance <= np.nanmin(distance) + _TIE_DB)[0])
 
     def percentiles(self, values: np.ndarray, at=PERCENTILES, where=None) -> dict[str, float]:
         """Percentiles over the measured draws (or the draws ``where`` is True; NaN if none)."""
@@ -476,12 +497,31 @@ class ToleranceResult:
         """Build ``which`` as a network with one value per part."""
         return _single(builds(self.nominal, self.deviation[which]))
 
-    def envelope(self, f_hz, at=PERCENTILES, max_builds: int = 2000) -> dict[str, np.ndarray]:
-        """Percentiles of |H| in dB over the builds (the first ``max_builds``) at ``f_hz``."""
-        batch = builds(self.nominal, self.deviation[:max_builds])
-        magnitude = np.abs(batch.rational(self.nominal_notch_hz).response(f_hz))
-        level = 20 * np.log10(np.maximum(magnitude, 10 ** (-DEPTH_CAP_DB / 20)))
-        return {f"p{p:g}": np.percentile(level, p, axis=0) for p in at}
+    def envelope(self, f_hz, at=PERCENTILES, max_builds: int = ENVELOPE_BUILDS) -> dict[str, np.ndarray]:
+        """Percentiles of |H| in dB over the builds (the first ``max_builds``) at ``f_hz``.
+
+        Every build's N(s)/D(s) is evaluated at every frequency at once, a block of
+        ``ENVELOPE_BLOCK_VALUES`` (builds x frequencies) at a time, so memory stays
+        bounded for any count of points. The first chunk's polynomials, kept by
+        :func:`monte_carlo`, are reused: nothing is measured twice.
+        """
+        rational = self._rational_of_first(max_builds)
+        f_hz = np.asarray(f_hz, float)
+        found = np.empty((len(at), len(f_hz)))
+        step = max(1, ENVELOPE_BLOCK_VALUES // len(rational.num))
+        floor = 10 ** (-DEPTH_CAP_DB / 20)
+        for start in range(0, len(f_hz), step):
+            block = slice(start, start + step)
+            level = 20 * np.log10(np.maximum(rational.magnitude(f_hz[block]), floor))
+            found[:, block] = np.percentile(level, at, axis=0)
+        return {f"p{p:g}": row for p, row in zip(at, found)}
+
+    def _rational_of_first(self, count: int):
+        """N(s)/D(s) of the first ``count`` builds: the kept ones when they cover them."""
+        count = min(int(count), self.draws)
+        if self.first_rational is not None and len(self.first_rational.num) >= count:
+            return self.first_rational.head(count)
+        return builds(self.nominal, self.deviation[:count]).rational(self.nominal_notch_hz)
 
     def as_dict(self) -> dict:
         ranking = self.sensitivity()
@@ -552,10 +592,14 @@ def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_
     deviation = np.empty((draws, columns))
     notch, depth, oscillation = np.empty(draws), np.empty(draws), np.empty(draws)
     in_range = np.empty(draws, bool)
+    first = None
     for start in range(0, draws, CHUNK_DRAWS):
         chunk = np.arange(start, min(start + CHUNK_DRAWS, draws))
         deviation[chunk] = deviations(tolerances, seed, chunk)[:, :columns]
-        measured = measure_builds(builds(nominal, deviation[chunk]), band, f_nominal)
+        rational = builds(nominal, deviation[chunk]).rational(f_nominal)
+        if first is None:
+            first = rational.head(ENVELOPE_BUILDS)
+        measured = measure_rational(rational, band)
         notch[chunk], depth[chunk] = measured.notch_hz, measured.depth_db
         oscillation[chunk], in_range[chunk] = measured.oscillation_hz, measured.in_range
         if progress is not None:
@@ -563,7 +607,7 @@ def monte_carlo(nominal: TwinT, tolerances: Tolerances, *, draws: int = DEFAULT_
     corners = worst_corners(nominal, tolerances, f_nominal)
     nominal_depth = measure_builds(nominal, band, f_nominal).depth_db[0]
     return ToleranceResult(nominal, tolerances, seed, float(spec_db), deviation, notch, depth,
-                           f_nominal, float(nominal_depth), corners, oscillation, in_range)
+                           f_nominal, float(nominal_depth), corners, oscillation, in_range, first)
 
 
 def worst_corners(nominal: TwinT, tolerances: Tolerances, notch_hz: float | None = None) -> Corners:

@@ -306,21 +306,26 @@ def run_sweep(takes, plan: SweepPlan, out_dir, *, workers: int | None = None, pr
                 futures[take, s.label] = pool.submit(_render_job, take, s, network, notch_hz, dry.levels,
                                                      dry.excerpt, render_path(out_dir, take, s.label))
         networks = {label: network for label, (network, _) in built.items()}
-        results, excerpts = [], {}
-        for take in takes:  # results in take x setting order, whichever finished first
+        results, excerpts, made = [], {}, {}
+
+        def reel(take):  # from the excerpts the jobs returned (no render is read again)
+            made[str(take)] = _reel(out_dir, take, dries[take], [excerpts[take, s.label] for s in plan.heard],
+                                    plan, match)
+
+        for i, take in enumerate(takes):  # results in take x setting order, whichever finished first
             for s in settings:
                 result, excerpts[take, s.label] = futures[take, s.label].result()
                 results.append(result)
                 if progress is not None:
                     progress(frames[take])
+            if i < len(takes) - 1:
+                reel(take)  # while the workers render the later takes
         rows = summarise(results, plan)
         pick = pick_setting(rows)
         chosen = networks[pick["setting"]]
         removing = {str(t): pool.submit(_render_removed, t, chosen, removed_path(out_dir, t, pick["setting"]))
                     for t in (takes if removed else [])}
-        # reels from the excerpts the jobs returned (no render is read again), while the pool removes
-        made = {str(t): _reel(out_dir, t, dries[t], [excerpts[t, s.label] for s in plan.heard], plan, match)
-                for t in takes}
+        reel(takes[-1])  # while the pool removes
         removed_paths = {take: str(future.result()) for take, future in removing.items()}
     return SweepResult(plan, results, rows, pick, made, removed_paths)
 
