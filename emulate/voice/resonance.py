@@ -26,7 +26,9 @@ included. So the finder reads the resonance where the voice is absent:
    half as high as the fit in both halves of the quiet material (persistent; the height
    each half shows is the least-squares scale of the fitted response, as the quiet
    spectrum sees it, over the fit's whole span, not a reading at three points);
-6. the strongest accepted peak is reported with a suggested notch: at its frequency, its
+6. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
+   fit, and least squares can stop in a local minimum) the one with the least misfit is
+   kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
@@ -366,8 +368,8 @@ def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
-    """Accepted peaks of the quiet spectrum (see the module's stages 3-5)."""
+def _peaks(grid_hz, quiet: _Quiet) -> list[tuple[float, ResonancePeak]]:
+    """Accepted peaks of the quiet spectrum (see the module's stages 3-5) with their RMS misfits, dB."""
     accepted = []
     for _, i in _candidates(quiet):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
@@ -378,7 +380,7 @@ def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
             continue
         share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q, quiet.kernel)
         if share >= PERSISTENT_SHARE:
-            accepted.append(ResonancePeak(f0, q, gain, share))
+            accepted.append((misfit, ResonancePeak(f0, q, gain, share)))
     return accepted
 
 
@@ -424,7 +426,7 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     accepted = []
     spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
     mean = _excess(spectrum.level_db)
-    for peak in _peaks(grid_hz, spectrum):
+    for _, peak in sorted(_peaks(grid_hz, spectrum), key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
     if not accepted:
