@@ -10,20 +10,27 @@ in dB). Negative controls are the same takes without the filter.
 
 Judging (the issue's targets): a case is found when the report's frequency lies within
 2 % of the centre and its Q within 30 % of the filter's; a control passes when nothing is
-reported.
+reported. "The filter's" means the digital biquad actually applied, measured on its own
+response with ``scipy.signal.freqz`` (the outside reference; :func:`applied_peak`): the
+bilinear transform keeps the peak at the nominal centre but narrows the band near Nyquist
+(at 8 kHz the applied Q is 1.21x the nominal one at 48 kHz, 1.26x at 44.1 kHz), so the
+nominal Q would not be a fair reference there. The Q is measured as the finder defines it:
+the centre over the bandwidth between the points at half the peak's gain in dB (the
+cookbook's peakingEQ bandwidth, "between midpoint (dBgain/2) gain frequencies").
 """
 
 from __future__ import annotations
 
+import functools
 import itertools
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.signal import lfilter
+from scipy.signal import freqz, lfilter
 
 from emulate.voice.synth import voice_like_take
 
-__all__ = ["Case", "controls", "grid_cases", "judge", "make_case", "peaking_ba"]
+__all__ = ["Case", "applied_peak", "controls", "grid_cases", "judge", "make_case", "peaking_ba"]
 
 CENTRES_HZ = (100.0, 250.0, 630.0, 1600.0, 4000.0, 8000.0)
 GAINS_DB = (6.0, 10.0, 15.0)
@@ -78,6 +85,33 @@ def peaking_ba(f0_hz: float, gain_db: float, q: float, fs: float) -> tuple[np.nd
     return b / a[0], a / a[0]
 
 
+@functools.lru_cache(maxsize=None)
+def applied_peak(f0_hz: float, gain_db: float, q: float, fs: float) -> tuple[float, float]:
+    """(centre Hz, Q) of :func:`peaking_ba`'s biquad, measured on its response by ``scipy.signal.freqz``.
+
+    The centre is where the response peaks; the Q is the centre over the bandwidth between
+    the two points where the response (dB) falls to half the peak's gain (crossings
+    interpolated linearly on a grid of 1/20000 octave, +-2 octaves around the nominal centre,
+    at most 0.4999 fs).
+
+    Example
+    -------
+    >>> f, q = applied_peak(1000.0, 10.0, 5.0, 48000)
+    >>> round(f), round(q, 1)
+    (1000, 5.0)
+    """
+    f = np.geomspace(f0_hz / 4.0, min(4.0 * f0_hz, 0.4999 * fs), 80001)
+    _, h = freqz(*peaking_ba(f0_hz, gain_db, q, fs), worN=f, fs=fs)
+    level = 20.0 * np.log10(np.abs(h))
+    top = int(np.argmax(level))
+    above = np.flatnonzero(level >= level[top] / 2.0)
+    lo, hi = above[0], above[-1]  # the response is unimodal in dB: one run above half gain
+    half = level[top] / 2.0
+    f1 = np.interp(half, level[lo - 1 : lo + 1], f[lo - 1 : lo + 1])
+    f2 = np.interp(-half, -level[hi : hi + 2], f[hi : hi + 2])
+    return float(f[top]), float(f[top] / (f2 - f1))
+
+
 def make_case(case: Case) -> np.ndarray:
     """The take (mono), through the case's resonance if it has one, peak at most -1 dBFS."""
     x = voice_like_take(case.fs, SECONDS, pitch_hz=case.pitch_hz, sibilance_hz=6000.0, seed=case.seed)[:, 0]
@@ -87,11 +121,16 @@ def make_case(case: Case) -> np.ndarray:
 
 
 def judge(report, case: Case) -> tuple[bool, float, float]:
-    """(passes, relative frequency error, relative Q error); a control passes when nothing is found."""
+    """(passes, relative frequency error, relative Q error); a control passes when nothing is found.
+
+    The errors are against the applied filter's centre and Q (:func:`applied_peak`), not the
+    nominal ones.
+    """
     if case.centre_hz is None:
         return not report.found, float("nan"), float("nan")
     if not report.found:
         return False, float("nan"), float("nan")
-    f_err = report.peak.frequency_hz / case.centre_hz - 1.0
-    q_err = report.peak.q / case.q - 1.0
+    centre_hz, q = applied_peak(case.centre_hz, case.gain_db, case.q, case.fs)
+    f_err = report.peak.frequency_hz / centre_hz - 1.0
+    q_err = report.peak.q / q - 1.0
     return abs(f_err) <= FREQ_REL and abs(q_err) <= Q_REL, f_err, q_err

@@ -5,8 +5,9 @@ prototype, whose Q and gain the finder reports); scipy.signal.freqz as the refer
 the biquad's response; the controlled grid of ``tests/resonance_grid.py`` (invented
 voice-like takes through a known peaking filter). The issue's targets: frequency within
 2 %, Q within 30 %, none reported on takes without one. Measured on the whole grid by
-``tests/benchmarks/bench_finders.py``; the default run checks cases the finder meets and
-every control at one rate; below 250 Hz the Q is not yet within 30 % (see the slow test).
+``tests/benchmarks/bench_finders.py``, against the centre and Q of the biquad actually applied
+(measured with scipy.signal.freqz, see TestAppliedPeak); the default run checks cases the finder meets and
+every control at one rate; below 250 Hz not every case is met yet (see the benchmark's misses).
 """
 
 import numpy as np
@@ -40,11 +41,34 @@ class TestPeakingDb:
         assert above[-1] - above[0] == pytest.approx(f0 / q, rel=0.01)
 
 
+class TestAppliedPeak:
+    # the grid's judge compares with the biquad actually applied (resonance_grid.applied_peak,
+    # measured with scipy.signal.freqz); checked here against a closed form: the cookbook's
+    # biquad is its analog prototype through the bilinear transform prewarped at w0, so the
+    # digital f maps to the prototype's normalised frequency tan(pi f / fs) / tan(pi f0 / fs)
+    # (Oppenheim & Schafer sec. 7.2); the prototype's half-gain points satisfy
+    # |1 - v^2| = v / Q (cookbook peakingEQ), i.e. v = (sqrt(1/Q^2 + 4) -+ 1/Q) / 2
+    @pytest.mark.parametrize("f0, q, fs", [(100.0, 2.0, 44100), (1600.0, 10.0, 48000), (8000.0, 2.0, 44100),
+                                           (8000.0, 20.0, 44100), (8000.0, 5.0, 48000)])
+    def test_bilinear_warped_q(self, f0, q, fs):
+        v = (np.sqrt(1 / q**2 + 4) + np.array([-1, 1]) / q) / 2
+        f1, f2 = fs / np.pi * np.arctan(v * np.tan(np.pi * f0 / fs))
+        centre, applied = grid.applied_peak(f0, 10.0, q, fs)
+        assert centre == pytest.approx(f0, rel=1e-4)  # bilinear prewarped at w0: the peak stays
+        assert applied == pytest.approx(f0 / (f2 - f1), rel=1e-3)
+
+    def test_warping_at_8_khz_is_not_small(self):
+        # the reason the judge measures: at 8 kHz and 44.1 kHz the applied Q is ~1.26x the nominal
+        assert grid.applied_peak(8000.0, 6.0, 10.0, 44100)[1] / 10.0 == pytest.approx(1.26, abs=0.02)
+
+
 class TestControlledGrid:
     # cases the finder meets on the grid's 8 s takes, picked from the benchmark's table (seeds
     # fixed): a regression guard, not the measure; the measure is the benchmark's whole table
     MET = [grid.Case(1600.0, 15.0, 20.0, 44100, 210.0, seed=3), grid.Case(4000.0, 10.0, 10.0, 48000, 210.0, seed=7),
-           pytest.param(grid.Case(1600.0, 15.0, 2.0, 44100, 210.0, seed=8), marks=pytest.mark.slow)]  # 2 s of CPU
+           pytest.param(grid.Case(1600.0, 15.0, 2.0, 44100, 210.0, seed=8), marks=pytest.mark.slow),  # 2 s of CPU
+           # met since the quiet moments must be quiet in every octave band (the ring after words)
+           grid.Case(100.0, 10.0, 10.0, 44100, 110.0, seed=24)]
 
     @pytest.mark.parametrize("case", MET, ids=lambda c: c.name)
     def test_frequency_and_q(self, case):
@@ -67,6 +91,15 @@ class TestControlledGrid:
         assert not find_resonance(grid.make_case(case), case.fs).found
 
     @pytest.mark.slow
+    def test_from_630_hz_nearly_every_case_of_the_benchmark(self):
+        # the benchmark's --stride 3 cases from 630 Hz up (64): 62 met when written (the issue
+        # asks for every one; the two misses are +6 dB peaks); the finder is deterministic, the
+        # margin of two covers other platforms' rounding in the fits
+        cases = [c for c in grid.grid_cases()[::3] if c.centre_hz >= 630]
+        met = sum(grid.judge(find_resonance(grid.make_case(c), c.fs), c)[0] for c in cases)
+        assert met >= len(cases) - 4
+
+    @pytest.mark.slow
     @pytest.mark.parametrize("case", [c for c in grid.grid_cases() if c.centre_hz >= 630][::7], ids=lambda c: c.name)
     def test_frequency_within_two_percent_from_630_hz(self, case):
         r = find_resonance(grid.make_case(case), case.fs)
@@ -86,6 +119,14 @@ class TestFindResonance:
         x = 0.05 * np.random.default_rng(2).standard_normal(6 * 48000)
         assert not find_resonance(x, 48000).found
 
+    def test_a_peak_in_one_half_only_is_not_persistent(self):
+        # a resonance colours the whole take: a peak in the first half of the quiet material
+        # and absent from the second is not one (the second half's least-squares height is ~0)
+        fs, rng = 48000, np.random.default_rng(3)
+        x = 0.05 * rng.standard_normal(8 * fs)
+        x[: 4 * fs] = signal.lfilter(*grid.peaking_ba(1000, 12, 8, fs), x[: 4 * fs])
+        assert not find_resonance(x, fs).found
+
     def test_short_take(self):
         r = find_resonance(np.zeros(48000), 48000)
         assert not r.found and r.reason.startswith("too short")
@@ -96,6 +137,25 @@ class TestFindResonance:
     def test_rejects_bad_input(self):
         with pytest.raises(BadValueError):
             find_resonance(np.array([np.nan] * 96000), 48000)
+
+
+class TestQuietMoments:
+    def test_a_band_ringing_above_its_own_floor_is_not_quiet(self):
+        # a 100 Hz tone 3 dB under white noise keeps the sum within 12 dB of its quietest tenth,
+        # but stands ~20 dB over the noise of its octave (60-120 Hz holds 60/24000 of white
+        # noise's power, Parseval): those 2 s are not quiet moments
+        from emulate.voice.resonance import _quiet_moments
+        from emulate.voice.takes import TakeSource
+
+        fs, rng = 48000, np.random.default_rng(4)
+        x = 1e-3 * rng.standard_normal(8 * fs)
+        x[2 * fs : 4 * fs] += 1e-3 * np.sin(2 * np.pi * np.arange(2 * fs) * 100 / fs)  # 3 dB under the noise
+        quiet, lengths = _quiet_moments(TakeSource.from_array(x, fs))
+        assert quiet.size == lengths.sum() and quiet.size > 2 * fs
+        # the quiet material holds no tone: its level at 100 Hz is white noise's (scipy.signal.welch;
+        # 0.1 s segments, ~100 averaged: +-1 dB scatter; the tone would stand ~17 dB out)
+        f, density = signal.welch(quiet.astype(np.float64), fs, nperseg=fs // 10)
+        assert 10 * np.log10(density[f == 100.0][0] / np.median(density)) < 3.0
 
 
 class TestSmearingKernel:

@@ -4,8 +4,12 @@ A voice's own harmonics and formants are peaks too, and they move; a resonance i
 and colours everything the microphone hears, the room's quiet noise between words
 included. So the finder reads the resonance where the voice is absent:
 
-1. quiet moments: 20 ms frames within 12 dB of the take's quietest tenth, each run less
-   one frame at each end (the edges of words), at most 60 s of them in all;
+1. quiet moments: 20 ms frames within 12 dB of the take's quietest tenth, in all and in
+   every octave band from 60 Hz (each band against its own floor, ``frames.band_floors``:
+   after a word a low resonance rings on for tens of ms, quiet in the sum but far above the
+   room's noise in its own band, and read as quiet it doubled a low peak's height and
+   broadened it), each run less one frame at each end (the edges of words), at most 60 s
+   of them in all;
 2. quiet spectrum on a 1/96-octave grid from 60 Hz to 0.45 fs (at most 20 kHz): 0.2 s
    Hann frames over the quiet moments joined end to end (at least 4 frames, else nothing is
    examined), also over each half of them;
@@ -18,10 +22,13 @@ included. So the finder reads the resonance where the voice is absent:
    blur a narrow low peak, and the fit undoes that rather than reading a low Q), plus a level and a tilt, by least squares
    on the spectrum (dB) within four of its widths: frequency, gain and Q;
 5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
-   fit that explains the peak (RMS misfit under a quarter of the gain), rising over its
-   flanks in both halves of the quiet material by at least half what the fit rises there
-   (persistent; the rise expected as the quiet spectrum sees it);
-6. the strongest accepted peak is reported with a suggested notch: at its frequency, its
+   fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
+   half as high as the fit in both halves of the quiet material (persistent; the height
+   each half shows is the least-squares scale of the fitted response, as the quiet
+   spectrum sees it, over the fit's whole span, not a reading at three points);
+6. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
+   fit, and least squares can stop in a local minimum) the one with the least misfit is
+   kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
@@ -43,7 +50,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from emulate.voice.frames import FrameGrid, iter_frame_power, iter_mono, runs
+from emulate.voice.frames import (BandSummer, FrameGrid, band_floors, iter_frame_power, iter_mono,
+                                  log_band_edges, runs)
 from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import label_takes, select_takes
@@ -57,9 +65,11 @@ FRAME_S = 0.2
 #: side, read from at most this many frames.
 KERNEL_REACH = 12.0
 KERNEL_FRAMES = 24
-#: Quiet moments: 20 ms frames within this of the take's quietest tenth, dB; at most this much, s.
+#: Quiet moments: 20 ms frames within this of the take's quietest tenth (the percentile), in
+#: all and in every octave band, dB; at most this much, s.
 GATE_FRAME_S = 0.02
 QUIET_WITHIN_DB = 12.0
+QUIET_PERCENTILE = 10.0
 QUIET_MAX_S = 60.0
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
@@ -78,7 +88,8 @@ MIN_GAIN_DB = 4.0
 MAX_GAIN_DB = 30.0
 MIN_Q = 1.5
 MAX_Q = 40.0
-#: ... standing at least half its gain out in both halves of the take ...
+#: ... standing at least this share of its fitted height in both halves of the take ...
+STANDING_SCALE = 0.5
 PERSISTENT_SHARE = 1.0
 #: ... and its largest RMS misfit as a share of its gain.
 MAX_MISFIT = 1.0 / 4.0
@@ -157,8 +168,12 @@ def peaking_db(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:
     return 20.0 * np.log10(np.abs(h))
 
 
+def _top_hz(fs: float) -> float:
+    return min(TOP_HZ, 0.45 * fs)
+
+
 def _grid_hz(fs: float) -> np.ndarray:
-    top = min(TOP_HZ, 0.45 * fs)
+    top = _top_hz(fs)
     return LOW_HZ * 2.0 ** (np.arange(int(GRID_PER_OCTAVE * math.log2(top / LOW_HZ)) + 1) / GRID_PER_OCTAVE)
 
 
@@ -200,11 +215,19 @@ def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
     tenth (frames of digital silence aside), less one frame at each end (word edges).
     Also the joined pieces' lengths (samples)."""
     grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
-    power = np.concatenate([p.sum(axis=1) for p in iter_frame_power(source, grid)] or [np.zeros(0)])
-    live = power[power > 0]
-    if live.size == 0:
+    bands = BandSummer(grid.f_hz, log_band_edges(LOW_HZ, _top_hz(source.fs), 1))
+    power, band_power = [np.zeros(0)], [np.zeros((0, bands.bins.size), np.float32)]
+    for chunk in iter_frame_power(source, grid):
+        power.append(chunk.sum(axis=1))
+        band_power.append(bands.sum(chunk).astype(np.float32))
+    power, band_power = np.concatenate(power), np.concatenate(band_power)
+    live = power > 0
+    if not live.any():
         return np.zeros(0, np.float32), np.zeros(0, int)
-    quiet = (power > 0) & (power <= np.percentile(live, 10.0) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
+    within = 10.0 ** (QUIET_WITHIN_DB / 10.0)
+    floors = band_floors(band_power[live], QUIET_PERCENTILE)
+    quiet = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * within)
+    quiet &= np.all(band_power <= floors * within, axis=1)
     spans, budget = [], round(QUIET_MAX_S * source.fs)
     for a, b in runs(quiet):
         if b - a > 2 and budget > 0:
@@ -320,14 +343,18 @@ def _fit(grid_hz, level, excess, i: int, kernel) -> tuple[float, float, float, f
 
 
 def _standing_share(grid_hz, halves, f0: float, gain: float, q: float, kernel) -> float:
-    """Share of the take's halves where the peak rises over its flanks (two half-gain widths
-    either side) by at least half what the fitted response rises there as the quiet spectrum
-    sees it (smeared by ``kernel``)."""
-    flanks = f0 * 2.0 ** (np.array([-2.0, 2.0]) / (2.0 * q))
-    seen = _smeared_db(np.array([f0, *flanks]), f0, gain, q, kernel)
-    expected = float(seen[0] - np.mean(seen[1:]))
-    rises = [float(np.interp(f0, grid_hz, h)) - float(np.mean(np.interp(flanks, grid_hz, h))) for h in halves]
-    return float(np.mean([rise >= expected / 2.0 for rise in rises]))
+    """Share of the take's halves where the peak stands at least half as high as the fit says.
+
+    In each half, the fitted response as the quiet spectrum sees it (smeared by ``kernel``)
+    is scaled to that half's spectrum by linear least squares over the fit's span (FIT_WIDTHS
+    half-gain widths either side; a level and a tilt free too): the scale is the height the
+    half shows, read from every point of the span rather than from three, so a single noisy
+    point neither makes nor breaks it."""
+    inside = (grid_hz >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (grid_hz <= f0 * 2.0 ** (FIT_WIDTHS / q))
+    f = grid_hz[inside]
+    columns = np.stack((_smeared_db(f, f0, gain, q, kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    scales = [np.linalg.lstsq(columns, h[inside], rcond=None)[0][0] for h in halves]
+    return float(np.mean([scale >= STANDING_SCALE for scale in scales]))
 
 
 def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
@@ -341,8 +368,8 @@ def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
-    """Accepted peaks of the quiet spectrum (see the module's stages 3-5)."""
+def _peaks(grid_hz, quiet: _Quiet) -> list[tuple[float, ResonancePeak]]:
+    """Accepted peaks of the quiet spectrum (see the module's stages 3-5) with their RMS misfits, dB."""
     accepted = []
     for _, i in _candidates(quiet):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
@@ -353,7 +380,7 @@ def _peaks(grid_hz, quiet: _Quiet) -> list[ResonancePeak]:
             continue
         share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q, quiet.kernel)
         if share >= PERSISTENT_SHARE:
-            accepted.append(ResonancePeak(f0, q, gain, share))
+            accepted.append((misfit, ResonancePeak(f0, q, gain, share)))
     return accepted
 
 
@@ -399,7 +426,7 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     accepted = []
     spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
     mean = _excess(spectrum.level_db)
-    for peak in _peaks(grid_hz, spectrum):
+    for _, peak in sorted(_peaks(grid_hz, spectrum), key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
     if not accepted:
