@@ -26,7 +26,7 @@ import numpy as np
 from emulate.dsp.state_layout import TALLY_BOTTOM, TALLY_CLIPPED, TALLY_NON_FINITE, TALLY_TOP
 from emulate.errors import EmulateError
 
-__all__ = ["Encoder", "PCM_BITS", "FLOAT_SUBTYPES", "DITHER_MAX_BITS", "container_bits"]
+__all__ = ["Encoder", "PCM_BITS", "FLOAT_SUBTYPES", "DITHER_MAX_BITS", "container_bits", "code_dtype"]
 
 PCM_BITS = {"PCM_S8": 8, "PCM_U8": 8, "PCM_16": 16, "PCM_24": 24, "PCM_32": 32}
 FLOAT_SUBTYPES = frozenset({"FLOAT", "DOUBLE"})
@@ -43,6 +43,17 @@ def container_bits(bits: int) -> int:
     32
     """
     return 16 if bits <= 16 else 32
+
+
+def code_dtype(bits: int) -> np.dtype:
+    """The numpy type that carries ``bits``-bit codes to and from libsndfile (int16 or int32).
+
+    Example
+    -------
+    >>> code_dtype(24)
+    dtype('int32')
+    """
+    return np.dtype(np.int16 if container_bits(bits) == 16 else np.int32)
 
 
 class Encoder:
@@ -94,7 +105,7 @@ class Encoder:
             self.lo, self.hi = -self.scale, self.scale - 1.0
             wide = container_bits(self.bits)
             self.align = float(2 ** (wide - self.bits))
-            self._dtype = np.int16 if wide == 16 else np.int32
+            self._dtype = code_dtype(self.bits)
             self._rng = np.array([seed], dtype=np.uint64)
             self._tally = np.array([-np.inf, np.inf, 0.0, 0.0])
 

@@ -63,7 +63,7 @@ import numpy as np
 import soundfile as sf
 
 from emulate.audio import pipeline
-from emulate.audio.encode import PCM_BITS, Encoder, container_bits
+from emulate.audio.encode import PCM_BITS, Encoder, code_dtype, container_bits
 from emulate.errors import AudioFileError, BadValueError, EmulateWarning, OutputRefusedError
 from emulate.files import atomic_path
 from emulate.validate import check_count
@@ -416,8 +416,7 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
         codes_to_float = kernels().codes_to_float
     else:
         codes_to_float = _codes_to_float_numpy
-    wide = container_bits(PCM_BITS[snd.subtype])
-    dtype, scale = ("int16" if wide == 16 else "int32"), 2.0 ** -(wide - 1)
+    dtype, scale = _codes_of(snd.subtype)
     done = 0
     while True:
         codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
@@ -427,6 +426,13 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
         codes_to_float(codes, scale, block)
         done += len(block)
         yield block
+
+
+def _codes_of(subtype: str) -> tuple[np.dtype, float]:
+    """How libsndfile hands an integer PCM subtype's codes over: their numpy type (left-aligned
+    int16/int32) and what one code is worth (``2**-(container bits - 1)``, full scale 1.0)."""
+    bits = PCM_BITS[subtype]
+    return code_dtype(bits), 2.0 ** -(container_bits(bits) - 1)
 
 
 def _codes_to_float_numpy(codes: np.ndarray, scale: float, out: np.ndarray) -> None:
@@ -617,8 +623,7 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
     per block. The latency is compensated as in :func:`_processed` (its first output
     frames dropped, as many zero frames fed after the input). Returns the frames written.
     """
-    in_dtype = np.int16 if container_bits(PCM_BITS[src.subtype]) == 16 else np.int32
-    in_scale = 2.0 ** -(container_bits(PCM_BITS[src.subtype]) - 1)
+    in_dtype, in_scale = _codes_of(src.subtype)
     channels = src.channels
     inputs = pipeline.BlockPool((block_frames, channels), in_dtype)
     outputs = pipeline.BlockPool((block_frames, channels), encoder.code_dtype)
