@@ -97,6 +97,19 @@ MAX_MISFIT = 1.0 / 4.0
 FIT_WIDTHS = 4.0
 #: Candidates fitted at most (strongest first).
 MAX_CANDIDATES = 24
+#: The low range: under LOW_RANGE_HZ a peak is also read on long frames (LONG_FRAME_S, hop a
+#: quarter, at most LONG_MAX_FRAMES spread over the take; their spectrum kept up to LONG_SPAN_HZ),
+#: each grid point averaged over the frames where the power within +-LONG_GATE_OCTAVES lies
+#: within LONG_WITHIN_DB of the quiet moments' (the room's noise there, no voice).
+LOW_RANGE_HZ = 400.0
+LONG_FRAME_S = 1.0
+LONG_MAX_FRAMES = 480
+LONG_SPAN_HZ = 1600.0
+LONG_GATE_OCTAVES = 1.0 / 3.0
+LONG_WITHIN_DB = 6.0
+#: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
+#: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
+LONG_MIN_WIDTH = 2.5
 
 
 @dataclass(frozen=True)
@@ -206,6 +219,7 @@ class _Quiet:
     level_db: np.ndarray
     halves_db: tuple[np.ndarray, ...]
     frames: int
+    seconds: np.ndarray | float = 0.0
 
 
 def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
@@ -263,7 +277,52 @@ def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: 
         return _Quiet(frame_s, _smearing_kernel(grid, lengths), np.zeros(grid_hz.size), (), 0)
     rows = np.concatenate(rows)
     halves = tuple(_level_db(chunk.mean(axis=0)) for chunk in np.array_split(rows, 2))
-    return _Quiet(frame_s, _smearing_kernel(grid, lengths), _level_db(rows.mean(axis=0)), halves, rows.shape[0])
+    return _Quiet(frame_s, _smearing_kernel(grid, lengths), _level_db(rows.mean(axis=0)), halves, rows.shape[0],
+                  quiet.size / fs)
+
+
+def _density_db(level_db: np.ndarray, grid: FrameGrid) -> np.ndarray:
+    """A grid spectrum's mean power per bin (dB) as power per hertz."""
+    return level_db - 10.0 * math.log10(grid.fs / grid.nfft)
+
+
+def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Quiet:
+    """The low range on long frames, each grid point over the frames that hold only the room's
+    noise there (see LOW_RANGE_HZ); ``seconds`` per grid point is the time averaged there."""
+    from scipy.ndimage import uniform_filter1d
+
+    grid = FrameGrid.at(source.fs, LONG_FRAME_S, LONG_FRAME_S / 4.0, padded=True)
+    kernel = _smearing_kernel(grid, np.array([grid.size]))
+    span = grid_hz[grid_hz <= LONG_SPAN_HZ]
+    empty = _Quiet(LONG_FRAME_S, kernel, np.zeros(span.size), (), 0, np.zeros(span.size))
+    if quiet.frames < MIN_FRAMES:
+        return empty
+    total = 1 + (round(source.seconds * source.fs) - grid.size) // grid.hop
+    step = max(1, math.ceil(total / LONG_MAX_FRAMES))
+    rows, index = [], 0
+    for power in iter_frame_power(source, grid):
+        keep = (index + np.arange(power.shape[0])) % step == 0
+        index += power.shape[0]
+        if keep.any():
+            rows.append(_on_grid(grid.f_hz, power[keep], span).astype(np.float32))
+    if sum(r.shape[0] for r in rows) < MIN_FRAMES:
+        return empty
+    rows = np.concatenate(rows).astype(np.float64)
+    short = FrameGrid.at(source.fs, quiet.frame_s, quiet.frame_s / 4.0, padded=True)
+    noise = 10.0 ** (_density_db(quiet.level_db[: span.size], short) / 10.0)
+    rows = rows / (grid.fs / grid.nfft)  # power per hertz
+    width = 2 * round(LONG_GATE_OCTAVES * GRID_PER_OCTAVE) + 1
+    around = uniform_filter1d(rows, width, axis=1, mode="nearest")
+    usable = around <= uniform_filter1d(noise, width, mode="nearest") * 10.0 ** (LONG_WITHIN_DB / 10.0)
+
+    def mean(part):
+        count = usable[part].sum(axis=0)
+        level = (rows[part] * usable[part]).sum(axis=0) / np.maximum(count, 1)
+        return _level_db(np.where(count > 0, level, noise)) + 10.0 * math.log10(grid.fs / grid.nfft)
+
+    halves = tuple(mean(part) for part in np.array_split(np.arange(rows.shape[0]), 2))
+    seconds = usable.sum(axis=0) * grid.hop_s * step
+    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds)
 
 
 def _excess(level_db: np.ndarray) -> np.ndarray:
@@ -357,26 +416,29 @@ def _standing_share(grid_hz, halves, f0: float, gain: float, q: float, kernel) -
     return float(np.mean([scale >= STANDING_SCALE for scale in scales]))
 
 
-def _candidates(quiet: _Quiet) -> list[tuple[float, int]]:
-    """Local maxima of the quiet spectrum's excess: (excess dB, grid index), strongest first."""
+def _candidates(quiet: _Quiet, inside: np.ndarray) -> list[tuple[float, int]]:
+    """Local maxima of the quiet spectrum's excess where ``inside``: (excess dB, grid index), strongest first."""
     if quiet.frames < MIN_FRAMES:
         return []
     excess = _excess(quiet.level_db)
     peak = np.zeros(excess.size, bool)
     peak[1:-1] = (excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:]) & (excess[1:-1] >= CANDIDATE_DB)
+    peak &= inside
     found = [(float(excess[i]), int(i)) for i in np.flatnonzero(peak)]
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet) -> list[tuple[float, ResonancePeak]]:
-    """Accepted peaks of the quiet spectrum (see the module's stages 3-5) with their RMS misfits, dB."""
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0) -> list[tuple[float, ResonancePeak]]:
+    """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
+    least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB."""
     accepted = []
-    for _, i in _candidates(quiet):
+    for _, i in _candidates(quiet, inside):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
-        if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain:
+        if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
+                or f0 / q < min_width_hz:
             continue
         share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q, quiet.kernel)
         if share >= PERSISTENT_SHARE:
@@ -425,8 +487,13 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     grid_hz = _grid_hz(source.fs)
     accepted = []
     spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
+    long = _long_spectrum(source, grid_hz, spectrum)
+    low = grid_hz[: long.level_db.size]
+    longer = np.zeros(grid_hz.size, bool)
+    longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    for _, peak in sorted(_peaks(grid_hz, spectrum), key=lambda fitted: fitted[0]):  # of one peak's fits, the best
+    fitted = _peaks(grid_hz, spectrum, ~longer) + _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
+    for _, peak in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
     if not accepted:
