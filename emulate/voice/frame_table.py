@@ -22,7 +22,7 @@ import numpy as np
 __all__ = ["COLUMN_BUDGET_BYTES", "FrameTable"]
 
 #: Memory allowed for the columns read at once by :meth:`FrameTable.percentile`, bytes.
-COLUMN_BUDGET_BYTES = 32 * 2**20
+COLUMN_BUDGET_BYTES = 8 * 2**20
 #: Rows read at once by :meth:`FrameTable.chunks`.
 CHUNK_ROWS = 8192
 
