@@ -19,23 +19,37 @@ included. So the finder reads the resonance where the voice is absent:
    Bristow-Johnson's audio EQ cookbook peaking filter, ``H(s) = (s^2 + s (A/Q) w0 + w0^2) /
    (s^2 + s w0 / (A Q) + w0^2)``, ``A = 10**(gain/40)``), as the quiet spectrum sees it
    (its power smeared by the Hann frame cut at the joins of the quiet pieces: short pieces
-   blur a narrow low peak, and the fit undoes that rather than reading a low Q), plus a level and a tilt, by least squares
-   on the spectrum (dB) within four of its widths: frequency, gain and Q;
+   blur a narrow low peak, and the fit undoes that rather than reading a low Q), plus a level
+   and a tilt, by least squares on the spectrum (dB) within four of its widths: frequency,
+   gain and Q;
 5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
    fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
    half as high as the fit in both halves of the quiet material (persistent; the height
    each half shows is the least-squares scale of the fitted response, as the quiet
    spectrum sees it, over the fit's whole span, not a reading at three points);
-6. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
+6. the low range (under 400 Hz): a narrow low peak is a few hertz wide, and short pauses
+   (pieces of about 0.15 s) blur it; but the voice leaves a low region to the room's noise
+   far longer than it leaves the whole spectrum quiet (under a 210 Hz voice, 100 Hz is
+   never sounded). So the take is also read on 1 s Hann frames (hop 0.25 s, at most 480
+   spread over the take, nothing else kept), each grid point averaged over the frames whose
+   power within +-1/3 octave lies within 6 dB of the quiet moments' there (the room's noise
+   and nothing else; the frames are continuous, so the smearing is the window's alone).
+   Where that averages more time than the quiet moments hold, the candidates there are
+   found and fitted (stages 3-5) on it instead, and must be at least 2.5 Hz wide between
+   their half-gain points (a narrower one is a single bin's scatter at 1 s frames);
+7. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
    fit, and least squares can stop in a local minimum) the one with the least misfit is
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
-the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 %; at
-100-250 Hz a narrow peak is only a few hertz wide and the pauses are short (tens of ms), so
-the fit must undo much smearing and the Q is the weak part; longer takes (more and longer
-quiet moments) do better.
+the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
+takes; at 100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes
+there are 30 s; ``tests/resonance_grid.py`` says why with numbers). Still weak: a low peak
+inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only
+moments are the pauses, and after each word the peak rings on for longer than most pauses
+last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps
+between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -212,7 +226,8 @@ def _level_db(power: np.ndarray) -> np.ndarray:
 @dataclass(frozen=True)
 class _Quiet:
     """The take's quiet spectrum on the grid (dB) at one frame length, over the whole take and
-    over each half (for persistence)."""
+    over each half (for persistence); ``seconds``: the time it averages (per grid point for
+    the long frames)."""
 
     frame_s: float
     kernel: tuple[np.ndarray, np.ndarray]
@@ -428,7 +443,8 @@ def _candidates(quiet: _Quiet, inside: np.ndarray) -> list[tuple[float, int]]:
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0) -> list[tuple[float, ResonancePeak]]:
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
+           min_width_hz: float = 0.0) -> list[tuple[float, ResonancePeak]]:
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
     least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB."""
     accepted = []
@@ -492,7 +508,8 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    fitted = _peaks(grid_hz, spectrum, ~longer) + _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
+    fitted = _peaks(grid_hz, spectrum, ~longer) + \
+        _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
     for _, peak in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             accepted.append(peak)
