@@ -177,6 +177,21 @@ class TestLongFrames:
         at = {f: long.seconds[np.argmin(abs(grid_hz - f))] for f in (100.0, 210.0)}
         assert quiet.seconds < 2.5 and at[100.0] > 5.0 and at[210.0] == 0.0
 
+    @pytest.mark.parametrize("hop_s", [0.25, 2.5])
+    def test_frames_spread_wider_than_they_are_long(self, hop_s):
+        # on a long take the long frames are spread (hop over a frame): frame i still starts at
+        # i * hop (frames.iter_frame_power against numpy.fft.rfft of the frames cut directly)
+        from emulate.voice.frames import FrameGrid, iter_frame_power
+        from emulate.voice.takes import TakeSource
+
+        x, grid = np.random.default_rng(5).standard_normal(48000 * 12), FrameGrid.at(48000, 1.0, hop_s)
+        got = np.concatenate(list(iter_frame_power(TakeSource.from_array(x, 48000), grid)))
+        starts = np.arange(1 + (x.size - grid.size) // grid.hop) * grid.hop
+        cut = np.stack([x[a : a + grid.size] for a in starts]) * grid.window
+        power = np.abs(np.fft.rfft(cut, grid.nfft, axis=1)) ** 2
+        power[:, 1:-1] *= 2.0
+        assert got == pytest.approx(power / (grid.nfft * np.sum(grid.window**2)), rel=1e-9, abs=1e-15)
+
     @pytest.mark.slow
     @pytest.mark.parametrize("case", [c for c in grid.grid_cases()
                                       if c.centre_hz == 100 and c.pitch_hz == 210 and c.fs == 48000],

@@ -127,9 +127,10 @@ def iter_frame_power(source: TakeSource, grid: FrameGrid) -> Iterator[np.ndarray
     """
     window = grid.window
     scale = 1.0 / (grid.nfft * np.sum(window**2))  # Parseval: bins of a padded FFT sum to nfft * energy
-    carry = np.zeros(0)
+    carry, skip = np.zeros(0), 0  # skip: samples of the next blocks before the next frame (hop > frame)
     for block in iter_mono(source):
-        carry = np.concatenate((carry, block))
+        carry = np.concatenate((carry, block[skip:]))
+        skip = max(0, skip - block.size)
         count = 0 if carry.size < grid.size else 1 + (carry.size - grid.size) // grid.hop
         if count == 0:
             continue
@@ -138,6 +139,7 @@ def iter_frame_power(source: TakeSource, grid: FrameGrid) -> Iterator[np.ndarray
         power = spectrum.real**2 + spectrum.imag**2
         power[:, 1:-1] *= 2.0  # one-sided
         yield power * scale
+        skip = max(0, count * grid.hop - carry.size)
         carry = carry[count * grid.hop :]
 
 

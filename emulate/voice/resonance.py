@@ -306,20 +306,14 @@ def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Q
     noise there (see LOW_RANGE_HZ); ``seconds`` per grid point is the time averaged there."""
     from scipy.ndimage import uniform_filter1d
 
-    grid = FrameGrid.at(source.fs, LONG_FRAME_S, LONG_FRAME_S / 4.0, padded=True)
+    hop_s = max(LONG_FRAME_S / 4.0, (source.seconds - LONG_FRAME_S) / (LONG_MAX_FRAMES - 1))
+    grid = FrameGrid.at(source.fs, LONG_FRAME_S, hop_s, padded=True)  # at most LONG_MAX_FRAMES, spread
     kernel = _smearing_kernel(grid, np.array([grid.size]))
     span = grid_hz[grid_hz <= LONG_SPAN_HZ]
     empty = _Quiet(LONG_FRAME_S, kernel, np.zeros(span.size), (), 0, np.zeros(span.size))
     if quiet.frames < MIN_FRAMES:
         return empty
-    total = 1 + (round(source.seconds * source.fs) - grid.size) // grid.hop
-    step = max(1, math.ceil(total / LONG_MAX_FRAMES))
-    rows, index = [], 0
-    for power in iter_frame_power(source, grid):
-        keep = (index + np.arange(power.shape[0])) % step == 0
-        index += power.shape[0]
-        if keep.any():
-            rows.append(_on_grid(grid.f_hz, power[keep], span).astype(np.float32))
+    rows = [_on_grid(grid.f_hz, power, span).astype(np.float32) for power in iter_frame_power(source, grid)]
     if sum(r.shape[0] for r in rows) < MIN_FRAMES:
         return empty
     rows = np.concatenate(rows).astype(np.float64)
@@ -336,7 +330,7 @@ def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Q
         return _level_db(np.where(count > 0, level, noise)) + 10.0 * math.log10(grid.fs / grid.nfft)
 
     halves = tuple(mean(part) for part in np.array_split(np.arange(rows.shape[0]), 2))
-    seconds = usable.sum(axis=0) * grid.hop_s * step
+    seconds = usable.sum(axis=0) * min(grid.hop_s, LONG_FRAME_S)  # the time the frames hold, overlaps once
     return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds)
 
 
