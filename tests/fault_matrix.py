@@ -721,7 +721,9 @@ def _injected(kind: str | None):
         return
     import matplotlib.figure
 
-    with mock.patch.object(sf.SoundFile, "write", no_space), \
+    from emulate.audio.rawpcm import RawPCM  # WAV PCM written as bytes
+
+    with mock.patch.object(sf.SoundFile, "write", no_space), mock.patch.object(RawPCM, "write", no_space), \
             mock.patch.object(matplotlib.figure.Figure, "savefig", no_space_picture):
         yield
 

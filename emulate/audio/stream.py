@@ -62,7 +62,7 @@ from pathlib import Path
 import numpy as np
 import soundfile as sf
 
-from emulate.audio import pipeline
+from emulate.audio import pipeline, rawpcm
 from emulate.audio.encode import PCM_BITS, Encoder, code_dtype, container_bits
 from emulate.errors import AudioFileError, BadValueError, EmulateWarning, OutputRefusedError
 from emulate.files import atomic_path
@@ -331,10 +331,11 @@ def _warn_if_cut(path, snd: sf.SoundFile) -> None:
                       "only the frames present are used", EmulateWarning, stacklevel=3)
 
 
-def _read(snd: sf.SoundFile, path, done: int, *args, **kwargs) -> np.ndarray:
-    """``snd.read(...)``; a decoding failure (a damaged or cut FLAC) becomes one AudioFileError."""
+def _read(snd: sf.SoundFile, path, done: int, *args, reader=None, **kwargs):
+    """``snd.read(...)`` (or ``reader(...)``, e.g. :meth:`emulate.audio.rawpcm.RawPCM.read`); a
+    decoding failure (a damaged or cut FLAC) becomes one AudioFileError."""
     try:
-        return snd.read(*args, **kwargs)
+        return (reader or snd.read)(*args, **kwargs)
     except (sf.SoundFileError, OSError) as exc:
         reason = str(exc).splitlines()[0].strip().removeprefix("Error : ") if str(exc) else type(exc).__name__
         raise AudioFileError(f"{path}: cannot be decoded from frame {done} on, of the {snd.frames} its "
@@ -620,7 +621,9 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
     The reader thread reads into reused int16/int32 blocks, this thread runs
     ``processor.process_codes`` into reused output blocks, the writer thread writes them
     and gives them back: no float block, no conversion outside the kernel, no allocation
-    per block. The latency is compensated as in :func:`_processed` (its first output
+    per block. WAV-like files move their data as bytes (:mod:`emulate.audio.rawpcm`: one
+    call per block, 24-bit unpacked and packed in a kernel pass), others through
+    libsndfile's int16/int32 conversion. The latency is compensated as in :func:`_processed` (its first output
     frames dropped, as many zero frames fed after the input). Returns the frames written.
     """
     in_dtype, in_scale = _codes_of(src.subtype)
@@ -628,12 +631,15 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
     inputs = pipeline.BlockPool((block_frames, channels), in_dtype)
     outputs = pipeline.BlockPool((block_frames, channels), encoder.code_dtype)
     skip, written = latency, 0
+    raw_in, raw_out = rawpcm.raw_pcm(src), rawpcm.raw_pcm(dst)
+    read = raw_in.read if raw_in else lambda block: len(src.read(out=block, always_2d=True))
+    write = raw_out.write if raw_out else dst.write
 
     def read_codes():
         done = 0
         while True:
             block = inputs.take()
-            n = len(_read(src, in_path, done, out=block, always_2d=True))
+            n = _read(src, in_path, done, block, reader=read)
             if not n:
                 return
             done += n
@@ -641,7 +647,7 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
 
     def write_codes(item):
         block, n = item
-        dst.write(block[:n])
+        write(block[:n])
         outputs.give(block)
 
     def feed(block, n, put):
