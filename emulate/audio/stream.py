@@ -579,7 +579,7 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
             latency = check_count("processor latency_samples",
                                   getattr(processor, "latency_samples", 0), 0)
         encoder = Encoder(out_subtype, dither, dither_seed)
-        if _codes_through(processor, src.subtype, encoder):
+        if _codes_through(processor, src.subtype, encoder) or _codes_copied(processor, src.subtype, out_subtype):
             with _atomic_output(out_path, fmt, out_subtype, rate, channels, replace) as dst:
                 frames = _render_codes(src, in_path, dst, processor, encoder, latency, block_frames,
                                        progress)
@@ -614,6 +614,11 @@ def _codes_through(processor, in_subtype: str, encoder: Encoder) -> bool:
             and in_subtype in PCM_BITS and encoder.bits is not None)
 
 
+def _codes_copied(processor, in_subtype: str, out_subtype: str) -> bool:
+    """Whether a copy (no processor) writes the codes as read: integer PCM into the same subtype."""
+    return processor is None and in_subtype in PCM_BITS and out_subtype == in_subtype
+
+
 def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, encoder: Encoder,
                   latency: int, block_frames: int, progress) -> int:
     """Integer PCM in, integer PCM out: read codes, filter and encode them in one pass, write codes.
@@ -624,7 +629,8 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
     per block. WAV-like files move their data as bytes (:mod:`emulate.audio.rawpcm`: one
     call per block, 24-bit unpacked and packed in a kernel pass), others through
     libsndfile's int16/int32 conversion. The latency is compensated as in :func:`_processed` (its first output
-    frames dropped, as many zero frames fed after the input). Returns the frames written.
+    frames dropped, as many zero frames fed after the input). With no processor (a copy into
+    the same subtype) the blocks read are written as they are. Returns the frames written.
     """
     in_dtype, in_scale = _codes_of(src.subtype)
     channels = src.channels
@@ -646,9 +652,9 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
             yield block, n
 
     def write_codes(item):
-        block, n = item
+        block, n, pool = item
         write(block[:n])
-        outputs.give(block)
+        pool.give(block)
 
     def feed(block, n, put):
         nonlocal skip, written
@@ -657,15 +663,20 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
         out = outputs.take()
         processor.process_codes(block[:n], in_scale, encoder, out[:n - dropped], dropped)
         if n > dropped:
-            put((out, n - dropped))
+            put((out, n - dropped, outputs))
             written += n - dropped
         else:
             outputs.give(out)
 
     with pipeline.read_ahead(read_codes()) as blocks, pipeline.write_behind(write_codes) as put:
         for block, n in blocks:
-            feed(block, n, put)
-            inputs.give(block)
+            if processor is None:  # a copy: the block goes to the writer, which gives it back
+                encoder.copy_codes(block[:n], in_scale)
+                put((block, n, inputs))
+                written += n
+            else:
+                feed(block, n, put)
+                inputs.give(block)
             if progress is not None:
                 progress(n)
         zeros = np.zeros((block_frames, channels), in_dtype)
@@ -768,9 +779,10 @@ def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,
               progress: Callable[[int], object] | None = None) -> RenderReport:
     """Stream IN into OUT with no processing, through the same path as :func:`render_file`.
 
-    The reference for render timing. IN's subtype is kept, so the samples are already on
-    the output grid: no dither is added and the copy is sample-exact (for integer PCM,
-    FLOAT and DOUBLE). Same checks, atomic write and replacement rule as
+    IN's subtype is kept, so the samples are already on the output grid: no dither is
+    added and the copy is sample-exact (for integer PCM, FLOAT and DOUBLE). Integer PCM
+    goes as codes (the render's codes path with nothing between reading and writing);
+    float PCM through the float path. Same checks, atomic write and replacement rule as
     :func:`render_file`.
 
     Parameters
