@@ -105,3 +105,18 @@ class TestRender:
         with pytest.raises(AudioFileError, match="writing failed"):
             render_file(path, tmp_path / "o.wav", notch_processor(), block_frames=1000)
         assert snapshot(tmp_path) == before
+
+    @pytest.mark.parametrize("cut_bytes", [0, 1, 5])
+    def test_a_wav_cut_mid_data_renders_as_through_libsndfile(self, tmp_path, cut_bytes):
+        # a copy stopped short: the header promises more frames than the file holds
+        from test_audio import FloatOnly, notch_processor
+
+        path = tmp_path / "cut.wav"
+        write_codes(path, random_codes(np.random.default_rng(4), 3000, 2, 24), RATE, "PCM_24")
+        data = path.read_bytes()
+        path.write_bytes(data[:len(data) - 6 * 700 - cut_bytes])
+        with pytest.warns(Warning, match="cut short"):
+            render_file(path, tmp_path / "raw.wav", notch_processor())
+        with pytest.warns(Warning, match="cut short"):
+            render_file(path, tmp_path / "plain.wav", FloatOnly(notch_processor()))
+        assert (tmp_path / "raw.wav").read_bytes() == (tmp_path / "plain.wav").read_bytes()
