@@ -61,6 +61,8 @@ _GLIDE_ST = 2.0
 _FORMANT_JITTER = 0.1
 #: Longest stretch synthesised at once, in seconds (bounds memory for long tones).
 _CHUNK_S = 0.25
+#: Samples worked at once within a chunk (the harmonics x samples arrays stay in cache).
+_SUB_CHUNK = 512
 #: Burst and syllable ramps (raised-cosine), in seconds.
 _RAMP_S = 0.01
 #: Room noise (pink) relative to the take's RMS level, in dB.
@@ -201,10 +203,21 @@ def _band_noise(rng: np.random.Generator, n: int, fs: float, band_hz, *, bell: b
 
 
 def _formant_gain(f_hz: np.ndarray, centres_hz, widths_hz) -> np.ndarray:
-    """Sum of three resonance magnitudes at ``f_hz`` (a smooth vowel envelope)."""
+    """Sum of three resonance magnitudes at ``f_hz`` (a smooth vowel envelope).
+
+    Worked in place on one scratch array (the same operations, so the same values, as
+    ``sum(weight / sqrt(1 + ((f - centre) / (width / 2)) ** 2))``, without five temporaries).
+    """
     gain = np.zeros_like(f_hz)
+    term = np.empty_like(f_hz)
     for centre, width, weight in zip(centres_hz, widths_hz, (1.0, 0.5, 0.25)):
-        gain += weight / np.sqrt(1.0 + ((f_hz - centre) / (width / 2.0)) ** 2)
+        np.subtract(f_hz, centre, out=term)
+        term /= width / 2.0
+        np.square(term, out=term)
+        term += 1.0
+        np.sqrt(term, out=term)
+        np.divide(weight, term, out=term)
+        gain += term
     return gain
 
 
@@ -223,10 +236,26 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
         for c in range(a, b, chunk):  # bounded (harmonics x samples) work arrays
             d = min(c + chunk, b)
             k = np.arange(1, int(top_hz // f0_hz[c:d].min()) + 1)[:, None]
-            f_k = k * f0_hz[c:d]
-            amp = np.where(f_k < top_hz, _formant_gain(f_k, centres, widths) / k, 0.0)
-            out[c:d] = np.sum(amp * np.sin(k * phase[c:d]), axis=0)
+            for e in range(c, d, _SUB_CHUNK):  # the same harmonics, a cache-sized run of samples at a time
+                f = min(e + _SUB_CHUNK, d)
+                out[e:f] = _harmonics(k, f0_hz[e:f], phase[e:f], top_hz, centres, widths)
     return out * env
+
+
+def _harmonics(k: np.ndarray, f0_hz: np.ndarray, phase: np.ndarray, top_hz: float, centres, widths):
+    """Sum over harmonics ``k`` (a column) of ``gain(k f0) / k * sin(k phase)``, none at or above ``top_hz``.
+
+    In place on two (harmonics x samples) arrays; the same values as
+    ``np.sum(np.where(f_k < top_hz, gain / k, 0) * np.sin(k * phase), axis=0)``.
+    """
+    f_k = k * f0_hz
+    amp = _formant_gain(f_k, centres, widths)
+    amp /= k
+    amp[f_k >= top_hz] = 0.0
+    wave = np.multiply(k, phase, out=f_k)
+    np.sin(wave, out=wave)
+    wave *= amp
+    return np.sum(wave, axis=0)
 
 
 def _pitch_track(fs: float, n: int, pitch_hz: float, rng: np.random.Generator, intervals_s=()) -> np.ndarray:
