@@ -120,8 +120,8 @@ def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 6
     """
     notch, depth = find_notch(response, search_hz, points)
     low, high, far_low, far_high = _passband(response, notch, passband)
-    lower = _edge(response, notch, far_low, low)
-    upper = _edge(response, notch, far_high, high)
+    lower, upper = _edges(response, notch, np.stack([far_low, far_high], axis=1),
+                          np.stack([low, high], axis=1)).T
     with np.errstate(invalid="ignore", divide="ignore"):
         q = notch / (upper - lower)
     below = np.minimum(db(low), db(high)) - depth
@@ -165,8 +165,9 @@ def notch_in_range(notch_hz, search_hz, points: int = 600) -> np.ndarray:
 def _passband(response, notch, how: str):
     """Passband gain below and above the notch, and where it was read (Hz)."""
     far_low, far_high = notch / _PASSBAND_SPAN, notch * _PASSBAND_SPAN
-    if how == "far":
-        return np.abs(_column(response, far_low)), np.abs(_column(response, far_high)), far_low, far_high
+    if how == "far":  # both sides in one call
+        low, high = np.abs(response(np.stack([far_low, far_high], axis=1))).T
+        return low, high, far_low, far_high
     steps = np.geomspace(1.05, _PASSBAND_SPAN, 96)
     below = np.abs(response(notch[:, None] / steps[None, :]))
     above = np.abs(response(notch[:, None] * steps[None, :]))
@@ -194,14 +195,16 @@ def _column(response, f_hz):
     return response(np.asarray(f_hz)[:, None])[:, 0]
 
 
-def _edge(response, notch, far, passband):
-    """Where |H| crosses passband/sqrt(2) between ``notch`` and ``far`` (bisection on log f)."""
+def _edges(response, notch, far, passband):
+    """Where |H| crosses passband/sqrt(2) between ``notch`` and each column of ``far`` (bisection
+    on log f); both sides step together, one call a step (columns: below, above the notch)."""
     target = passband * _EDGE_RATIO
-    near_side, far_side = np.log(notch), np.log(far)
-    exists = _magnitude_at(response, near_side) < target
+    far_side = np.log(far)
+    near_side = np.log(notch)[:, None] + np.zeros_like(far_side)
+    exists = _magnitude_at(response, near_side[:, 0])[:, None] < target
     for _ in range(60):
         middle = (near_side + far_side) / 2
-        inside = _magnitude_at(response, middle) < target
+        inside = np.abs(response(np.exp(middle))) < target
         near_side = np.where(inside, middle, near_side)
         far_side = np.where(inside, far_side, middle)
     return np.where(exists, np.exp((near_side + far_side) / 2), np.nan)
