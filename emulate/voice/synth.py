@@ -62,7 +62,7 @@ _FORMANT_JITTER = 0.1
 #: Longest stretch synthesised at once, in seconds (bounds memory for long tones).
 _CHUNK_S = 0.25
 #: Samples worked at once within a chunk (the harmonics x samples arrays stay in cache).
-_SUB_CHUNK = 512
+_SUB_CHUNK = 1024
 #: Burst and syllable ramps (raised-cosine), in seconds.
 _RAMP_S = 0.01
 #: Room noise (pink) relative to the take's RMS level, in dB.
@@ -243,19 +243,26 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
 
 
 def _harmonics(k: np.ndarray, f0_hz: np.ndarray, phase: np.ndarray, top_hz: float, centres, widths):
-    """Sum over harmonics ``k`` (a column) of ``gain(k f0) / k * sin(k phase)``, none at or above ``top_hz``.
+    """Sum over harmonics ``k`` (a column, 1 .. K) of ``gain(k f0) / k * sin(k phase)``, none at or above ``top_hz``.
 
-    In place on two (harmonics x samples) arrays; the same values as
-    ``np.sum(np.where(f_k < top_hz, gain / k, 0) * np.sin(k * phase), axis=0)``.
+    ``sin(k phase)`` is the imaginary part of ``exp(j phase) ** k``, the powers built by doubling
+    (``z**(i + m) = z**i z**m``): a few complex products instead of a sine per harmonic and
+    sample, several times faster. It agrees with ``np.sin(k * phase)`` to about 1e-11 (the
+    sine's own rounding of ``k * phase``, thousands of radians into a take, is that large).
     """
     f_k = k * f0_hz
     amp = _formant_gain(f_k, centres, widths)
     amp /= k
     amp[f_k >= top_hz] = 0.0
-    wave = np.multiply(k, phase, out=f_k)
-    np.sin(wave, out=wave)
-    wave *= amp
-    return np.sum(wave, axis=0)
+    powers = np.empty(f_k.shape, complex)
+    powers[0] = np.exp(1j * phase)
+    done = 1
+    while done < len(powers):
+        more = min(done, len(powers) - done)
+        np.multiply(powers[:more], powers[done - 1], out=powers[done:done + more])
+        done += more
+    amp *= powers.imag
+    return np.sum(amp, axis=0)
 
 
 def _pitch_track(fs: float, n: int, pitch_hz: float, rng: np.random.Generator, intervals_s=()) -> np.ndarray:
