@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from emulate.voice.frame_table import FrameTable
 from emulate.voice.frames import (LOG_GRID_HZ, BandSummer, FrameGrid, band_floors, grid_band_power, grid_density,
                                   iter_frame_power, log_band_edges, peak_on_grid, runs, smooth_on_grid)
 from emulate.voice.takes import TakeSource
@@ -78,6 +79,34 @@ class TestBandsAndFloors:
     def test_runs(self):
         assert runs(np.array([1, 1, 0, 0, 1, 0, 1, 1, 1], bool)).tolist() == [[0, 2], [4, 5], [6, 9]]
         assert runs(np.zeros(4, bool)).shape == (0, 2)
+
+
+class TestFrameTable:
+    """The on-disk table of band powers the finders use instead of an array in memory."""
+
+    def test_rows_come_back_as_written(self):
+        rows = np.random.default_rng(3).random((20000, 5)).astype(np.float32)
+        with FrameTable(5) as table:
+            for start in range(0, 20000, 3000):
+                table.append(rows[start : start + 3000])
+            assert table.rows == 20000
+            assert np.array_equal(np.concatenate([b for _, b in table.chunks(4096)]), rows)
+            assert np.array_equal(table.read(19990, 30000), rows[19990:])
+
+    @pytest.mark.parametrize("budget", [1, 4 * 20000 * 2, 2**30])
+    def test_percentiles_equal_numpys_whatever_the_budget(self, budget):
+        # reference: numpy.percentile on the whole array in memory (read one column, a few, or all at a time)
+        rows = np.random.default_rng(4).lognormal(size=(20000, 5)).astype(np.float32)
+        with FrameTable(5) as table:
+            table.append(rows)
+            assert np.array_equal(table.percentile(10.0, budget), np.percentile(rows, 10.0, axis=0))
+            assert np.array_equal(band_floors(table, 10.0), band_floors(rows, 10.0))
+
+    def test_the_file_has_no_name_and_closing_frees_it(self):
+        with FrameTable(2) as table:
+            table.append(np.ones((3, 2)))
+            assert not isinstance(table._file.name, str) or not table._file.name.startswith("/")
+        assert table._file.closed
 
 
 class TestGrid:

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from emulate.voice.frame_table import FrameTable
 from emulate.voice.takes import TakeSource
 
 __all__ = [
@@ -174,15 +175,20 @@ class BandSummer:
         return cumulative[:, self.index[1:]] - cumulative[:, self.index[:-1]]
 
 
-def band_floors(band_power: np.ndarray, percentile: float) -> np.ndarray:
+def band_floors(band_power: "np.ndarray | FrameTable", percentile: float) -> np.ndarray:
     """Each band's floor: the ``percentile`` of its power over frames (at least -140 dBFS).
+
+    ``band_power`` is ``(frames, bands)``, in memory or in a :class:`FrameTable` on disk.
 
     Example
     -------
     >>> band_floors(np.array([[1.0, 2.0], [3.0, 4.0], [5.0, 6.0]]), 50).tolist()
     [3.0, 4.0]
     """
-    floor = np.percentile(band_power, percentile, axis=0)
+    if isinstance(band_power, FrameTable):
+        floor = band_power.percentile(percentile)
+    else:
+        floor = np.percentile(band_power, percentile, axis=0)
     return np.maximum(floor, 10.0 ** (FLOOR_MIN_DBFS / 10.0) / 2.0)
 
 

@@ -1,7 +1,9 @@
 """The sibilance finder: where a speaker's /s/ (and /sh/) sits, and a notch for it.
 
-The finder reads a take top to bottom in two passes over its blocks, so memory stays
-bounded whatever the take's length (see :mod:`emulate.voice.frames` for the framing):
+The finder reads a take top to bottom in two passes over its blocks; the per-frame band
+powers of the first go to a table on disk (:class:`~emulate.voice.frame_table.FrameTable`),
+so memory grows only by a few bytes a frame whatever the take's length (see
+:mod:`emulate.voice.frames` for the framing):
 
 1. frame: 25 ms Hann frames every 12.5 ms, mixed to mono; for every frame keep its power
    in 1/6-octave bands from 300 Hz (energy below, hum and breath, is ignored);
@@ -36,6 +38,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from emulate.errors import BadValueError
+from emulate.voice.frame_table import FrameTable
 from emulate.voice.frames import (LOG_GRID_HZ, BandSummer, FrameGrid, band_floors, grid_band_power,
                                   grid_density, iter_frame_power, log_band_edges, peak_on_grid, runs,
                                   smooth_on_grid)
@@ -91,8 +94,6 @@ S_FROM_HZ = 4000.0
 SH_FROM_HZ = 2500.0
 #: Vowel frames: not sibilant, within this of the loud frames, dB.
 VOWEL_WITHIN_DB = 20.0
-#: Frames decided at a time (bounds the temporaries of a long take).
-DECISION_CHUNK = 8192
 #: Takes shorter than this (seconds) are reported unusable ("too short").
 MIN_SECONDS = 0.5
 #: A class needs this much sibilant time (seconds) to be usable.
@@ -278,22 +279,22 @@ def _check_target(target: str) -> str:
 
 @dataclass(frozen=True)
 class _Detection:
-    """Per-frame results of pass one and the decisions (internal)."""
+    """Per-frame decisions of pass one (internal; a few bytes a frame, the band powers stay on disk)."""
 
     grid: FrameGrid
     summer: BandSummer
-    band_power: np.ndarray  # (frames, bands) float32
     floors: np.ndarray  # (bands,)
     search: np.ndarray  # indices of the bands inside the search band
     excess: np.ndarray  # (frames,) search-band power over the floors
+    search_power: np.ndarray  # (frames,) search-band power, float32
     kind: np.ndarray  # (frames,) 0 none, 1 /s/, 2 /sh/, 3 vowel
-    loud: float  # 95th percentile of frame power above the low cut
+    loudest: float  # the loudest frame's power above the low cut
 
 
-def _pass_one(source: TakeSource, grid: FrameGrid, summer: BandSummer) -> np.ndarray:
-    """Band powers (float32) of every frame."""
-    powers = [summer.sum(power).astype(np.float32) for power in iter_frame_power(source, grid)]
-    return np.concatenate(powers) if powers else np.zeros((0, summer.bins.size), np.float32)
+def _pass_one(source: TakeSource, grid: FrameGrid, summer: BandSummer, table: FrameTable) -> None:
+    """Band powers (float32) of every frame, into ``table``."""
+    for power in iter_frame_power(source, grid):
+        table.append(summer.sum(power))
 
 
 def _best_half_octave(ratio_num: np.ndarray, ratio_den: np.ndarray) -> np.ndarray:
@@ -320,36 +321,53 @@ def _decide(band_power: np.ndarray, floors, voice_reference: float, search, cent
     return excess, candidate
 
 
+def _frame_sums(table: FrameTable, summer: BandSummer, search) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per frame: the power above the low cut, in the voice bands and in the search band."""
+    voice = summer.centres_hz < VOICE_TOP_HZ
+    total, voice_power, search_power = np.empty(table.rows), np.empty(table.rows), np.empty(table.rows, np.float32)
+    for start, block in table.chunks():
+        part = slice(start, start + block.shape[0])
+        total[part] = block.sum(axis=1, dtype=np.float64)
+        voice_power[part] = block[:, voice].sum(axis=1, dtype=np.float64)
+        search_power[part] = block[:, search].sum(axis=1)
+    return total, voice_power, search_power
+
+
 def _detect(source: TakeSource, band) -> _Detection | None:
     """Pass one and the frame decisions (None when the take is shorter than a frame)."""
     grid = FrameGrid.at(source.fs, FRAME_S, HOP_S, padded=True)
     if source.frames < grid.size:
         return None
     summer = BandSummer(grid.f_hz, log_band_edges(LOW_CUT_HZ, source.fs / 2.0, BANDS_PER_OCTAVE))
-    band_power = _pass_one(source, grid, summer)
-    floors = band_floors(band_power, FLOOR_PERCENTILE)
     search = np.flatnonzero((summer.centres_hz >= band[0]) & (summer.centres_hz <= band[1]))
     if search.size == 0:
         raise BadValueError(f"search band {band[0]:g}-{band[1]:g} Hz holds no 1/6-octave analysis band; widen it")
-    total = band_power.sum(axis=1, dtype=np.float64)
+    with FrameTable(summer.bins.size) as table:
+        _pass_one(source, grid, summer, table)
+        return _decisions(table, grid, summer, search)
+
+
+def _decisions(table: FrameTable, grid: FrameGrid, summer: BandSummer, search) -> _Detection:
+    """Floors, candidates, runs and each frame's kind, from the band powers of pass one."""
+    floors = band_floors(table, FLOOR_PERCENTILE)
+    total, voice_power, search_power = _frame_sums(table, summer, search)
     loud = float(np.percentile(total, 95.0))
-    voice_reference = float(np.percentile(band_power[:, summer.centres_hz < VOICE_TOP_HZ].sum(axis=1, dtype=np.float64),
-                                          VOICE_PERCENTILE))
+    voice_reference = float(np.percentile(voice_power, VOICE_PERCENTILE))
     excess, candidate = np.empty(total.size), np.empty(total.size, bool)
-    for start in range(0, total.size, DECISION_CHUNK):  # in chunks: temporaries stay small for any length
-        part = slice(start, start + DECISION_CHUNK)
-        excess[part], candidate[part] = _decide(band_power[part], floors, voice_reference, search, summer.centres_hz, loud)
+    for start, block in table.chunks():  # in chunks: temporaries stay small for any length
+        part = slice(start, start + block.shape[0])
+        excess[part], candidate[part] = _decide(block, floors, voice_reference, search, summer.centres_hz, loud)
     kind = np.zeros(total.size, np.int8)
     min_run = math.ceil(MIN_RUN_S / grid.hop_s - 1e-9)
     for start, stop in runs(candidate):
         if stop - start >= min_run:
-            over = np.maximum(band_power[start:stop, search] - floors[search], 0.0)
+            over = np.maximum(table.read(start, stop)[:, search] - floors[search], 0.0)
             peak_band = summer.centres_hz[search][np.argmax(over.sum(axis=0))]
             if peak_band >= SH_FROM_HZ:
                 kind[start:stop] = 1 if peak_band >= S_FROM_HZ else 2
     vowel = (kind == 0) & (total >= loud * 10.0 ** (-VOWEL_WITHIN_DB / 10.0)) & (total > 0)
     kind[vowel] = 3
-    return _Detection(grid, summer, band_power, floors, search, excess, kind, loud)
+    return _Detection(grid, summer, floors, search, excess, search_power, kind, float(total.max()))
 
 
 def _pass_two(source: TakeSource, found: _Detection) -> dict[int, np.ndarray]:
@@ -425,7 +443,7 @@ def find_sibilance(x, fs: float | None = None, *, search_band_hz=DEFAULT_SEARCH_
     found = _detect(source, band) if seconds >= MIN_SECONDS else None
     if found is None:
         return _report(seconds, band, {}, target, f"too short: {seconds:.3f} s, need at least {MIN_SECONDS:g} s")
-    loudest = float(dbfs(found.band_power.sum(axis=1, dtype=np.float64).max()))
+    loudest = float(dbfs(found.loudest))
     if loudest < GATE_DBFS:
         return _report(seconds, band, {}, target,
                        f"silence: loudest frame {loudest:.1f} dBFS, below the {GATE_DBFS:g} dBFS gate")
@@ -550,7 +568,7 @@ def most_sibilant_excerpt(x, fs: float | None = None, seconds: float = 3.0, *,
     if found is None or found.excess.size == 0:
         return 0, n if found is None else min(n, length)
     sibilant = (found.kind == 1) | (found.kind == 2)
-    score = found.excess * sibilant if sibilant.any() else found.band_power[:, found.search].sum(axis=1)
+    score = found.excess * sibilant if sibilant.any() else found.search_power
     width = max(1, min(score.size, round(length / found.grid.hop)))
     sums = np.convolve(score, np.ones(width), mode="valid")
     start = min(int(np.argmax(sums)) * found.grid.hop, n - length)
