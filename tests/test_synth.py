@@ -112,6 +112,9 @@ class TestSineSeries:
         expected = np.sin(phase) + 0.25 * np.sin(3 * phase)
         np.testing.assert_allclose(sine_series(amp, phase), expected, rtol=0, atol=1e-12)
 
+    def test_no_harmonics_is_silence(self):
+        assert not sine_series(np.zeros((0, 1)), np.linspace(0.0, 1.0, 10)).any()
+
 
 class TestBurstsOverTone:
     @pytest.mark.parametrize("fs, band", [(16000, (4000, 6000)), (48000, (6000, 9000))])

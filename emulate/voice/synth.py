@@ -280,7 +280,9 @@ def sine_series(amp: np.ndarray, phase: np.ndarray) -> np.ndarray:
     >>> bool(np.allclose(sine_series(amp, 2 * np.pi * t), np.sin(2 * np.pi * t) + 0.5 * np.sin(4 * np.pi * t)))
     True
     """
-    out = np.empty(len(phase))
+    out = np.zeros(len(phase))
+    if len(amp) == 0:
+        return out  # no harmonics: silence
     for start in range(0, len(phase), _SUB_CHUNK):
         stop = min(start + _SUB_CHUNK, len(phase))
         powers = np.empty((len(amp), stop - start), complex)
