@@ -409,7 +409,8 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one pass.
 
     The codes come left-aligned in int16/int32, so ``code * 2**-(container bits - 1)``
-    is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
+    is exactly libsndfile's own float reading, ``c / 2**(N-1)``. With ``kernel``, WAV-like
+    files are read as bytes (:mod:`emulate.audio.rawpcm`) into one reused codes block.
     """
     if kernel:
         from emulate.dsp.compiled import kernels  # loaded only when rendering
@@ -418,9 +419,14 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     else:
         codes_to_float = _codes_to_float_numpy
     dtype, scale = _codes_of(snd.subtype)
+    raw = rawpcm.raw_pcm(snd) if kernel else None  # 24-bit bytes are unpacked by a kernel
+    codes_block = np.empty((block_frames, snd.channels), dtype) if raw else None
     done = 0
     while True:
-        codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
+        if raw:
+            codes = codes_block[:_read(snd, path, done, codes_block, reader=raw.read)]
+        else:
+            codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
         if not len(codes):
             return
         block = np.empty(codes.shape)
