@@ -29,7 +29,7 @@ from emulate.analog import spec
 from emulate.errors import PresetError
 from emulate.validate import check_range
 from emulate.work.presets import PresetStore, default_presets_dir, shipped_presets_dir
-from emulate.analog.response import measure
+from emulate.analog.response import measure_notch
 
 __all__ = ["DEMO_RATE_HZ", "DEMO_SECONDS", "MORE_TAKES", "SECONDS_RANGE", "DemoSpeaker", "SPEAKERS",
            "DemoRender", "DemoTake", "presets_folder", "run_demo"]
@@ -138,7 +138,7 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
                     for mix in sorted({1.0, network.mix}))
     schedule = synth.take_schedule(seconds, seed=speaker.seed)
     bursts = tuple(round(start, 2) for start, _ in schedule.bursts_s)
-    notch_hz = measure(network.response).notch_hz
+    notch_hz = measure_notch(network.response)[0]
     pictures = _pictures(out_dir, speaker, network, x, renders[-1], notch_hz, report)
     more = tuple(_more_take(out_dir, speaker, number, seconds) for number in range(2, 2 + MORE_TAKES))
     return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts,

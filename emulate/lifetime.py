@@ -9,7 +9,8 @@
   (``prctl(PR_SET_PDEATHSIG)``), elsewhere a watchdog thread sees the parent
   change and exits.
 - :class:`WorkerPool` is the process pool of every parallel command (sweep, batch):
-  its workers run :func:`watch_parent` and report their process ids to the parent
+  its workers run :func:`watch_parent`, keep their freed memory for the next job
+  (:mod:`emulate.heap`) and report their process ids to the parent
   as they start (through a pipe the parent owns), so the parent knows exactly which
   processes are its workers without looking inside the executor.
 - :func:`end_workers` kills a :class:`WorkerPool`'s workers at once (used when work
@@ -140,8 +141,12 @@ class WorkerPool(ProcessPoolExecutor):
 
 
 def _start_worker(started, parent: int) -> None:
-    """Worker initializer of :class:`WorkerPool`: watch the parent, then say who we are."""
+    """Worker initializer of :class:`WorkerPool`: watch the parent, keep freed memory for the
+    next job (:func:`emulate.heap.reuse_freed_memory`), then say who we are."""
+    from emulate.heap import reuse_freed_memory
+
     watch_parent(parent)
+    reuse_freed_memory()
     started.put(os.getpid())
 
 

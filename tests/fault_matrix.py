@@ -628,6 +628,9 @@ LONG_CASES = frozenset({
     "sweep no match", "sweep removed", "sweep plot inside out", "sweep q steps", "sweep mix steps",
     "sweep non-empty out force", "sweep nested out", "sweep removed full disk",
     "response plot exists force", "measure analyse plot exists force",
+    # a full disk under a sweep stays by default (regression_full_disk_sweep), and so does an old
+    # output kept through a full disk with --force (render full disk force keeps old)
+    "sweep full disk force keeps old",
 })
 
 
@@ -721,7 +724,9 @@ def _injected(kind: str | None):
         return
     import matplotlib.figure
 
-    with mock.patch.object(sf.SoundFile, "write", no_space), \
+    from emulate.audio.rawpcm import RawPCM  # WAV PCM written as bytes
+
+    with mock.patch.object(sf.SoundFile, "write", no_space), mock.patch.object(RawPCM, "write", no_space), \
             mock.patch.object(matplotlib.figure.Figure, "savefig", no_space_picture):
         yield
 

@@ -22,6 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from emulate.voice.synth import sine_series
+
 TILTS_DB = (-6.0, -12.0)
 CENTRES_HZ = (3000.0, 5000.0, 6500.0, 8000.0, 10000.0)
 LEVELS_DB = (0.0, -6.0, -12.0, -18.0)
@@ -91,7 +93,7 @@ def _vowel(case: Case, n: int, rng) -> np.ndarray:
         f_k = k * pitch[start:stop]
         envelope = sum(w / np.sqrt(1 + ((f_k - c) / (0.05 * c + 40)) ** 2) for c, w in zip(centres, (1, .5, .25)))
         amp = np.where(f_k < top, envelope * k ** (case.tilt_db / 6.0), 0.0)
-        out[start:stop] = np.sum(amp * np.sin(k * phase[start:stop]), axis=0)
+        out[start:stop] = sine_series(amp, phase[start:stop])  # sum of amp * sin(k phase), several times faster
     ramp = np.minimum(1.0, np.minimum(np.arange(n), n - 1 - np.arange(n)) / (0.01 * fs))
     out *= ramp
     return out * (10 ** (VOWEL_DBFS / 20) / np.sqrt(2)) / np.sqrt(np.mean(out**2))

@@ -444,6 +444,7 @@ class TestCopyFile:
         report = copy_file(path, tmp_path / f"copy.{ext}", block_frames=1000)
         np.testing.assert_array_equal(read_all(tmp_path / f"copy.{ext}"), x)  # known samples
         assert (report.subtype, report.dithered, report.latency_samples) == (subtype, False, 0)
+        assert report.peak_dbfs == 20 * math.log10(np.abs(x).max())  # integer PCM: codes copied, measured
 
     def test_container_change_keeps_subtype(self, tmp_path):
         path, x = make_input(tmp_path, "wav", "PCM_24")

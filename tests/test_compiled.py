@@ -168,6 +168,11 @@ class TestCompiledModule:
                                    2.0 ** 15, -2.0 ** 15, 2.0 ** 15 - 1, 2.0 ** (out_bits - 16), out_bits == 16,
                                    rng, tally, np.empty((3, 256, 2)), out_codes)
                     parts += [out_codes, rng, tally]
+            packed = np.random.default_rng(2).integers(0, 256, 3 * x.size).astype(np.uint8)
+            unpacked, repacked = np.empty(x.shape, np.int32), np.empty_like(packed)
+            k.unpack_pcm24(packed, unpacked)
+            k.pack_pcm24(unpacked, repacked)
+            parts += [unpacked, repacked]
             results.append(parts)
         for a, b in zip(*results):
             np.testing.assert_array_equal(a, b)

@@ -12,7 +12,7 @@ import pytest
 from scipy import signal
 
 from emulate.errors import BadValueError
-from emulate.voice.synth import bursts_over_tone, take_schedule, voice_like_take
+from emulate.voice.synth import bursts_over_tone, sine_series, take_schedule, voice_like_take
 
 
 def _dbfs_rms(x):
@@ -93,6 +93,27 @@ class TestVoiceLikeTake:
         args = {"fs": 48000, "pitch_hz": 120, "sibilance_hz": 6000} | kwargs
         with pytest.raises(BadValueError, match=match):
             voice_like_take(args.pop("fs"), 1.0, **args)
+
+
+class TestSineSeries:
+    def test_equals_the_sum_of_sines(self):
+        # reference: the definition, sum_k amp_k sin(k phase) with numpy's sine, over a phase that
+        # runs 60 s into a 300 Hz tone (the sine's own rounding of k * phase is about 1e-11 there)
+        rng = np.random.default_rng(4)
+        phase = 2 * np.pi * np.cumsum(np.full(3000, 300.0 / 48000)) + 2 * np.pi * 300.0 * 60.0
+        k = np.arange(1, 41)[:, None]
+        amp = rng.uniform(0.0, 1.0, (40, phase.size)) / k
+        expected = np.sum(amp * np.sin(k * phase), axis=0)
+        np.testing.assert_allclose(sine_series(amp, phase), expected, rtol=0, atol=1e-10)
+
+    def test_one_amplitude_column_for_every_sample(self):
+        phase = np.linspace(0.0, 20.0, 2500)
+        amp = np.array([[1.0], [0.0], [0.25]])
+        expected = np.sin(phase) + 0.25 * np.sin(3 * phase)
+        np.testing.assert_allclose(sine_series(amp, phase), expected, rtol=0, atol=1e-12)
+
+    def test_no_harmonics_is_silence(self):
+        assert not sine_series(np.zeros((0, 1)), np.linspace(0.0, 1.0, 10)).any()
 
 
 class TestBurstsOverTone:

@@ -190,9 +190,8 @@ class Compiled:
         f_hz = np.asarray(f_hz, float)
         s = 2j * np.pi * np.atleast_2d(f_hz)
         system = self.g[:, None] + s[..., None, None] * self.c[:, None]
-        rhs = np.broadcast_to(self.b, system.shape[:-1])[..., None]
-        try:
-            x = np.linalg.solve(system, rhs)[..., 0]
+        try:  # the source column broadcast by solve itself (np.broadcast_to costs more than a small solve)
+            x = np.linalg.solve(system, self.b[:, None])[..., 0]
         except np.linalg.LinAlgError:
             raise CircuitError("the network equations are singular: a node floats") from None
         h = x @ self.l

@@ -23,7 +23,7 @@ from emulate.errors import EmulateWarning
 from emulate.search import golden_section_min
 
 __all__ = ["AUDIO_BAND_HZ", "EXACT_NULL_DB", "NotchMetrics", "is_exact_null", "db", "measure",
-           "measure_network", "measure_batch", "notch_depth_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
+           "measure_network", "measure_batch", "measure_notch", "notch_depth_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
            "SHALLOW_DB", "LOAD_FACTOR", "SOURCE_FACTOR", "check_twin_t", "warn_all"]
 
 AUDIO_BAND_HZ = (20.0, 20000.0)
@@ -118,10 +118,9 @@ def measure_batch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 6
     (ideal networks); ``"peak"`` takes the largest gain on a grid out to there
     (networks whose response falls again far from the notch, as with real op-amps).
     """
-    notch, depth = find_notch(response, search_hz, points)
-    low, high, far_low, far_high = _passband(response, notch, passband)
-    lower = _edge(response, notch, far_low, low)
-    upper = _edge(response, notch, far_high, high)
+    notch, depth, low, high, far_low, far_high = _notch_and_passband(response, search_hz, points, passband)
+    lower, upper = _edges(response, notch, np.stack([far_low, far_high], axis=1),
+                          np.stack([low, high], axis=1)).T
     with np.errstate(invalid="ignore", divide="ignore"):
         q = notch / (upper - lower)
     below = np.minimum(db(low), db(high)) - depth
@@ -138,9 +137,36 @@ def notch_depth_batch(magnitude: Callable, *, search_hz, points: int):
     cost. ``magnitude(f_hz)`` maps (builds, m) Hz to ``|H|`` (a complex response
     works too); the passband is read as ``passband="far"``.
     """
-    notch, depth = find_notch(magnitude, search_hz, points)
-    low, high, _, _ = _passband(magnitude, notch, "far")
+    notch, depth, low, high, _, _ = _notch_and_passband(magnitude, search_hz, points, "far")
     return notch, np.minimum(db(low), db(high)) - depth, notch_in_range(notch, search_hz, points)
+
+
+def measure_notch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600):
+    """``(notch_hz, depth_db, depth_below_passband_db, in_range)`` of ``response(f_hz) -> complex``.
+
+    The figures :func:`measure` finds first, the same values, without the -3 dB edges and Q
+    (about half the nodal solves): for whoever needs only the notch or its depth, e.g. a
+    solver that measures many settings of one network. The passband is read as
+    ``passband="far"``.
+
+    Example
+    -------
+    >>> from emulate.analog.networks import TwinT
+    >>> net = TwinT.balanced(1000.0, r_ohms=10e3, mix=0.9)
+    >>> notch_hz, depth_db, below_db, in_range = measure_notch(net.response)
+    >>> round(notch_hz, 3), round(below_db, 3), in_range
+    (1000.0, 20.0, True)
+    """
+    batch = lambda f: np.atleast_2d(response(f))  # noqa: E731 (as measure wraps it)
+    notch, depth, low, high, _, _ = _notch_and_passband(batch, search_hz, points, "far")
+    below = np.minimum(db(low), db(high)) - depth
+    return float(notch[0]), float(depth[0]), float(below[0]), bool(notch_in_range(notch, search_hz, points)[0])
+
+
+def _notch_and_passband(response, search_hz, points: int, passband: str):
+    """Notch (Hz) and depth (dB) of each build, the passband gains each side and where they were read."""
+    notch, depth = find_notch(response, search_hz, points)
+    return (notch, depth, *_passband(response, notch, passband))
 
 
 def notch_in_range(notch_hz, search_hz, points: int = 600) -> np.ndarray:
@@ -165,8 +191,9 @@ def notch_in_range(notch_hz, search_hz, points: int = 600) -> np.ndarray:
 def _passband(response, notch, how: str):
     """Passband gain below and above the notch, and where it was read (Hz)."""
     far_low, far_high = notch / _PASSBAND_SPAN, notch * _PASSBAND_SPAN
-    if how == "far":
-        return np.abs(_column(response, far_low)), np.abs(_column(response, far_high)), far_low, far_high
+    if how == "far":  # both sides in one call
+        low, high = np.abs(response(np.stack([far_low, far_high], axis=1))).T
+        return low, high, far_low, far_high
     steps = np.geomspace(1.05, _PASSBAND_SPAN, 96)
     below = np.abs(response(notch[:, None] / steps[None, :]))
     above = np.abs(response(notch[:, None] * steps[None, :]))
@@ -194,14 +221,16 @@ def _column(response, f_hz):
     return response(np.asarray(f_hz)[:, None])[:, 0]
 
 
-def _edge(response, notch, far, passband):
-    """Where |H| crosses passband/sqrt(2) between ``notch`` and ``far`` (bisection on log f)."""
+def _edges(response, notch, far, passband):
+    """Where |H| crosses passband/sqrt(2) between ``notch`` and each column of ``far`` (bisection
+    on log f); both sides step together, one call a step (columns: below, above the notch)."""
     target = passband * _EDGE_RATIO
-    near_side, far_side = np.log(notch), np.log(far)
-    exists = _magnitude_at(response, near_side) < target
+    far_side = np.log(far)
+    near_side = np.log(notch)[:, None] + np.zeros_like(far_side)
+    exists = _magnitude_at(response, near_side[:, 0])[:, None] < target
     for _ in range(60):
         middle = (near_side + far_side) / 2
-        inside = _magnitude_at(response, middle) < target
+        inside = np.abs(response(np.exp(middle))) < target
         near_side = np.where(inside, middle, near_side)
         far_side = np.where(inside, far_side, middle)
     return np.where(exists, np.exp((near_side + far_side) / 2), np.nan)

@@ -127,6 +127,12 @@ class Encoder:
         self.clipped += outside  # lossy codecs: clipped to full scale here, explicitly
         return np.clip(y, -1.0, 1.0)
 
+    def copy_codes(self, codes: np.ndarray, in_scale: float) -> None:
+        """Measure a block of codes written as they were read (a copy into the same subtype:
+        nothing to round, dither or clip), as :meth:`encode` measures ``codes * in_scale``."""
+        if codes.size:
+            self.peak = max(self.peak, float(codes.max()) * in_scale, -float(codes.min()) * in_scale)
+
     def _measure(self, y: np.ndarray) -> tuple[float, float]:
         top, bottom = float(y.max()), float(y.min())
         if not (math.isfinite(top) and math.isfinite(bottom)):

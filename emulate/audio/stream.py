@@ -62,7 +62,7 @@ from pathlib import Path
 import numpy as np
 import soundfile as sf
 
-from emulate.audio import pipeline
+from emulate.audio import pipeline, rawpcm
 from emulate.audio.encode import PCM_BITS, Encoder, code_dtype, container_bits
 from emulate.errors import AudioFileError, BadValueError, EmulateWarning, OutputRefusedError
 from emulate.files import atomic_path
@@ -331,10 +331,11 @@ def _warn_if_cut(path, snd: sf.SoundFile) -> None:
                       "only the frames present are used", EmulateWarning, stacklevel=3)
 
 
-def _read(snd: sf.SoundFile, path, done: int, *args, **kwargs) -> np.ndarray:
-    """``snd.read(...)``; a decoding failure (a damaged or cut FLAC) becomes one AudioFileError."""
+def _read(snd: sf.SoundFile, path, done: int, *args, reader=None, **kwargs):
+    """``snd.read(...)`` (or ``reader(...)``, e.g. :meth:`emulate.audio.rawpcm.RawPCM.read`); a
+    decoding failure (a damaged or cut FLAC) becomes one AudioFileError."""
     try:
-        return snd.read(*args, **kwargs)
+        return (reader or snd.read)(*args, **kwargs)
     except (sf.SoundFileError, OSError) as exc:
         reason = str(exc).splitlines()[0].strip().removeprefix("Error : ") if str(exc) else type(exc).__name__
         raise AudioFileError(f"{path}: cannot be decoded from frame {done} on, of the {snd.frames} its "
@@ -408,7 +409,8 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     """Integer PCM (which cannot hold NaN/Inf) as codes, scaled to float64 in one pass.
 
     The codes come left-aligned in int16/int32, so ``code * 2**-(container bits - 1)``
-    is exactly libsndfile's own float reading, ``c / 2**(N-1)``.
+    is exactly libsndfile's own float reading, ``c / 2**(N-1)``. With ``kernel``, WAV-like
+    files are read as bytes (:mod:`emulate.audio.rawpcm`) into one reused codes block.
     """
     if kernel:
         from emulate.dsp.compiled import kernels  # loaded only when rendering
@@ -417,9 +419,14 @@ def _read_codes_as_float(snd: sf.SoundFile, path, block_frames: int, kernel: boo
     else:
         codes_to_float = _codes_to_float_numpy
     dtype, scale = _codes_of(snd.subtype)
+    raw = rawpcm.raw_pcm(snd) if kernel else None  # 24-bit bytes are unpacked by a kernel
+    codes_block = np.empty((block_frames, snd.channels), dtype) if raw else None
     done = 0
     while True:
-        codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
+        if raw:
+            codes = codes_block[:_read(snd, path, done, codes_block, reader=raw.read)]
+        else:
+            codes = _read(snd, path, done, block_frames, dtype=dtype, always_2d=True)
         if not len(codes):
             return
         block = np.empty(codes.shape)
@@ -578,7 +585,7 @@ def _stream(in_path, out_path, processor, subtype, block_frames, progress, dithe
             latency = check_count("processor latency_samples",
                                   getattr(processor, "latency_samples", 0), 0)
         encoder = Encoder(out_subtype, dither, dither_seed)
-        if _codes_through(processor, src.subtype, encoder):
+        if _codes_through(processor, src.subtype, encoder) or _codes_copied(processor, src.subtype, out_subtype):
             with _atomic_output(out_path, fmt, out_subtype, rate, channels, replace) as dst:
                 frames = _render_codes(src, in_path, dst, processor, encoder, latency, block_frames,
                                        progress)
@@ -613,6 +620,11 @@ def _codes_through(processor, in_subtype: str, encoder: Encoder) -> bool:
             and in_subtype in PCM_BITS and encoder.bits is not None)
 
 
+def _codes_copied(processor, in_subtype: str, out_subtype: str) -> bool:
+    """Whether a copy (no processor) writes the codes as read: integer PCM into the same subtype."""
+    return processor is None and in_subtype in PCM_BITS and out_subtype == in_subtype
+
+
 def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, encoder: Encoder,
                   latency: int, block_frames: int, progress) -> int:
     """Integer PCM in, integer PCM out: read codes, filter and encode them in one pass, write codes.
@@ -620,29 +632,35 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
     The reader thread reads into reused int16/int32 blocks, this thread runs
     ``processor.process_codes`` into reused output blocks, the writer thread writes them
     and gives them back: no float block, no conversion outside the kernel, no allocation
-    per block. The latency is compensated as in :func:`_processed` (its first output
-    frames dropped, as many zero frames fed after the input). Returns the frames written.
+    per block. WAV-like files move their data as bytes (:mod:`emulate.audio.rawpcm`: one
+    call per block, 24-bit unpacked and packed in a kernel pass), others through
+    libsndfile's int16/int32 conversion. The latency is compensated as in :func:`_processed` (its first output
+    frames dropped, as many zero frames fed after the input). With no processor (a copy into
+    the same subtype) the blocks read are written as they are. Returns the frames written.
     """
     in_dtype, in_scale = _codes_of(src.subtype)
     channels = src.channels
     inputs = pipeline.BlockPool((block_frames, channels), in_dtype)
     outputs = pipeline.BlockPool((block_frames, channels), encoder.code_dtype)
     skip, written = latency, 0
+    raw_in, raw_out = rawpcm.raw_pcm(src), rawpcm.raw_pcm(dst)
+    read = raw_in.read if raw_in else lambda block: len(src.read(out=block, always_2d=True))
+    write = raw_out.write if raw_out else dst.write
 
     def read_codes():
         done = 0
         while True:
             block = inputs.take()
-            n = len(_read(src, in_path, done, out=block, always_2d=True))
+            n = _read(src, in_path, done, block, reader=read)
             if not n:
                 return
             done += n
             yield block, n
 
     def write_codes(item):
-        block, n = item
-        dst.write(block[:n])
-        outputs.give(block)
+        block, n, pool = item
+        write(block[:n])
+        pool.give(block)
 
     def feed(block, n, put):
         nonlocal skip, written
@@ -651,15 +669,20 @@ def _render_codes(src: sf.SoundFile, in_path, dst: sf.SoundFile, processor, enco
         out = outputs.take()
         processor.process_codes(block[:n], in_scale, encoder, out[:n - dropped], dropped)
         if n > dropped:
-            put((out, n - dropped))
+            put((out, n - dropped, outputs))
             written += n - dropped
         else:
             outputs.give(out)
 
     with pipeline.read_ahead(read_codes()) as blocks, pipeline.write_behind(write_codes) as put:
         for block, n in blocks:
-            feed(block, n, put)
-            inputs.give(block)
+            if processor is None:  # a copy: the block goes to the writer, which gives it back
+                encoder.copy_codes(block[:n], in_scale)
+                put((block, n, inputs))
+                written += n
+            else:
+                feed(block, n, put)
+                inputs.give(block)
             if progress is not None:
                 progress(n)
         zeros = np.zeros((block_frames, channels), in_dtype)
@@ -762,9 +785,10 @@ def copy_file(in_path, out_path, block_frames: int = DEFAULT_BLOCK_FRAMES,
               progress: Callable[[int], object] | None = None) -> RenderReport:
     """Stream IN into OUT with no processing, through the same path as :func:`render_file`.
 
-    The reference for render timing. IN's subtype is kept, so the samples are already on
-    the output grid: no dither is added and the copy is sample-exact (for integer PCM,
-    FLOAT and DOUBLE). Same checks, atomic write and replacement rule as
+    IN's subtype is kept, so the samples are already on the output grid: no dither is
+    added and the copy is sample-exact (for integer PCM, FLOAT and DOUBLE). Integer PCM
+    goes as codes (the render's codes path with nothing between reading and writing);
+    float PCM through the float path. Same checks, atomic write and replacement rule as
     :func:`render_file`.
 
     Parameters

@@ -112,13 +112,13 @@ def _check_removed(in_path, out_path, removed_path, force: bool) -> None:
 
 
 def _plot(in_path, out_path, plot_path, network) -> str:
-    from emulate.analog.response import measure
+    from emulate.analog.response import measure_notch
     from emulate.report import plots
 
     label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
     # both files streamed a chunk at a time: memory stays flat with the take's length
     drawn = plots.plot_take_spectrum(in_path, out_path, float(audio.read_info(in_path).samplerate), plot_path,
-                                     notch_hz=measure(network.response).notch_hz, label=label)
+                                     notch_hz=measure_notch(network.response)[0], label=label)
     return f"\n  wrote {drawn}"
 
 

@@ -60,6 +60,8 @@ EXPORTS = {
        for t in ("i2", "i4")},
     **{f"filter_codes_{i}_{o}": ("filter_codes", _FILTER_CODES.format(i=i, o=o))
        for i in ("i2", "i4") for o in ("i2", "i4")},
+    "unpack_pcm24": ("unpack_pcm24", "void(u1[::1], i4[:, ::1])"),
+    "pack_pcm24": ("pack_pcm24", "void(i4[:, ::1], u1[::1])"),
 }
 _CODE_TYPES = {np.dtype(np.int16): "i2", np.dtype(np.int32): "i4"}
 _HERE = Path(__file__).resolve().parent
@@ -122,6 +124,7 @@ def _fits(*pairs) -> bool:
 
 
 _F8, _I8, _U8 = np.dtype(np.float64), np.dtype(np.int64), np.dtype(np.uint64)
+_I4, _BYTE = np.dtype(np.int32), np.dtype(np.uint8)
 
 
 class _Compiled:
@@ -177,13 +180,23 @@ class _Compiled:
         return self._jit().filter_codes(codes, in_scale, sos, state, blend, ramp, dry_buffer, dry_position,
                                         skip, scale, lo, hi, align, dither, rng, tally, scratch, out)
 
+    def unpack_pcm24(self, packed, codes):
+        if _fits((packed, _BYTE, 1), (codes, _I4, 2)):
+            return self._module.unpack_pcm24(packed, codes)
+        return self._jit().unpack_pcm24(packed, codes)
+
+    def pack_pcm24(self, codes, packed):
+        if _fits((codes, _I4, 2), (packed, _BYTE, 1)):
+            return self._module.pack_pcm24(codes, packed)
+        return self._jit().pack_pcm24(codes, packed)
+
 
 def kernels():
     """The kernels this process runs: the compiled module if built, else :mod:`emulate.dsp.kernels`.
 
     Chosen once per process. Both offer ``sos_filter``, ``ramp_blend``, ``delay_line``,
-    ``codes_to_float``, ``encode_codes`` and ``filter_codes`` with the same arguments
-    and the same results.
+    ``codes_to_float``, ``encode_codes``, ``filter_codes``, ``unpack_pcm24`` and
+    ``pack_pcm24`` with the same arguments and the same results.
 
     Example
     -------

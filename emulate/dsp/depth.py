@@ -26,7 +26,7 @@ import math
 import numpy as np
 
 from emulate.errors import BadValueError
-from emulate.analog.response import db, measure
+from emulate.analog.response import db, measure, measure_notch
 from emulate.validate import check_range
 
 __all__ = [
@@ -175,7 +175,7 @@ def mix_for_depth(network, depth_db) -> float:
     minimum moves away from the wet network's notch and can lie far deeper than
     the level there.  The closed form at the wet notch (:func:`_mix_at_wet_notch`,
     exact for an exact null) gives the first guess and the bracket; the level of
-    the mixed minimum (``measure(...).depth_db``) is then solved for the mix by
+    the mixed minimum (``measure(...).depth_db``, read by ``measure_notch``) is then solved for the mix by
     bracketed root finding (scipy.optimize.brentq) to 1e-10, starting from the dry
     end (m = 0, 0 dB), so the smallest mix that reaches the level is returned.
     ``depth_db`` is relative to the dry (source) level, the scale of
@@ -215,7 +215,7 @@ def mix_for_depth(network, depth_db) -> float:
         return guess  # only an exact null reaches -inf, and only at the wet notch
 
     def miss(mix):
-        return measure(wet.replace(mix=float(mix)).response).depth_db - target_db
+        return measure_notch(wet.replace(mix=float(mix)).response)[1] - target_db
 
     if guess is not None and abs(miss(guess)) <= _LEVEL_TOL_DB:
         return guess  # the wet notch is the mixed minimum (an exact or nearly exact null)
@@ -250,7 +250,7 @@ def _mix_at_wet_notch(wet, depth_db, *, refuse) -> float | None:
     signal is cancelled by a little dry).
     """
     target = 10.0 ** (check_depth_db(depth_db) / 20.0)
-    h0 = complex(np.ravel(wet.response(np.array([measure(wet.response).notch_hz])))[0])
+    h0 = complex(np.ravel(wet.response(np.array([measure_notch(wet.response)[0]])))[0])
     d = h0 - 1.0
     c = 1.0 - target**2
     if c == 0.0:
@@ -291,7 +291,8 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     """Level at the notch, dB relative to the passband, with the depth pot at ``position``.
 
     Measures ``network.replace(depth_pot_ohms=pot_ohms, mix=position)`` with
-    :func:`emulate.analog.response.measure` and returns ``-depth_below_passband_db``
+    :func:`emulate.analog.response.measure_notch` (the value :func:`~emulate.analog.response.measure`
+    gives, without its -3 dB edges) and returns ``-depth_below_passband_db``
     (the notch against the lower of the two passband gains). Position 1 is the
     full notch through the track's 1 ppm end resistance: about
     20 log10(1e-6) = -120 dB for an exact null. Does not cache.
@@ -323,7 +324,7 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     """
     position = _check_position(position)
     pot = network.replace(depth_pot_ohms=_pot_ohms(network, pot_ohms), mix=position)
-    return -measure(pot.response).depth_below_passband_db
+    return -measure_notch(pot.response)[2]
 
 
 def _dry_end_db(network, ohms) -> float:

@@ -29,7 +29,7 @@ import numpy as np
 
 from emulate.analog.networks import TwinT
 from emulate.dsp.processor import NotchProcessor
-from emulate.analog.response import measure
+from emulate.analog.response import measure_notch
 from emulate.analog.stability import check_stability
 from emulate.errors import CircuitError
 
@@ -57,8 +57,8 @@ def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
     >>> proc.prepare(48000, 2); proc.design.meets_target
     True
     """
-    metrics = measure(network.response)
-    notch_hz = metrics.notch_hz if metrics.in_range else None
+    notch_hz, _, _, in_range = measure_notch(network.response)
+    notch_hz = notch_hz if in_range else None
     stability = check_stability(network)
     if not stability.stable:
         raise CircuitError(f"the network is {stability.describe()}; there is no steady response to emulate")

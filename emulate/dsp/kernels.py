@@ -16,6 +16,7 @@ from emulate.dsp.state_layout import (RAMP_STEP, RAMP_TARGET, RAMP_VALUE, TALLY_
                                        TALLY_NON_FINITE, TALLY_TOP)
 
 __all__ = ["sos_filter", "ramp_blend", "delay_line", "codes_to_float", "encode_codes", "filter_codes",
+           "unpack_pcm24", "pack_pcm24",
            "RAMP_VALUE", "RAMP_STEP", "RAMP_TARGET", "TALLY_TOP", "TALLY_BOTTOM", "TALLY_CLIPPED",
            "TALLY_NON_FINITE"]
 
@@ -440,3 +441,58 @@ def filter_codes(codes, in_scale, sos, state, blend, ramp, dry_buffer, dry_posit
         skipped = min(max(skip - first, 0), n)  # frames of this chunk not encoded
         _encode_span(flat_wet, skipped * channels, (n - skipped) * channels, scale, lo, hi, align, dither,
                      rng, tally, flat_out, (first + skipped - skip) * channels)
+
+
+@njit(cache=True, nogil=True)
+def unpack_pcm24(packed, codes):
+    """Little-endian 24-bit samples (3 bytes each) to int32 codes left-aligned, as libsndfile reads them.
+
+    Parameters
+    ----------
+    packed : ndarray of uint8, shape (3 * codes.size,), C-contiguous
+        The samples as a WAV file holds them (least significant byte first).
+    codes : ndarray of int32, shape (frames, channels), C-contiguous
+        Output: each sample times 256 (libsndfile's int reading of 24-bit PCM).
+
+    Raises
+    ------
+    Nothing (no checks; the caller validates).
+
+    Example
+    -------
+    >>> codes = np.empty((2, 1), np.int32)
+    >>> unpack_pcm24(np.array([1, 0, 0, 0, 0, 0x80], np.uint8), codes); codes[:, 0].tolist()
+    [256, -2147483648]
+    """
+    flat = codes.ravel()
+    for i in range(flat.size):
+        flat[i] = ((np.int32(packed[3 * i]) << 8) | (np.int32(packed[3 * i + 1]) << 16)
+                   | (np.int32(np.int8(packed[3 * i + 2])) << 24))
+
+
+@njit(cache=True, nogil=True)
+def pack_pcm24(codes, packed):
+    """Left-aligned int32 codes to little-endian 24-bit samples: their top three bytes, as libsndfile writes them.
+
+    Parameters
+    ----------
+    codes : ndarray of int32, shape (frames, channels), C-contiguous
+        Codes left-aligned in int32 (the low byte is dropped).
+    packed : ndarray of uint8, shape (3 * codes.size,), C-contiguous
+        Output, least significant byte first.
+
+    Raises
+    ------
+    Nothing (no checks; the caller validates).
+
+    Example
+    -------
+    >>> packed = np.empty(3, np.uint8); pack_pcm24(np.array([[-256]], np.int32), packed); packed.tolist()
+    [255, 255, 255]
+    """
+    flat = codes.ravel()
+    for i in range(flat.size):
+        value = flat[i]
+        packed[3 * i] = (value >> 8) & 0xFF
+        packed[3 * i + 1] = (value >> 16) & 0xFF
+        packed[3 * i + 2] = (value >> 24) & 0xFF

@@ -31,6 +31,7 @@ from emulate.validate import check_count, check_range, check_sample_rate_hz
 __all__ = [
     "TakeSchedule",
     "bursts_over_tone",
+    "sine_series",
     "take_schedule",
     "voice_like_take",
 ]
@@ -61,6 +62,8 @@ _GLIDE_ST = 2.0
 _FORMANT_JITTER = 0.1
 #: Longest stretch synthesised at once, in seconds (bounds memory for long tones).
 _CHUNK_S = 0.25
+#: Samples worked at once within a chunk (the harmonics x samples arrays stay in cache).
+_SUB_CHUNK = 1024
 #: Burst and syllable ramps (raised-cosine), in seconds.
 _RAMP_S = 0.01
 #: Room noise (pink) relative to the take's RMS level, in dB.
@@ -201,10 +204,21 @@ def _band_noise(rng: np.random.Generator, n: int, fs: float, band_hz, *, bell: b
 
 
 def _formant_gain(f_hz: np.ndarray, centres_hz, widths_hz) -> np.ndarray:
-    """Sum of three resonance magnitudes at ``f_hz`` (a smooth vowel envelope)."""
+    """Sum of three resonance magnitudes at ``f_hz`` (a smooth vowel envelope).
+
+    Worked in place on one scratch array (the same operations, so the same values, as
+    ``sum(weight / sqrt(1 + ((f - centre) / (width / 2)) ** 2))``, without five temporaries).
+    """
     gain = np.zeros_like(f_hz)
+    term = np.empty_like(f_hz)
     for centre, width, weight in zip(centres_hz, widths_hz, (1.0, 0.5, 0.25)):
-        gain += weight / np.sqrt(1.0 + ((f_hz - centre) / (width / 2.0)) ** 2)
+        np.subtract(f_hz, centre, out=term)
+        term /= width / 2.0
+        np.square(term, out=term)
+        term += 1.0
+        np.sqrt(term, out=term)
+        np.divide(weight, term, out=term)
+        gain += term
     return gain
 
 
@@ -223,10 +237,63 @@ def _voiced(fs: float, f0_hz: np.ndarray, intervals_s, rng: np.random.Generator)
         for c in range(a, b, chunk):  # bounded (harmonics x samples) work arrays
             d = min(c + chunk, b)
             k = np.arange(1, int(top_hz // f0_hz[c:d].min()) + 1)[:, None]
-            f_k = k * f0_hz[c:d]
-            amp = np.where(f_k < top_hz, _formant_gain(f_k, centres, widths) / k, 0.0)
-            out[c:d] = np.sum(amp * np.sin(k * phase[c:d]), axis=0)
+            for e in range(c, d, _SUB_CHUNK):  # the same harmonics, a cache-sized run of samples at a time
+                f = min(e + _SUB_CHUNK, d)
+                out[e:f] = _harmonics(k, f0_hz[e:f], phase[e:f], top_hz, centres, widths)
     return out * env
+
+
+def _harmonics(k: np.ndarray, f0_hz: np.ndarray, phase: np.ndarray, top_hz: float, centres, widths):
+    """Sum over harmonics ``k`` (a column, 1 .. K) of ``gain(k f0) / k * sin(k phase)``, none at or above ``top_hz``."""
+    f_k = k * f0_hz
+    amp = _formant_gain(f_k, centres, widths)
+    amp /= k
+    amp[f_k >= top_hz] = 0.0
+    return sine_series(amp, phase)
+
+
+def sine_series(amp: np.ndarray, phase: np.ndarray) -> np.ndarray:
+    """``sum_k amp[k - 1] * sin(k * phase)`` per sample: harmonics 1 .. K of a tone on ``phase``.
+
+    ``sin(k phase)`` is the imaginary part of ``exp(j phase) ** k``, the powers built by doubling
+    (``z**(i + m) = z**i z**m``), a cache-sized run of samples at a time: a few complex products
+    instead of a sine per harmonic and sample, several times faster. It agrees with
+    ``np.sum(amp * np.sin(k * phase), axis=0)`` to about 1e-11 for unit amplitudes (the sine's own
+    rounding of ``k * phase``, thousands of radians into a take, is that large).
+
+    Parameters
+    ----------
+    amp : numpy.ndarray
+        ``(K, samples)`` amplitudes of harmonics 1 .. K (or ``(K, 1)``: the same for every sample).
+    phase : numpy.ndarray
+        ``(samples,)`` phase of the fundamental in radians.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``(samples,)`` the tone.
+
+    Example
+    -------
+    >>> t = np.arange(8) / 8.0
+    >>> amp = np.array([[1.0], [0.5]])
+    >>> bool(np.allclose(sine_series(amp, 2 * np.pi * t), np.sin(2 * np.pi * t) + 0.5 * np.sin(4 * np.pi * t)))
+    True
+    """
+    out = np.zeros(len(phase))
+    if len(amp) == 0:
+        return out  # no harmonics: silence
+    for start in range(0, len(phase), _SUB_CHUNK):
+        stop = min(start + _SUB_CHUNK, len(phase))
+        powers = np.empty((len(amp), stop - start), complex)
+        powers[0] = np.exp(1j * phase[start:stop])
+        done = 1
+        while done < len(powers):
+            more = min(done, len(powers) - done)
+            np.multiply(powers[:more], powers[done - 1], out=powers[done:done + more])
+            done += more
+        out[start:stop] = np.sum((amp if amp.shape[1] == 1 else amp[:, start:stop]) * powers.imag, axis=0)
+    return out
 
 
 def _pitch_track(fs: float, n: int, pitch_hz: float, rng: np.random.Generator, intervals_s=()) -> np.ndarray:

@@ -132,9 +132,9 @@ class Batch:
 # --------------------------------------------------------------------------- 2.-3. check and decide
 def _notch_hz(network) -> float:
     """The network's as-built notch, Hz (the centre of the summary's sibilance band)."""
-    from emulate.analog.response import measure
+    from emulate.analog.response import measure_notch
 
-    return measure(network.response).notch_hz
+    return measure_notch(network.response)[0]
 
 
 def sibilance_band_of(notch_hz: float, fs: float) -> tuple[float, float]:
