@@ -100,6 +100,7 @@ SLOW_DOCTESTS = frozenset({
     "emulate.report.plots.plot_take_spectrum",
     "emulate.report.plots.plot_sweep",
     "emulate.report.schematic.draw_schematic",
+    "emulate.report.schematic.schematic_figure",  # 0.6 s; drawn by default in test_schematic.py
     "emulate.voice.sibilance.most_sibilant_excerpt",
     "emulate.voice.resonance.find_resonance",
     "emulate.voice.sibilance.find_sibilance",
