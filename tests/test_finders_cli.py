@@ -34,16 +34,23 @@ def _voice(seconds, seed):
     return synth.voice_like_take(FS, seconds, pitch_hz=150, sibilance_hz=6000, seed=seed)[:, 0]
 
 
+def _hummed_take(folder, seed):
+    """A 6-second take with 3 mV of 50.02 Hz hum, written as ``hum<seed>.wav`` in ``folder``."""
+    path = folder / f"hum{seed}.wav"
+    hum = 0.003 * np.sin(2 * np.pi * 50.02 * np.arange(6 * FS) / FS)
+    audio.write_array(path, (_voice(6.0, seed) + hum)[:, None], FS, subtype="PCM_24")
+    return path
+
+
 @pytest.fixture(scope="module")
 def takes(tmp_path_factory):
+    # a second hummed take (hum2) only for the slow pooling check, which makes its own
     folder = tmp_path_factory.mktemp("takes")
-    t = np.arange(6 * FS) / FS
-    hum = [_voice(6.0, s) + 0.003 * np.sin(2 * np.pi * 50.02 * t) for s in (1, 2)]
     ringing = lfilter(*peaking_ba(1600.0, 15.0, 8.0, FS), _voice(8.0, 3))
-    paths = {"hum1": hum[0], "hum2": hum[1], "ringing": ringing * 0.5, "clean": _voice(6.0, 4)}
+    paths = {"ringing": ringing * 0.5, "clean": _voice(6.0, 4)}
     for name, x in paths.items():
         audio.write_array(folder / f"{name}.wav", x[:, None], FS, subtype="PCM_24")
-    return {name: folder / f"{name}.wav" for name in paths}
+    return {"hum1": _hummed_take(folder, 1), **{name: folder / f"{name}.wav" for name in paths}}
 
 
 class TestSibilanceCommand:
@@ -73,8 +80,8 @@ class TestHumCommand:
         assert notch["notch_hz"] == pytest.approx(50.02, abs=0.05) and "--r1" in notch["options"]
 
     @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
-    def test_pooled_over_takes_with_a_repeat(self, takes):
-        payload = json.loads(run("hum", takes["hum1"], takes["hum2"], takes["hum1"], "--json").output)
+    def test_pooled_over_takes_with_a_repeat(self, takes, tmp_path):
+        payload = json.loads(run("hum", takes["hum1"], _hummed_take(tmp_path, 2), takes["hum1"], "--json").output)
         pooled = payload["pooled"]
         assert pooled["found"] and pooled["fundamental_hz"] == pytest.approx(50.02, abs=0.05)
         assert pooled["set_aside"] == [f"{takes['hum1']}: an exact repeat of an earlier take"]
