@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 
 import sibilance_grid as grid
-from helpers_lean import slow_except
+from helpers_lean import shared_voice_take, slow_except
 from emulate.errors import BadValueError
 from emulate.voice.sibilance import aimed_at, combine_reports, find_sibilance, most_sibilant_excerpt
 from emulate.voice.synth import bursts_over_tone, take_schedule, voice_like_take
@@ -158,14 +158,14 @@ class TestFindSibilance:
 
     def test_hum_and_breath_below_300_hz_are_ignored(self):
         fs = 48000
-        x = voice_like_take(fs, 3.0, pitch_hz=120, sibilance_hz=6000, seed=2)[:, 0]
+        x = shared_voice_take(fs, 3.0, pitch_hz=120, sibilance_hz=6000, seed=2)[:, 0]  # read-only, shared below
         t = np.arange(x.size) / fs
         rumble = 0.05 * np.sin(2 * np.pi * 50 * t) + 0.02 * np.sin(2 * np.pi * 150 * t)
         a, b = find_sibilance(x, fs), find_sibilance(x + rumble, fs)
         assert b.usable and b.peak_hz == pytest.approx(a.peak_hz, rel=0.01)
 
     def test_stereo_copy_reads_like_mono(self):
-        mono = voice_like_take(48000, 3.0, pitch_hz=120, sibilance_hz=6000, seed=2)
+        mono = shared_voice_take(48000, 3.0, pitch_hz=120, sibilance_hz=6000, seed=2)  # read-only
         a, b = find_sibilance(mono, 48000), find_sibilance(np.repeat(mono, 2, axis=1), 48000)
         assert a.peak_hz == pytest.approx(b.peak_hz, rel=1e-9) and a.band_hz == pytest.approx(b.band_hz)
 
