@@ -64,9 +64,9 @@ last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; 
 between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise
 (stage 8 measured it). Reading the Q from the ring (stage 8) brought that corner from 11 to
 14 of 24 grid cases (the whole grid from 253 to 256 of 288, controls still none); the misses
-left there are mostly Q 20, and Q 10 at +15 dB, where the pauses' fitted gain stays 8-17 dB
-too high, so ``A`` is too big and the Q 31-62 % low (or, at +10 and +15 dB and Q 20, no
-accepted peak at all).
+left there are mostly Q 20, and Q 10 at +15 dB, where the pauses' fitted gain stays 6-17 dB
+too high, so ``A`` is too big and the Q 31-62 % low (or no peak accepted: +10 and +15 dB
+at Q 20); one +6 dB Q 2 peak reads its Q 35 % high and another is not accepted.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
