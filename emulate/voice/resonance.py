@@ -40,7 +40,19 @@ included. So the finder reads the resonance where the voice is absent:
 7. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
    fit, and least squares can stop in a local minimum) the one with the least misfit is
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
-   Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
+   Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``);
+8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5):
+   its Q from the ring after the words instead. Under a voice whose pitch covers the peak
+   only the pauses are free of the voice, and the peak rings into them: at 100 Hz, Q 20 and
+   +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise alone through
+   the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s more after
+   each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
+   ``tests/resonance_grid.py``). But the ring itself is the resonance's poles sounding on their own: in a band
+   of +-20 % around the centre, the power from each pause's start falls at
+   ``20 pi f0 / (Q_pole ln 10)`` dB/s; the median slope over the pauses gives the poles'
+   Q (on that grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40),
+   and the peak's Q is that over ``A`` (the fit's gain, still too high where the ring is
+   strong: see below).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
 the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
@@ -49,7 +61,12 @@ there are 30 s; ``tests/resonance_grid.py`` says why with numbers). Still weak: 
 inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only
 moments are the pauses, and after each word the peak rings on for longer than most pauses
 last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps
-between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
+between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise
+(stage 8 measured it). Reading the Q from the ring (stage 8) brought that corner from 11 to
+14 of 24 grid cases (the whole grid from 253 to 256 of 288, controls still none); the misses
+left there are mostly Q 20, and Q 10 at +15 dB, where the pauses' fitted gain stays 6-17 dB
+too high, so ``A`` is too big and the Q 31-62 % low (or no peak accepted: +10 and +15 dB
+at Q 20); one +6 dB Q 2 peak reads its Q 35 % high and another is not accepted.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -124,6 +141,22 @@ LONG_WITHIN_DB = 6.0
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
+#: The low range's Q from the decay after words (:func:`_decay_q`): read for a peak under
+#: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
+#: ``A = 10**(gain/40)``) is at least DECAY_MIN_POLE_Q (a broader ring dies within the band
+#: filter's own ring). Measured on the grid, not derived: at 250 Hz the decay read Q no better
+#: than the quiet spectrum (55 vs 66 of 72 cases; broad peaks, Q 5, read 30-66 % high), at 100 Hz
+#: under a 110 Hz voice better (14 vs 11 of 24); between the two it is untested. The band:
+#: +-DECAY_BAND/2 of the centre (a 2nd-order Butterworth band-pass); the power read every
+#: DECAY_STEP_S, s, down to DECAY_ABOVE_DB over the band's quiet floor (its QUIET_PERCENTILE), dB,
+#: over at least DECAY_MIN_STEPS steps, in at least DECAY_MIN_ENDS pauses.
+DECAY_TOP_HZ = 160.0
+DECAY_MIN_POLE_Q = 5.5
+DECAY_BAND = 0.4
+DECAY_STEP_S = 0.005
+DECAY_ABOVE_DB = 6.0
+DECAY_MIN_STEPS = 6
+DECAY_MIN_ENDS = 8
 
 
 @dataclass(frozen=True)
@@ -237,12 +270,12 @@ class _Quiet:
     seconds: np.ndarray | float = 0.0
 
 
-def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
-    """The take's quiet moments (between words: the room's own noise, through the same
-    resonance), joined end to end (float32), at most QUIET_MAX_S seconds in all:
-    runs of 20 ms frames whose power lies within QUIET_WITHIN_DB of the take's quietest
-    tenth (frames of digital silence aside), less one frame at each end (word edges).
-    Also the joined pieces' lengths (samples)."""
+def _quiet_spans(source: TakeSource) -> tuple[list[tuple[int, int]], list[tuple[int, int]]]:
+    """The take's quiet moments as (start, stop) samples, in order, at most QUIET_MAX_S
+    seconds in all: runs of 20 ms frames whose power lies within QUIET_WITHIN_DB of the
+    take's quietest tenth (frames of digital silence aside), in all and in every octave
+    band, less one frame at each end (word edges). Also the pauses, the same runs gated on
+    the power in all alone and whole, each from a word's end (as many, at most as long)."""
     grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
     bands = BandSummer(grid.f_hz, log_band_edges(LOW_HZ, _top_hz(source.fs), 1))
     power, band_power = [np.zeros(0)], [np.zeros((0, bands.bins.size), np.float32)]
@@ -252,19 +285,39 @@ def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
     power, band_power = np.concatenate(power), np.concatenate(band_power)
     live = power > 0
     if not live.any():
-        return np.zeros(0, np.float32), np.zeros(0, int)
+        return [], []
     within = 10.0 ** (QUIET_WITHIN_DB / 10.0)
     floors = band_floors(band_power[live], QUIET_PERCENTILE)
-    quiet = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * within)
-    quiet &= np.all(band_power <= floors * within, axis=1)
-    spans, budget = [], round(QUIET_MAX_S * source.fs)
-    for a, b in runs(quiet):
+    pause = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * within)
+    quiet = pause & np.all(band_power <= floors * within, axis=1)
+    return _spans(runs(quiet), 1, grid.hop, source.fs), _spans(runs(pause), 0, grid.hop, source.fs)
+
+
+def _spans(frame_runs, trim: int, hop: int, fs: float) -> list[tuple[int, int]]:
+    """Runs of frames (start, stop) longer than two frames as samples, less ``trim`` frames at
+    each end, at most QUIET_MAX_S seconds in all."""
+    spans, budget = [], round(QUIET_MAX_S * fs)
+    for a, b in frame_runs:
         if b - a > 2 and budget > 0:
-            start, stop = (a + 1) * grid.hop, (b - 1) * grid.hop
+            start, stop = (a + trim) * hop, (b - trim) * hop
             spans.append((start, min(stop, start + budget)))
             budget -= spans[-1][1] - start
+    return spans
+
+
+def _quiet_moments(source: TakeSource, spans: list[tuple[int, int]] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """The take's quiet moments (between words: the room's own noise, through the same
+    resonance; :func:`_quiet_spans` unless given), joined end to end (float32). Also the
+    joined pieces' lengths (samples)."""
+    pieces = _cut_spans(iter_mono(source), _quiet_spans(source)[0] if spans is None else spans)
+    return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
+
+
+def _cut_spans(blocks, spans: list[tuple[int, int]]) -> list[np.ndarray]:
+    """The (start, stop) sample ``spans`` (in order) of a take given as consecutive blocks,
+    each as one float32 array; reads no further than the last span."""
     pieces, offset, first = [[] for _ in spans], 0, 0  # spans are in order: walk them with the blocks
-    for block in iter_mono(source):
+    for block in blocks:
         end = offset + block.size
         while first < len(spans) and spans[first][1] <= offset:
             first += 1
@@ -276,8 +329,47 @@ def _quiet_moments(source: TakeSource) -> tuple[np.ndarray, np.ndarray]:
         offset = end
         if first >= len(spans):
             break
-    lengths = np.array([sum(part.size for part in piece) for piece in pieces], int)
-    return np.concatenate([part for piece in pieces for part in piece] or [np.zeros(0, np.float32)]), lengths
+    return [np.concatenate(piece or [np.zeros(0, np.float32)]) for piece in pieces]
+
+
+def _decay_q(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> float | None:
+    """The pole Q of a resonance at ``f0`` read from its free decay after each word (see
+    DECAY_BAND) and the ``spans`` of the pauses (:func:`_quiet_spans`: each from a word's end);
+    None when fewer than DECAY_MIN_ENDS decays could be read.
+
+    Once its excitation stops, a second-order resonance's output is its poles' free ring,
+    ``exp(-sigma t) cos(w t)`` with ``sigma = pi f0 / Q_pole`` (the impulse response of a
+    second-order system, e.g. A. Oppenheim, A. Willsky, Signals and Systems, sec. 6.5; from
+    memory): its power falls at ``20 sigma / ln 10`` dB/s whatever the voice did before. So
+    in a band around ``f0`` the power of each pause is read every DECAY_STEP_S from its start
+    (a word's end) until it comes within DECAY_ABOVE_DB of the band's quiet floor, a line is
+    fitted to it in dB, and the median slope over the pauses (robust to a pause the voice or a
+    breath cut short) gives the Q. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
+    from scipy.signal import butter, sosfilt
+
+    band = (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0))
+    sos = butter(2, band, btype="bandpass", fs=source.fs, output="sos")
+
+    def filtered():
+        state = np.zeros((sos.shape[0], 2))
+        for block in iter_mono(source):
+            y, state = sosfilt(sos, block, zi=state)
+            yield y
+
+    step = max(1, round(DECAY_STEP_S * source.fs))
+    levels = [_level_db(np.square(piece[: piece.size // step * step], dtype=np.float64).reshape(-1, step).mean(axis=1))
+              for piece in _cut_spans(filtered(), spans)]
+    if not any(level.size for level in levels):
+        return None
+    floor = np.percentile(np.concatenate(levels), QUIET_PERCENTILE) + DECAY_ABOVE_DB
+    slopes = []
+    for level in levels:
+        below = np.flatnonzero(level <= floor)
+        stop = below[0] if below.size else level.size
+        if stop >= DECAY_MIN_STEPS:
+            slopes.append(np.polyfit(np.arange(stop) * step / source.fs, level[:stop], 1)[0])
+    slope = float(np.median(slopes)) if len(slopes) >= DECAY_MIN_ENDS else 0.0
+    return 20.0 / math.log(10.0) * math.pi * f0 / -slope if slope < 0.0 else None
 
 
 def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
@@ -456,6 +548,21 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
     return accepted
 
 
+def _with_decay_q(source: TakeSource, spans: list[tuple[int, int]], peak: ResonancePeak) -> ResonancePeak:
+    """A low, narrow peak read on the quiet moments with its Q from the decay after words
+    (:func:`_decay_q`; see the module's stage 8), else as it is. The cookbook prototype's poles
+    (its denominator ``s^2 + s w0 / (A Q) + w0^2``) have the Q ``A Q``: the peak's Q is the
+    poles' over ``A``, with ``A`` from the fitted gain; the centre and gain stay the fit's."""
+    amplitude = 10.0 ** (peak.gain_db / 40.0)
+    pole_q = amplitude * peak.q
+    if peak.frequency_hz >= DECAY_TOP_HZ or pole_q < DECAY_MIN_POLE_Q:
+        return peak
+    pole_q = _decay_q(source, spans, peak.frequency_hz)
+    if pole_q is None or not MIN_Q <= pole_q / amplitude <= MAX_Q:
+        return peak
+    return ResonancePeak(peak.frequency_hz, pole_q / amplitude, peak.gain_db, peak.persistence)
+
+
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     """Find one narrow, persistent spectral peak in a take: frequency, Q, height, a notch.
 
@@ -490,7 +597,8 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     (True, True)
     """
     source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
-    quiet, lengths = _quiet_moments(source)  # reads the whole take first: a damaged file is refused, short or not
+    spans, pauses = _quiet_spans(source)  # reads the whole take first: a damaged file is refused, short or not
+    quiet, lengths = _quiet_moments(source, spans)
     if source.seconds < MIN_SECONDS:
         return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
                                source.seconds, None, (), None)
@@ -502,11 +610,11 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    fitted = _peaks(grid_hz, spectrum, ~longer) + \
-        _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
-    for _, peak in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
+    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer)] + \
+        [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
+    for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            accepted.append(peak)
+            accepted.append(_with_decay_q(source, pauses, peak) if short else peak)
     if not accepted:
         return ResonanceReport(False, "no narrow persistent peak over the neighbourhood", source.seconds,
                                None, (), None, grid_hz, mean)
