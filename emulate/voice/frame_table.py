@@ -79,10 +79,11 @@ class FrameTable:
         for start in range(0, self.rows, rows):
             yield start, self.read(start, start + rows)
 
-    def percentile(self, q: float, budget_bytes: int = COLUMN_BUDGET_BYTES) -> np.ndarray:
+    def percentile(self, q: float, budget_bytes: int = COLUMN_BUDGET_BYTES, rows: np.ndarray | None = None) -> np.ndarray:
         """Each column's ``q``-th percentile over all rows (float32), as ``numpy.percentile`` gives it.
 
         Columns are read a group at a time, as many as fit in ``budget_bytes`` (at least one).
+        ``rows``, a boolean mask over the rows, keeps only some of them.
         """
         out = np.empty(self.columns, np.float32)  # what numpy.percentile gives for float32
         group = max(1, budget_bytes // max(1, 4 * self.rows))
@@ -91,7 +92,7 @@ class FrameTable:
             column = np.empty((self.rows, picked.stop - picked.start), np.float32)
             for start, block in self.chunks():
                 column[start : start + block.shape[0]] = block[:, picked]
-            out[picked] = np.percentile(column, q, axis=0)
+            out[picked] = np.percentile(column if rows is None else column[rows], q, axis=0)
         return out
 
     @property

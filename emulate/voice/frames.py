@@ -177,10 +177,11 @@ class BandSummer:
         return cumulative[:, self.index[1:]] - cumulative[:, self.index[:-1]]
 
 
-def band_floors(band_power: "np.ndarray | FrameTable", percentile: float) -> np.ndarray:
+def band_floors(band_power: "np.ndarray | FrameTable", percentile: float, rows: np.ndarray | None = None) -> np.ndarray:
     """Each band's floor: the ``percentile`` of its power over frames (at least -140 dBFS).
 
-    ``band_power`` is ``(frames, bands)``, in memory or in a :class:`FrameTable` on disk.
+    ``band_power`` is ``(frames, bands)``, in memory or in a :class:`FrameTable` on disk;
+    ``rows``, a boolean mask over the frames, keeps only some of them.
 
     Example
     -------
@@ -188,9 +189,9 @@ def band_floors(band_power: "np.ndarray | FrameTable", percentile: float) -> np.
     [3.0, 4.0]
     """
     if isinstance(band_power, FrameTable):
-        floor = band_power.percentile(percentile)
+        floor = band_power.percentile(percentile, rows=rows)
     else:
-        floor = np.percentile(band_power, percentile, axis=0)
+        floor = np.percentile(band_power if rows is None else band_power[rows], percentile, axis=0)
     return np.maximum(floor, 10.0 ** (FLOOR_MIN_DBFS / 10.0) / 2.0)
 
 

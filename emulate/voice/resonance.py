@@ -81,6 +81,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from emulate.voice.frame_table import FrameTable
 from emulate.voice.frames import (BandSummer, FrameGrid, band_floors, iter_frame_power, iter_mono,
                                   log_band_edges, runs)
 from emulate.errors import BadValueError
@@ -278,18 +279,21 @@ def _quiet_spans(source: TakeSource) -> tuple[list[tuple[int, int]], list[tuple[
     the power in all alone and whole, each from a word's end (as many, at most as long)."""
     grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
     bands = BandSummer(grid.f_hz, log_band_edges(LOW_HZ, _top_hz(source.fs), 1))
-    power, band_power = [np.zeros(0)], [np.zeros((0, bands.bins.size), np.float32)]
-    for chunk in iter_frame_power(source, grid):
-        power.append(chunk.sum(axis=1))
-        band_power.append(bands.sum(chunk).astype(np.float32))
-    power, band_power = np.concatenate(power), np.concatenate(band_power)
-    live = power > 0
-    if not live.any():
-        return [], []
-    within = 10.0 ** (QUIET_WITHIN_DB / 10.0)
-    floors = band_floors(band_power[live], QUIET_PERCENTILE)
-    pause = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * within)
-    quiet = pause & np.all(band_power <= floors * within, axis=1)
+    with FrameTable(bands.bins.size) as band_power:  # on disk: memory flat with the take's length
+        power = [np.zeros(0)]
+        for chunk in iter_frame_power(source, grid):
+            power.append(chunk.sum(axis=1))
+            band_power.append(bands.sum(chunk))
+        power = np.concatenate(power)
+        live = power > 0
+        if not live.any():
+            return [], []
+        within = 10.0 ** (QUIET_WITHIN_DB / 10.0)
+        floors = band_floors(band_power, QUIET_PERCENTILE, rows=live)
+        pause = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * within)
+        quiet = pause.copy()
+        for start, block in band_power.chunks():
+            quiet[start : start + block.shape[0]] &= np.all(block <= floors * within, axis=1)
     return _spans(runs(quiet), 1, grid.hop, source.fs), _spans(runs(pause), 0, grid.hop, source.fs)
 
 
