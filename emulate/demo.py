@@ -138,7 +138,7 @@ def _demo_take(out_dir, speaker, store, seconds, progress) -> DemoTake:
                     for mix in sorted({1.0, network.mix}))
     schedule = synth.take_schedule(seconds, seed=speaker.seed)
     bursts = tuple(round(start, 2) for start, _ in schedule.bursts_s)
-    notch_hz = measure_notch(network.response)[0]
+    notch_hz = measure_notch(network.response).notch_hz
     pictures = _pictures(out_dir, speaker, network, x, renders[-1], notch_hz, report)
     more = tuple(_more_take(out_dir, speaker, number, seconds) for number in range(2, 2 + MORE_TAKES))
     return DemoTake(speaker, take_path, report, store.path(preset.name), notch_hz, renders, bursts,

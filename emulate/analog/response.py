@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 
@@ -23,7 +23,7 @@ from emulate.errors import EmulateWarning
 from emulate.search import golden_section_min
 
 __all__ = ["AUDIO_BAND_HZ", "EXACT_NULL_DB", "NotchMetrics", "is_exact_null", "db", "measure",
-           "measure_network", "measure_batch", "measure_notch", "notch_depth_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
+           "measure_network", "measure_batch", "measure_notch", "NotchReading", "notch_depth_batch", "notch_in_range", "find_notch", "UNBALANCE_LIMIT",
            "SHALLOW_DB", "LOAD_FACTOR", "SOURCE_FACTOR", "check_twin_t", "warn_all"]
 
 AUDIO_BAND_HZ = (20.0, 20000.0)
@@ -141,8 +141,17 @@ def notch_depth_batch(magnitude: Callable, *, search_hz, points: int):
     return notch, np.minimum(db(low), db(high)) - depth, notch_in_range(notch, search_hz, points)
 
 
-def measure_notch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600):
-    """``(notch_hz, depth_db, depth_below_passband_db, in_range)`` of ``response(f_hz) -> complex``.
+class NotchReading(NamedTuple):
+    """What :func:`measure_notch` reads: the figures of :class:`NotchMetrics` that need no -3 dB edges."""
+
+    notch_hz: float
+    depth_db: float
+    depth_below_passband_db: float
+    in_range: bool
+
+
+def measure_notch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 600) -> NotchReading:
+    """The notch, its depth and whether it lies inside the search band, of ``response(f_hz) -> complex``.
 
     The figures :func:`measure` finds first, the same values, without the -3 dB edges and Q
     (about half the nodal solves): for whoever needs only the notch or its depth, e.g. a
@@ -160,7 +169,7 @@ def measure_notch(response: Callable, *, search_hz=(1.0, 200e3), points: int = 6
     batch = lambda f: np.atleast_2d(response(f))  # noqa: E731 (as measure wraps it)
     notch, depth, low, high, _, _ = _notch_and_passband(batch, search_hz, points, "far")
     below = np.minimum(db(low), db(high)) - depth
-    return float(notch[0]), float(depth[0]), float(below[0]), bool(notch_in_range(notch, search_hz, points)[0])
+    return NotchReading(float(notch[0]), float(depth[0]), float(below[0]), bool(notch_in_range(notch, search_hz, points)[0]))
 
 
 def _notch_and_passband(response, search_hz, points: int, passband: str):

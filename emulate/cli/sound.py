@@ -118,7 +118,7 @@ def _plot(in_path, out_path, plot_path, network) -> str:
     label = f"{Path(in_path).name} through the {plots.circuit_words(network)}"
     # both files streamed a chunk at a time: memory stays flat with the take's length
     drawn = plots.plot_take_spectrum(in_path, out_path, float(audio.read_info(in_path).samplerate), plot_path,
-                                     notch_hz=measure_notch(network.response)[0], label=label)
+                                     notch_hz=measure_notch(network.response).notch_hz, label=label)
     return f"\n  wrote {drawn}"
 
 

@@ -215,7 +215,7 @@ def mix_for_depth(network, depth_db) -> float:
         return guess  # only an exact null reaches -inf, and only at the wet notch
 
     def miss(mix):
-        return measure_notch(wet.replace(mix=float(mix)).response)[1] - target_db
+        return measure_notch(wet.replace(mix=float(mix)).response).depth_db - target_db
 
     if guess is not None and abs(miss(guess)) <= _LEVEL_TOL_DB:
         return guess  # the wet notch is the mixed minimum (an exact or nearly exact null)
@@ -250,7 +250,7 @@ def _mix_at_wet_notch(wet, depth_db, *, refuse) -> float | None:
     signal is cancelled by a little dry).
     """
     target = 10.0 ** (check_depth_db(depth_db) / 20.0)
-    h0 = complex(np.ravel(wet.response(np.array([measure_notch(wet.response)[0]])))[0])
+    h0 = complex(np.ravel(wet.response(np.array([measure_notch(wet.response).notch_hz])))[0])
     d = h0 - 1.0
     c = 1.0 - target**2
     if c == 0.0:
@@ -324,7 +324,7 @@ def pot_depth_db(network, position, *, pot_ohms=None) -> float:
     """
     position = _check_position(position)
     pot = network.replace(depth_pot_ohms=_pot_ohms(network, pot_ohms), mix=position)
-    return -measure_notch(pot.response)[2]
+    return -measure_notch(pot.response).depth_below_passband_db
 
 
 def _dry_end_db(network, ohms) -> float:

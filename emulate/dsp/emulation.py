@@ -57,8 +57,8 @@ def processor_for(network: TwinT, *, tolerance_db: float = DESIGN_TOLERANCE_DB,
     >>> proc.prepare(48000, 2); proc.design.meets_target
     True
     """
-    notch_hz, _, _, in_range = measure_notch(network.response)
-    notch_hz = notch_hz if in_range else None
+    reading = measure_notch(network.response)
+    notch_hz = reading.notch_hz if reading.in_range else None
     stability = check_stability(network)
     if not stability.stable:
         raise CircuitError(f"the network is {stability.describe()}; there is no steady response to emulate")

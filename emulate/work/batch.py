@@ -134,7 +134,7 @@ def _notch_hz(network) -> float:
     """The network's as-built notch, Hz (the centre of the summary's sibilance band)."""
     from emulate.analog.response import measure_notch
 
-    return measure_notch(network.response)[0]
+    return measure_notch(network.response).notch_hz
 
 
 def sibilance_band_of(notch_hz: float, fs: float) -> tuple[float, float]:
