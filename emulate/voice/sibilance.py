@@ -306,15 +306,15 @@ def _best_half_octave(ratio_num: np.ndarray, ratio_den: np.ndarray) -> np.ndarra
     return ((num[:, width:] - num[:, :-width]) / (den[:, width:] - den[:, :-width])).max(axis=1)
 
 
-def _decide(band_power: np.ndarray, floors, voice_reference: float, search, centres_hz, loud: float) -> tuple[np.ndarray, np.ndarray]:
-    """Search-band excess over the floors and the sibilant-candidate mask of some frames (stage 3)."""
+def _decide(band_power: np.ndarray, voice_power: np.ndarray, floors, voice_reference: float, search,
+            loud: float) -> tuple[np.ndarray, np.ndarray]:
+    """Search-band excess over the floors and the sibilant-candidate mask of some frames (stage 3);
+    ``voice_power``: the frames' power in the voice bands, ``voice_reference``: its quiet level."""
     sb = band_power[:, search].astype(np.float64)
     excess = np.maximum(sb - floors[search], 0.0).sum(axis=1)
-    voice = centres_hz < VOICE_TOP_HZ
     with np.errstate(divide="ignore", invalid="ignore"):  # frames of digital silence: never candidates
         snr_db = 10.0 * np.log10(_best_half_octave(sb, floors[search]))
-        voice_rise_db = 10.0 * np.log10(band_power[:, voice].sum(axis=1, dtype=np.float64)
-                                        / max(voice_reference, floors[voice].sum()))
+        voice_rise_db = 10.0 * np.log10(voice_power / voice_reference)
         candidate = ((snr_db >= ABOVE_FLOOR_DB) & (snr_db - voice_rise_db >= ABOVE_VOICE_RISE_DB)
                      & (excess >= loud * 10.0 ** (-UNDER_LOUD_MAX_DB / 10.0))
                      & (dbfs(excess) >= GATE_DBFS))
@@ -352,11 +352,12 @@ def _decisions(table: FrameTable, grid: FrameGrid, summer: BandSummer, search) -
     floors = band_floors(table, FLOOR_PERCENTILE)
     total, voice_power, search_power = _frame_sums(table, summer, search)
     loud = float(np.percentile(total, 95.0))
-    voice_reference = float(np.percentile(voice_power, VOICE_PERCENTILE))
+    voice_floor = floors[summer.centres_hz < VOICE_TOP_HZ].sum()
+    voice_reference = max(float(np.percentile(voice_power, VOICE_PERCENTILE)), voice_floor)
     excess, candidate = np.empty(total.size), np.empty(total.size, bool)
     for start, block in table.chunks():  # in chunks: temporaries stay small for any length
         part = slice(start, start + block.shape[0])
-        excess[part], candidate[part] = _decide(block, floors, voice_reference, search, summer.centres_hz, loud)
+        excess[part], candidate[part] = _decide(block, voice_power[part], floors, voice_reference, search, loud)
     kind = np.zeros(total.size, np.int8)
     min_run = math.ceil(MIN_RUN_S / grid.hop_s - 1e-9)
     for start, stop in runs(candidate):
