@@ -235,6 +235,53 @@ class TestSmearingKernel:
         assert (offsets[1] - offsets[0]) / pieces.max() > 1.5 * (offsets[1] - offsets[0]) / one.max()
 
 
+class TestFit:
+    def test_an_exact_narrow_peak_from_the_biquad(self):
+        # the cookbook's peaking biquad at 384 kHz (its response by scipy.signal.freqz) on a
+        # tilted level, as a continuous 0.2 s Hann frame sees it: the fit, whose span is set
+        # again from the fitted Q, returns the centre, gain and Q applied (resonance_grid.applied_peak)
+        from emulate.voice.frames import FrameGrid
+        from emulate.voice.resonance import _excess, _fit, _grid_hz, _Quiet, _smearing_kernel
+
+        fs, f0, gain, q = 384000, 630.0, 6.0, 20.0
+        grid_hz = _grid_hz(48000)
+        _, h = signal.freqz(*grid.peaking_ba(f0, gain, q, fs), worN=grid_hz, fs=fs)
+        level = 20 * np.log10(np.abs(h)) - 3.0 * np.log2(grid_hz / 1000.0) - 60.0
+        kernel = _smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
+        quiet = _Quiet(0.2, kernel, level, (level, level), 100, 4.0)
+        i = int(np.argmin(np.abs(grid_hz - f0)))
+        centre, fitted_gain, fitted_q, misfit = _fit(grid_hz, quiet, _excess(level), i)
+        applied_f0, applied_q = grid.applied_peak(f0, gain, q, fs)
+        assert centre == pytest.approx(applied_f0, rel=0.002)
+        assert fitted_gain == pytest.approx(gain, abs=0.2) and fitted_q == pytest.approx(applied_q, rel=0.05)
+
+    @pytest.mark.slow
+    def test_noise_cut_into_the_quiet_moments_reads_the_q_unbiased(self):
+        # the reference for the smearing model: white noise through the grid's +6 dB Q 20 biquad
+        # at 630 Hz (scipy.signal.lfilter; its Q by scipy.signal.freqz, applied_peak), cut at the
+        # quiet moments of that grid take (66 pieces, 6.9 s, median 0.08 s) and joined as the
+        # finder joins them; read by the quiet spectrum and fitted. Over 12 seeds the mean Q
+        # error is near 0 (measured +4 %, spread 23 %; the same noise uncut: -2 %, 13 %): the
+        # kernel does not over-correct, and the grid's misses there are scatter, not bias
+        from emulate.voice.resonance import _grid_hz, _peaks, _quiet_spans, _quiet_spectrum
+        from emulate.voice.takes import TakeSource
+
+        case = next(c for c in grid.grid_cases() if c.name == "fc=630 gain=6 q=20 fs=44100 pitch=210")
+        spans, _ = _quiet_spans(TakeSource.from_array(grid.make_case(case), case.fs))
+        lengths = np.array([b - a for a, b in spans])
+        grid_hz = _grid_hz(case.fs)
+        near = np.abs(np.log2(grid_hz / case.centre_hz)) < 0.25
+        _, applied_q = grid.applied_peak(case.centre_hz, case.gain_db, case.q, case.fs)
+        errors = []
+        for seed in range(12):
+            noise = np.random.default_rng(seed).standard_normal(int(case.seconds * case.fs))
+            y = signal.lfilter(*grid.peaking_ba(case.centre_hz, case.gain_db, case.q, case.fs), noise)
+            quiet = np.concatenate([y[a:b] for a, b in spans]).astype(np.float32)
+            fits = _peaks(grid_hz, _quiet_spectrum(quiet, lengths, case.fs, grid_hz, 0.2), near)
+            errors.append(min(fits, key=lambda fit: fit[0])[1].q / applied_q - 1.0)
+        assert abs(np.mean(errors)) < 0.1
+
+
 class TestCombineResonance:
     @staticmethod
     def _report(f, seconds=10.0, q=8.0, gain=12.0):
