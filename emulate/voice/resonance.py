@@ -158,6 +158,8 @@ DECAY_STEP_S = 0.005
 DECAY_ABOVE_DB = 6.0
 DECAY_MIN_STEPS = 6
 DECAY_MIN_ENDS = 8
+UNRUNG_XTOL_DB = 0.1
+UNRUNG_TOP_DB = 40.0
 
 
 @dataclass(frozen=True)
@@ -336,19 +338,29 @@ def _cut_spans(blocks, spans: list[tuple[int, int]]) -> list[np.ndarray]:
     return [np.concatenate(piece or [np.zeros(0, np.float32)]) for piece in pieces]
 
 
-def _decay_q(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> float | None:
-    """The pole Q of a resonance at ``f0`` read from its free decay after each word (see
+@dataclass(frozen=True)
+class _Ring:
+    """A resonance's free ring after the words: its poles' Q and its undamped centre, Hz."""
+
+    pole_q: float
+    hz: float
+
+
+def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> _Ring | None:
+    """The poles of a resonance near ``f0`` read from its free decay after each word (see
     DECAY_BAND) and the ``spans`` of the pauses (:func:`_quiet_spans`: each from a word's end);
     None when fewer than DECAY_MIN_ENDS decays could be read.
 
     Once its excitation stops, a second-order resonance's output is its poles' free ring,
-    ``exp(-sigma t) cos(w t)`` with ``sigma = pi f0 / Q_pole`` (the impulse response of a
-    second-order system, e.g. A. Oppenheim, A. Willsky, Signals and Systems, sec. 6.5; from
-    memory): its power falls at ``20 sigma / ln 10`` dB/s whatever the voice did before. So
+    ``exp(-sigma t) cos(w_d t)`` with ``sigma = pi f0 / Q_pole`` and ``w_d = 2 pi f0
+    sqrt(1 - 1 / (4 Q_pole^2))`` (the impulse response of a second-order system, e.g. A.
+    Oppenheim, A. Willsky, Signals and Systems, sec. 6.5; from memory): its power falls at
+    ``20 sigma / ln 10`` dB/s whatever the voice did before, and it crosses zero at ``w_d``. So
     in a band around ``f0`` the power of each pause is read every DECAY_STEP_S from its start
     (a word's end) until it comes within DECAY_ABOVE_DB of the band's quiet floor, a line is
-    fitted to it in dB, and the median slope over the pauses (robust to a pause the voice or a
-    breath cut short) gives the Q. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
+    fitted to it in dB, and its upward zero crossings over that stretch are timed; the medians
+    over the pauses (robust to a pause the voice or a breath cut short) give the Q and the
+    centre. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
     from scipy.signal import butter, sosfilt
 
     band = (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0))
@@ -361,19 +373,76 @@ def _decay_q(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> flo
             yield y
 
     step = max(1, round(DECAY_STEP_S * source.fs))
+    pieces = _cut_spans(filtered(), spans)
     levels = [_level_db(np.square(piece[: piece.size // step * step], dtype=np.float64).reshape(-1, step).mean(axis=1))
-              for piece in _cut_spans(filtered(), spans)]
+              for piece in pieces]
     if not any(level.size for level in levels):
         return None
     floor = np.percentile(np.concatenate(levels), QUIET_PERCENTILE) + DECAY_ABOVE_DB
-    slopes = []
-    for level in levels:
+    slopes, crossings = [], []
+    for piece, level in zip(pieces, levels):
         below = np.flatnonzero(level <= floor)
         stop = below[0] if below.size else level.size
         if stop >= DECAY_MIN_STEPS:
             slopes.append(np.polyfit(np.arange(stop) * step / source.fs, level[:stop], 1)[0])
+            crossings.append(_crossing_hz(piece[: stop * step], source.fs))
     slope = float(np.median(slopes)) if len(slopes) >= DECAY_MIN_ENDS else 0.0
-    return 20.0 / math.log(10.0) * math.pi * f0 / -slope if slope < 0.0 else None
+    if slope >= 0.0:
+        return None
+    pole_q = 20.0 / math.log(10.0) * math.pi * f0 / -slope
+    return _Ring(pole_q, float(np.nanmedian(crossings)) / math.sqrt(1.0 - 1.0 / (4.0 * pole_q**2)))
+
+
+def _crossing_hz(y: np.ndarray, fs: float) -> float:
+    """The frequency of a (nearly) sinusoidal stretch from its upward zero crossings (each
+    placed by linear interpolation between samples), Hz; NaN with fewer than three."""
+    up = np.flatnonzero((y[:-1] < 0.0) & (y[1:] >= 0.0))
+    if up.size < 3:
+        return float("nan")
+    at = up + y[up] / (y[up] - y[up + 1])
+    return float((up.size - 1) * fs / (at[-1] - at[0]))
+
+
+def _peaking_sos(f0: float, gain_db: float, q: float, fs: float) -> np.ndarray:
+    """The cookbook's digital peaking biquad (its analog prototype bilinear-transformed, as
+    one second-order section; R. Bristow-Johnson, audio EQ cookbook, "peakingEQ")."""
+    a, w0 = 10.0 ** (gain_db / 40.0), 2.0 * math.pi * f0 / fs
+    alpha = math.sin(w0) / (2.0 * q)
+    b = np.array([1.0 + alpha * a, -2.0 * math.cos(w0), 1.0 - alpha * a])
+    den = np.array([1.0 + alpha / a, -2.0 * math.cos(w0), 1.0 - alpha / a])
+    return np.concatenate((b, den))[None, :] / den[0]
+
+
+def _unrung(source: TakeSource, sos: np.ndarray, spans) -> tuple[np.ndarray, np.ndarray]:
+    """The quiet moments (``spans``) of the take filtered by ``sos`` (the whole take, so each
+    piece carries what the filter made of the words before it), joined, and their lengths."""
+    from scipy.signal import sosfilt
+
+    def filtered():
+        state = np.zeros((sos.shape[0], 2))
+        for block in iter_mono(source):
+            y, state = sosfilt(sos, block, zi=state)
+            yield y
+
+    pieces = _cut_spans(filtered(), spans)
+    return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
+
+
+def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: float) -> float:
+    """The peak the quiet moments still show at ``f0`` after the take has been passed through the
+    inverse of a peaking response of ``gain_db`` whose poles have the Q ``pole_q``: its
+    least-squares height (dB) in the shape of that response, as the quiet spectrum sees it."""
+    q = pole_q / 10.0 ** (gain_db / 40.0)
+    quiet, lengths = _unrung(source, _peaking_sos(f0, -gain_db, q, source.fs), spans)
+    low = grid_hz[grid_hz <= LOW_RANGE_HZ * 2.0]
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, low, FRAME_S)
+    if spectrum.frames < MIN_FRAMES:
+        return float("nan")
+    inside = (low >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (low <= f0 * 2.0 ** (FIT_WIDTHS / q))
+    f = low[inside]
+    shape = _smeared_db(f, f0, 1.0, q, spectrum.kernel)
+    columns = np.stack((shape, np.ones(f.size), np.log2(f / f0)), axis=1)
+    return float(np.linalg.lstsq(columns, spectrum.level_db[inside], rcond=None)[0][0])
 
 
 def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
@@ -533,17 +602,20 @@ def _candidates(quiet: _Quiet, inside: np.ndarray) -> list[tuple[float, int]]:
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
-           min_width_hz: float = 0.0) -> list[tuple[float, ResonancePeak]]:
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0,
+           ringing: bool = False) -> list[tuple[float, ResonancePeak]]:
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
-    least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB."""
+    least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
+    ``ringing`` (the quiet moments), a peak under DECAY_TOP_HZ may stand up to UNRUNG_TOP_DB:
+    its gain may be the ring's, and stage 8 reads it again (:func:`_with_decay_q`)."""
     accepted = []
     for _, i in _candidates(quiet, inside):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
-        if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
+        top_db = UNRUNG_TOP_DB if ringing and f0 < DECAY_TOP_HZ else MAX_GAIN_DB
+        if not MIN_GAIN_DB <= gain <= top_db or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
                 or f0 / q < min_width_hz:
             continue
         share = _standing_share(grid_hz, quiet.halves_db, f0, gain, q, quiet.kernel)
@@ -552,19 +624,37 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
     return accepted
 
 
-def _with_decay_q(source: TakeSource, spans: list[tuple[int, int]], peak: ResonancePeak) -> ResonancePeak:
-    """A low, narrow peak read on the quiet moments with its Q from the decay after words
-    (:func:`_decay_q`; see the module's stage 8), else as it is. The cookbook prototype's poles
-    (its denominator ``s^2 + s w0 / (A Q) + w0^2``) have the Q ``A Q``: the peak's Q is the
-    poles' over ``A``, with ``A`` from the fitted gain; the centre and gain stay the fit's."""
+def _with_decay_q(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePeak) -> ResonancePeak:
+    """A low, narrow peak read on the quiet moments with its centre and poles' Q from the ring
+    after words (:func:`_decay_ring`) and its gain where undoing it leaves the quiet moments
+    flat (:func:`_unrung_gain`; see the module's stage 8), else as it is. The cookbook
+    prototype's poles (its denominator ``s^2 + s w0 / (A Q) + w0^2``) have the Q ``A Q``: the
+    peak's Q is the poles' over ``A``."""
     amplitude = 10.0 ** (peak.gain_db / 40.0)
-    pole_q = amplitude * peak.q
-    if peak.frequency_hz >= DECAY_TOP_HZ or pole_q < DECAY_MIN_POLE_Q:
+    if peak.frequency_hz >= DECAY_TOP_HZ or amplitude * peak.q < DECAY_MIN_POLE_Q:
         return peak
-    pole_q = _decay_q(source, spans, peak.frequency_hz)
-    if pole_q is None or not MIN_Q <= pole_q / amplitude <= MAX_Q:
+    ring = _decay_ring(source, pauses, peak.frequency_hz)
+    if ring is None or not math.isfinite(ring.hz) or abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
         return peak
-    return ResonancePeak(peak.frequency_hz, pole_q / amplitude, peak.gain_db, peak.persistence)
+    gain = _unrung_gain(source, spans, grid_hz, ring)
+    gain = peak.gain_db if gain is None else gain
+    if not MIN_Q <= ring.pole_q / 10.0 ** (gain / 40.0) <= MAX_Q:
+        return peak
+    return ResonancePeak(ring.hz, ring.pole_q / 10.0 ** (gain / 40.0), gain, peak.persistence)
+
+
+def _unrung_gain(source, spans, grid_hz, ring: _Ring) -> float | None:
+    """The gain (0 to UNRUNG_TOP_DB) whose inverse, applied to the take, leaves no peak at the ring's
+    centre in the quiet moments (:func:`_residual_height` crosses zero), dB; None if none does."""
+    from scipy.optimize import brentq
+
+    def height(gain):
+        return _residual_height(source, spans, grid_hz, ring.hz, ring.pole_q, gain)
+
+    low, high = height(0.0), height(UNRUNG_TOP_DB)
+    if not (low > 0.0 > high):
+        return None
+    return float(brentq(height, 0.0, UNRUNG_TOP_DB, xtol=UNRUNG_XTOL_DB))
 
 
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
@@ -614,11 +704,13 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer)] + \
+    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer, ringing=True)] + \
         [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            accepted.append(_with_decay_q(source, pauses, peak) if short else peak)
+            peak = _with_decay_q(source, pauses, spans, grid_hz, peak) if short else peak
+            if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
+                accepted.append(peak)
     if not accepted:
         return ResonanceReport(False, "no narrow persistent peak over the neighbourhood", source.seconds,
                                None, (), None, grid_hz, mean)
