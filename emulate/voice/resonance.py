@@ -142,7 +142,7 @@ LONG_WITHIN_DB = 6.0
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
-#: The low range's Q from the decay after words (:func:`_decay_q`): read for a peak under
+#: The low range's Q from the decay after words (:func:`_decay_ring`): read for a peak under
 #: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
 #: ``A = 10**(gain/40)``) is at least DECAY_MIN_POLE_Q (a broader ring dies within the band
 #: filter's own ring). Measured on the grid, not derived: at 250 Hz the decay read Q no better
@@ -158,8 +158,11 @@ DECAY_STEP_S = 0.005
 DECAY_ABOVE_DB = 6.0
 DECAY_MIN_STEPS = 6
 DECAY_MIN_ENDS = 8
-UNRUNG_XTOL_DB = 0.1
+#: ... and its gain where undoing it leaves the quiet moments flat (:func:`_unrung_gain`), sought
+#: from 0 to UNRUNG_TOP_DB (the fit's own bound: a ring can lift the quiet moments' peak past
+#: MAX_GAIN_DB, measured 31-37 dB at Q 20 and +10/+15 dB on the grid) to within UNRUNG_XTOL_DB.
 UNRUNG_TOP_DB = 40.0
+UNRUNG_XTOL_DB = 0.1
 
 
 @dataclass(frozen=True)
@@ -361,19 +364,12 @@ def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> 
     fitted to it in dB, and its upward zero crossings over that stretch are timed; the medians
     over the pauses (robust to a pause the voice or a breath cut short) give the Q and the
     centre. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
-    from scipy.signal import butter, sosfilt
+    from scipy.signal import butter
 
     band = (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0))
     sos = butter(2, band, btype="bandpass", fs=source.fs, output="sos")
-
-    def filtered():
-        state = np.zeros((sos.shape[0], 2))
-        for block in iter_mono(source):
-            y, state = sosfilt(sos, block, zi=state)
-            yield y
-
     step = max(1, round(DECAY_STEP_S * source.fs))
-    pieces = _cut_spans(filtered(), spans)
+    pieces = _cut_spans(_filtered(source, sos), spans)
     levels = [_level_db(np.square(piece[: piece.size // step * step], dtype=np.float64).reshape(-1, step).mean(axis=1))
               for piece in pieces]
     if not any(level.size for level in levels):
@@ -413,52 +409,53 @@ def _peaking_sos(f0: float, gain_db: float, q: float, fs: float) -> np.ndarray:
     return np.concatenate((b, den))[None, :] / den[0]
 
 
+def _filtered(source: TakeSource, sos: np.ndarray):
+    """The take's mono blocks through the second-order sections ``sos``, one filter state
+    carried across the blocks."""
+    from scipy.signal import sosfilt
+
+    state = np.zeros((sos.shape[0], 2))
+    for block in iter_mono(source):
+        y, state = sosfilt(sos, block, zi=state)
+        yield y
+
+
 def _unrung(source: TakeSource, sos: np.ndarray, spans) -> tuple[np.ndarray, np.ndarray]:
     """The quiet moments (``spans``) of the take filtered by ``sos`` (the whole take, so each
     piece carries what the filter made of the words before it), joined, and their lengths."""
-    from scipy.signal import sosfilt
-
-    def filtered():
-        state = np.zeros((sos.shape[0], 2))
-        for block in iter_mono(source):
-            y, state = sosfilt(sos, block, zi=state)
-            yield y
-
-    pieces = _cut_spans(filtered(), spans)
+    pieces = _cut_spans(_filtered(source, sos), spans)
     return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
 
 
-def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: float) -> float:
+def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: float, kernel=None) -> float:
     """The peak the quiet moments still show at ``f0`` after the take has been passed through the
     inverse of a peaking response of ``gain_db`` whose poles have the Q ``pole_q``: its
-    least-squares height (dB) in the shape of that response, as the quiet spectrum sees it."""
+    least-squares height (dB) in the shape of that response, as the quiet spectrum sees it (its
+    smearing ``kernel`` if known: it depends on the spans alone)."""
     q = pole_q / 10.0 ** (gain_db / 40.0)
     quiet, lengths = _unrung(source, _peaking_sos(f0, -gain_db, q, source.fs), spans)
-    low = grid_hz[grid_hz <= LOW_RANGE_HZ * 2.0]
-    spectrum = _quiet_spectrum(quiet, lengths, source.fs, low, FRAME_S)
+    f = grid_hz[(grid_hz >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (grid_hz <= f0 * 2.0 ** (FIT_WIDTHS / q))]
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, f, FRAME_S, kernel)
     if spectrum.frames < MIN_FRAMES:
         return float("nan")
-    inside = (low >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (low <= f0 * 2.0 ** (FIT_WIDTHS / q))
-    f = low[inside]
-    shape = _smeared_db(f, f0, 1.0, q, spectrum.kernel)
-    columns = np.stack((shape, np.ones(f.size), np.log2(f / f0)), axis=1)
-    return float(np.linalg.lstsq(columns, spectrum.level_db[inside], rcond=None)[0][0])
+    columns = np.stack((_smeared_db(f, f0, 1.0, q, spectrum.kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    return float(np.linalg.lstsq(columns, spectrum.level_db, rcond=None)[0][0])
 
 
 def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
-                    frame_s: float) -> _Quiet:
+                    frame_s: float, kernel=None) -> _Quiet:
     """The mean power spectrum of the quiet moments (pieces of ``lengths`` joined end to end)
     with frames of ``frame_s`` (hop a quarter of it), over all of them and over each half,
-    and the smearing it suffers (:func:`_smearing_kernel`)."""
+    and the smearing it suffers (:func:`_smearing_kernel`, unless given)."""
     grid = FrameGrid.at(fs, frame_s, frame_s / 4.0, padded=True)
+    kernel = _smearing_kernel(grid, lengths) if kernel is None else kernel
     rows = [_on_grid(grid.f_hz, power, grid_hz)
             for power in iter_frame_power(TakeSource.from_array(quiet, fs), grid)] if quiet.size >= grid.size else []
     if sum(r.shape[0] for r in rows) < MIN_FRAMES:
-        return _Quiet(frame_s, _smearing_kernel(grid, lengths), np.zeros(grid_hz.size), (), 0)
+        return _Quiet(frame_s, kernel, np.zeros(grid_hz.size), (), 0)
     rows = np.concatenate(rows)
     halves = tuple(_level_db(chunk.mean(axis=0)) for chunk in np.array_split(rows, 2))
-    return _Quiet(frame_s, _smearing_kernel(grid, lengths), _level_db(rows.mean(axis=0)), halves, rows.shape[0],
-                  quiet.size / fs)
+    return _Quiet(frame_s, kernel, _level_db(rows.mean(axis=0)), halves, rows.shape[0], quiet.size / fs)
 
 
 def _density_db(level_db: np.ndarray, grid: FrameGrid) -> np.ndarray:
@@ -607,7 +604,7 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
     least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
     ``ringing`` (the quiet moments), a peak under DECAY_TOP_HZ may stand up to UNRUNG_TOP_DB:
-    its gain may be the ring's, and stage 8 reads it again (:func:`_with_decay_q`)."""
+    its gain may be the ring's, and stage 8 reads it again (:func:`_read_from_ring`)."""
     accepted = []
     for _, i in _candidates(quiet, inside):
         fit = _fit(grid_hz, quiet.level_db, _excess(quiet.level_db), i, quiet.kernel)
@@ -624,7 +621,7 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0
     return accepted
 
 
-def _with_decay_q(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePeak) -> ResonancePeak:
+def _read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePeak) -> ResonancePeak:
     """A low, narrow peak read on the quiet moments with its centre and poles' Q from the ring
     after words (:func:`_decay_ring`) and its gain where undoing it leaves the quiet moments
     flat (:func:`_unrung_gain`; see the module's stage 8), else as it is. The cookbook
@@ -648,8 +645,11 @@ def _unrung_gain(source, spans, grid_hz, ring: _Ring) -> float | None:
     centre in the quiet moments (:func:`_residual_height` crosses zero), dB; None if none does."""
     from scipy.optimize import brentq
 
+    grid = FrameGrid.at(source.fs, FRAME_S, FRAME_S / 4.0, padded=True)  # as _quiet_spectrum's
+    kernel = _smearing_kernel(grid, np.array([stop - start for start, stop in spans]))
+
     def height(gain):
-        return _residual_height(source, spans, grid_hz, ring.hz, ring.pole_q, gain)
+        return _residual_height(source, spans, grid_hz, ring.hz, ring.pole_q, gain, kernel)
 
     low, high = height(0.0), height(UNRUNG_TOP_DB)
     if not (low > 0.0 > high):
@@ -708,7 +708,7 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
         [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            peak = _with_decay_q(source, pauses, spans, grid_hz, peak) if short else peak
+            peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
             if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
                 accepted.append(peak)
     if not accepted:
