@@ -22,7 +22,8 @@ included. So the finder reads the resonance where the voice is absent:
    blur a narrow low peak, and the fit undoes that rather than reading a low Q), plus a level
    and a tilt, by least squares on the spectrum (dB) within four of its widths: frequency,
    gain and Q;
-5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
+5. accepted: gain 4 to 30 dB (a peak under 160 Hz on the quiet moments up to 40 dB until
+   stage 8 reads its gain again) and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
    fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
    half as high as the fit in both halves of the quiet material (persistent; the height
    each half shows is the least-squares scale of the fitted response, as the quiet
@@ -42,31 +43,43 @@ included. So the finder reads the resonance where the voice is absent:
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``);
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5):
-   its Q from the ring after the words instead. Under a voice whose pitch covers the peak
-   only the pauses are free of the voice, and the peak rings into them: at 100 Hz, Q 20 and
-   +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise alone through
-   the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s more after
-   each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
-   ``tests/resonance_grid.py``). But the ring itself is the resonance's poles sounding on their own: in a band
-   of +-20 % around the centre, the power from each pause's start falls at
-   ``20 pi f0 / (Q_pole ln 10)`` dB/s; the median slope over the pauses gives the poles'
-   Q (on that grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40),
-   and the peak's Q is that over ``A`` (the fit's gain, still too high where the ring is
-   strong: see below).
+   its centre, Q and gain from the ring after the words instead. Under a voice whose pitch
+   covers the peak only the pauses are free of the voice, and the peak rings into them: at
+   100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
+   alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
+   more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
+   ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
+   peaking response's excess power ``|H|^2 - 1`` is ``(A^4 - 1)`` times its poles' band-pass
+   shape, and a free ring's spectrum has that shape too. But the ring itself is the poles
+   sounding on their own: in a band of +-20 % around the centre, the power from each pause's
+   start falls at ``20 pi f0 / (Q_pole ln 10)`` dB/s and the ring crosses zero at
+   ``f0 sqrt(1 - 1 / (4 Q_pole^2))``; the medians over the pauses give the poles' Q (on that
+   grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40) and the centre
+   (there within 0.1 %). The gain is then the one whose inverse (the cookbook cut at that centre
+   with the poles' Q: its zeros cancel the poles, whatever the voice did before), applied to the
+   whole take, leaves the quiet moments flat at the centre (the least-squares height of the
+   peak's shape left there crosses zero, Brent's method from 0 to 40 dB); the peak's Q is the
+   poles' over ``A``. A fit standing above 30 dB there is kept until so read (the ring lifted
+   three Q 20 peaks to 31-37 dB) and reported only if the gain read is at most 30 dB. The
+   inverse must sit on the poles to a small part of their bandwidth ``f0 / Q_pole`` (2-4 Hz at
+   100 Hz): the quiet spectrum's centre, up to 0.9 Hz off, left a ring that read 6-10 dB too
+   high, hence the zero crossings.
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
 the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
 takes; at 100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes
-there are 30 s; ``tests/resonance_grid.py`` says why with numbers). Still weak: a low peak
-inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only
-moments are the pauses, and after each word the peak rings on for longer than most pauses
-last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps
-between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise
-(stage 8 measured it). Reading the Q from the ring (stage 8) brought that corner from 11 to
-14 of 24 grid cases (the whole grid from 253 to 256 of 288, controls still none); the misses
-left there are mostly Q 20, and Q 10 at +15 dB, where the pauses' fitted gain stays 6-17 dB
-too high, so ``A`` is too big and the Q 31-62 % low (or no peak accepted: +10 and +15 dB
-at Q 20); one +6 dB Q 2 peak reads its Q 35 % high and another is not accepted.
+there are 30 s; ``tests/resonance_grid.py`` says why with numbers). The weakest corner was a
+low peak inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only
+noise-only moments are the pauses, and after each word the peak rings on for longer than most
+pauses last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the
+gaps between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
+Reading the Q from the ring brought that corner from 11 to 14 of 24 grid cases, reading the
+centre and gain from it too (stage 8) to 21 of 24 (all 48 cases at 100 Hz: 36 to 43; the whole
+grid 268 to 275 of 288, no case lost; controls still none). Left there: +15 dB at Q 20 and 48 kHz, where the ring
+stands so far over the room's noise that a residue of it (the poles' Q read 5 % low) keeps the
+height from crossing zero until the cut is too deep (read +24.5 dB, Q 45 % low); and two +6 dB
+Q 2 peaks (poles' Q 2.8, no ring to read): one reads its Q 35 % high, the other is not found
+(a broad low bump barely stands over its +-1 octave neighbourhood).
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -142,12 +155,13 @@ LONG_WITHIN_DB = 6.0
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
-#: The low range's Q from the decay after words (:func:`_decay_ring`): read for a peak under
+#: The low range's centre and Q from the ring after words (:func:`_decay_ring`): read for a peak under
 #: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
 #: ``A = 10**(gain/40)``) is at least DECAY_MIN_POLE_Q (a broader ring dies within the band
 #: filter's own ring). Measured on the grid, not derived: at 250 Hz the decay read Q no better
 #: than the quiet spectrum (55 vs 66 of 72 cases; broad peaks, Q 5, read 30-66 % high), at 100 Hz
-#: under a 110 Hz voice better (14 vs 11 of 24); between the two it is untested. The band:
+#: under a 110 Hz voice better (14 vs 11 of 24; 21 with the centre and gain read from the ring
+#: too); between the two it is untested. The band:
 #: +-DECAY_BAND/2 of the centre (a 2nd-order Butterworth band-pass); the power read every
 #: DECAY_STEP_S, s, down to DECAY_ABOVE_DB over the band's quiet floor (its QUIET_PERCENTILE), dB,
 #: over at least DECAY_MIN_STEPS steps, in at least DECAY_MIN_ENDS pauses.
@@ -632,7 +646,7 @@ def _read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonanceP
         return peak
     ring = _decay_ring(source, pauses, peak.frequency_hz)
     if ring is None or not math.isfinite(ring.hz) or abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
-        return peak
+        return peak  # no ring, or another peak's (farther than stage 7's one peak)
     gain = _unrung_gain(source, spans, grid_hz, ring)
     gain = peak.gain_db if gain is None else gain
     if not MIN_Q <= ring.pole_q / 10.0 ** (gain / 40.0) <= MAX_Q:
