@@ -74,12 +74,13 @@ noise-only moments are the pauses, and after each word the peak rings on for lon
 pauses last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the
 gaps between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
 Reading the Q from the ring brought that corner from 11 to 14 of 24 grid cases, reading the
-centre and gain from it too (stage 8) to 21 of 24 (all 48 cases at 100 Hz: 36 to 43; the whole
-grid 268 to 275 of 288, no case lost; controls still none). Left there: +15 dB at Q 20 and 48 kHz, where the ring
-stands so far over the room's noise that a residue of it (the poles' Q read 5 % low) keeps the
-height from crossing zero until the cut is too deep (read +24.5 dB, Q 45 % low); and two +6 dB
-Q 2 peaks (poles' Q 2.8, no ring to read): one reads its Q 35 % high, the other is not found
-(a broad low bump barely stands over its +-1 octave neighbourhood).
+centre and gain from it too (stage 8) to 21 of 24 (all 48 cases at 100 Hz: 36 to 43; the
+whole grid 268 to 275 of 288, no case lost; controls still none). Left there: +15 dB at Q 20
+and 48 kHz, where the ring stands so far over the room's noise that a residue of it (the
+poles' Q read 5 % low) keeps the height from crossing zero until the cut is too deep (read
++24.5 dB, Q 45 % low); and two +6 dB Q 2 peaks (poles' Q 2.8, no ring to read): one reads its
+Q 35 % high, the other is not found (a broad low bump barely stands over its +-1 octave
+neighbourhood).
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
