@@ -178,6 +178,13 @@ DECAY_MIN_ENDS = 8
 #: MAX_GAIN_DB, measured 31-37 dB at Q 20 and +10/+15 dB on the grid) to within UNRUNG_XTOL_DB.
 UNRUNG_TOP_DB = 40.0
 UNRUNG_XTOL_DB = 0.1
+#: ... unless the ring's band holds least after a cut of one gain (:func:`_least_ring_gain`): a dip
+#: at least LEAST_RING_DIP_DB deep either side on a scan in steps of LEAST_RING_STEP_DB. Measured
+#: on the grid's 100 Hz cases under a 110 Hz voice: the band's power over the gain had a dip only
+#: at Q 20 (0.2-6.4 dB deep on its shallower side, at 1-1.5 dB under the gain applied); elsewhere
+#: it fell with every 0.5 dB step of the scan (no rise at all), so 1 dB is clear of a wiggle.
+LEAST_RING_STEP_DB = 1.0
+LEAST_RING_DIP_DB = 1.0
 
 
 @dataclass(frozen=True)
@@ -379,12 +386,8 @@ def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> 
     fitted to it in dB, and its upward zero crossings over that stretch are timed; the medians
     over the pauses (robust to a pause the voice or a breath cut short) give the Q and the
     centre. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
-    from scipy.signal import butter
-
-    band = (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0))
-    sos = butter(2, band, btype="bandpass", fs=source.fs, output="sos")
     step = max(1, round(DECAY_STEP_S * source.fs))
-    pieces = _cut_spans(_filtered(source, sos), spans)
+    pieces = _cut_spans(_filtered(source, _ring_band(f0, source.fs)), spans)
     levels = [_level_db(np.square(piece[: piece.size // step * step], dtype=np.float64).reshape(-1, step).mean(axis=1))
               for piece in pieces]
     if not any(level.size for level in levels):
@@ -402,6 +405,15 @@ def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> 
         return None
     pole_q = 20.0 / math.log(10.0) * math.pi * f0 / -slope
     return _Ring(pole_q, float(np.nanmedian(crossings)) / math.sqrt(1.0 - 1.0 / (4.0 * pole_q**2)))
+
+
+def _ring_band(f0: float, fs: float) -> np.ndarray:
+    """The band the ring is read in: +-DECAY_BAND/2 of ``f0``, a 2nd-order Butterworth band-pass
+    (second-order sections)."""
+    from scipy.signal import butter
+
+    return butter(2, (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0)), btype="bandpass",
+                  fs=fs, output="sos")
 
 
 def _crossing_hz(y: np.ndarray, fs: float) -> float:
@@ -648,7 +660,8 @@ def _read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonanceP
     ring = _decay_ring(source, pauses, peak.frequency_hz)
     if ring is None or not math.isfinite(ring.hz) or abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
         return peak  # no ring, or another peak's (farther than stage 7's one peak)
-    gain = _unrung_gain(source, spans, grid_hz, ring)
+    gain = _least_ring_gain(source, spans, ring)
+    gain = _unrung_gain(source, spans, grid_hz, ring) if gain is None else gain
     gain = peak.gain_db if gain is None else gain
     if not MIN_Q <= ring.pole_q / 10.0 ** (gain / 40.0) <= MAX_Q:
         return peak
@@ -670,6 +683,41 @@ def _unrung_gain(source, spans, grid_hz, ring: _Ring) -> float | None:
     if not (low > 0.0 > high):
         return None
     return float(brentq(height, 0.0, UNRUNG_TOP_DB, xtol=UNRUNG_XTOL_DB))
+
+
+def _ring_left_db(source, spans, ring: _Ring, gain_db: float) -> float:
+    """The power (dB) the quiet moments (``spans``) hold in the ring's band (:func:`_ring_band`)
+    after the take has been passed through the inverse of a peaking response of ``gain_db`` whose
+    poles are the ring's."""
+    cut = _peaking_sos(ring.hz, -gain_db, ring.pole_q / 10.0 ** (gain_db / 40.0), source.fs)
+    pieces = _cut_spans(_filtered(source, np.concatenate((cut, _ring_band(ring.hz, source.fs)))), spans)
+    energy, count = sum(float(np.sum(np.square(p, dtype=np.float64))) for p in pieces), sum(p.size for p in pieces)
+    return float(_level_db(np.array(energy / max(count, 1))))
+
+
+def _least_ring_gain(source, spans, ring: _Ring) -> float | None:
+    """The gain whose inverse leaves the least of the ring in the quiet moments, where that is a
+    clear dip (LEAST_RING_DIP_DB either side on a scan of LEAST_RING_STEP_DB from 0 to
+    UNRUNG_TOP_DB, then Brent's method between the dip's neighbours), dB; None without one.
+
+    The inverse's zeros cancel the ring's poles at any gain; a gain too low leaves a narrower peak
+    whose poles still ring after each word, one too high a broad dip whose own poles ring the words'
+    tail into the pauses. Where the ring stands far over the room's noise, those leftovers dwarf
+    the room's noise (which a deeper cut only lowers), so the band's power dips at the gain that
+    undoes the peak; where it does not, the power only falls with the cut, and
+    :func:`_unrung_gain` reads the gain instead."""
+    from scipy.optimize import minimize_scalar
+
+    gains = np.arange(0.0, UNRUNG_TOP_DB + LEAST_RING_STEP_DB / 2.0, LEAST_RING_STEP_DB)
+    left = np.array([_ring_left_db(source, spans, ring, gain) for gain in gains])
+    for i in range(1, gains.size - 1):
+        after = left[i:]
+        rise = after[: np.argmax(np.append(after[1:] < left[i], True)) + 1].max() - left[i]
+        if left[i] <= min(left[i - 1], left[i + 1]) and min(left[:i].max() - left[i], rise) >= LEAST_RING_DIP_DB:
+            found = minimize_scalar(lambda gain: _ring_left_db(source, spans, ring, gain), method="bounded",
+                                    bounds=(gains[i - 1], gains[i + 1]), options={"xatol": UNRUNG_XTOL_DB})
+            return float(found.x)
+    return None
 
 
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
