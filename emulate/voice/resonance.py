@@ -55,15 +55,23 @@ included. So the finder reads the resonance where the voice is absent:
    start falls at ``20 pi f0 / (Q_pole ln 10)`` dB/s and the ring crosses zero at
    ``f0 sqrt(1 - 1 / (4 Q_pole^2))``; the medians over the pauses give the poles' Q (on that
    grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40) and the centre
-   (there within 0.1 %). The gain is then the one whose inverse (the cookbook cut at that centre
-   with the poles' Q: its zeros cancel the poles, whatever the voice did before), applied to the
-   whole take, leaves the quiet moments flat at the centre (the least-squares height of the
-   peak's shape left there crosses zero, Brent's method from 0 to 40 dB); the peak's Q is the
-   poles' over ``A``. A fit standing above 30 dB there is kept until so read (the ring lifted
-   three Q 20 peaks to 31-37 dB) and reported only if the gain read is at most 30 dB. The
-   inverse must sit on the poles to a small part of their bandwidth ``f0 / Q_pole`` (2-4 Hz at
-   100 Hz): the quiet spectrum's centre, up to 0.9 Hz off, left a ring that read 6-10 dB too
-   high, hence the zero crossings.
+   (there within 0.1 %). The gain is then read through the inverse (the cookbook cut at that
+   centre with the poles' Q: its zeros cancel the poles at any gain, whatever the voice did
+   before), applied to the whole take: where the quiet moments' power in the ring's band has a
+   clear dip over the cut's gain (at least 1 dB either side, scanned in 1 dB steps from 0 to
+   40 dB, then Brent's method), the gain is at the dip: a cut too shallow leaves the poles
+   ringing, one too deep rings the words' tail into the pauses through its own broad poles, and
+   where the ring stands far over the room's noise both outweigh the room's noise, which a deeper
+   cut only lowers. Without a dip (a weaker ring: the band's power falls with every step) the
+   gain is the one that leaves the quiet moments flat at the centre (the least-squares height
+   of the peak's shape left there crosses zero, Brent's method from 0 to 40 dB). The peak's Q
+   is the poles' over ``A``. A fit standing above 30 dB there is kept until so read (the ring
+   lifted three Q 20 peaks to 31-37 dB) and reported only if the gain read is at most 30 dB.
+   The inverse must sit on the poles to a small part of their bandwidth ``f0 / Q_pole`` (2-4 Hz
+   at 100 Hz): the quiet spectrum's centre, up to 0.9 Hz off, left a ring that read 6-10 dB too
+   high, hence the zero crossings; and where the ring is strong even the poles' Q read 5 % low
+   leaves a residue that keeps the flat height from crossing zero until the cut is too deep
+   (+15 dB at Q 20 and 48 kHz read +24.5 dB, Q 45 % low; at the dip +13.3 dB, Q 4 % high).
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
 the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
@@ -75,12 +83,14 @@ pauses last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 
 gaps between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
 Reading the Q from the ring brought that corner from 11 to 14 of 24 grid cases, reading the
 centre and gain from it too (stage 8) to 21 of 24 (all 48 cases at 100 Hz: 36 to 43; the
-whole grid 268 to 275 of 288, no case lost; controls still none). Left there: +15 dB at Q 20
-and 48 kHz, where the ring stands so far over the room's noise that a residue of it (the
-poles' Q read 5 % low) keeps the height from crossing zero until the cut is too deep (read
-+24.5 dB, Q 45 % low); and two +6 dB Q 2 peaks (poles' Q 2.8, no ring to read): one reads its
-Q 35 % high, the other is not found (a broad low bump barely stands over its +-1 octave
-neighbourhood).
+whole grid 268 to 275 of 288, no case lost; controls still none), and the gain at the ring's
+dip to 22 (100 Hz: 44 of 48; WHOLEGRID). Left there: two +6 dB Q 2 peaks (poles' Q 2.8, no
+ring to read): one reads its Q 35 % high (the fit's span, set from the start's width guess,
+ends short of the broad peak's skirts), the other is not found (the broad low bump stands only
+2.1-2.3 dB over its +-1 octave neighbourhood, which the grid's low end at 60 Hz cuts off and
+the bump itself fills; over the neighbourhood less +-1/2 octave it stands 5.4 dB and fits
+within 2 % and Q 10 %, but candidates read that way near 60 Hz made an 8 s control report a
++4.2 dB Q 2.1 bump at 86 Hz, so they are not used).
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
@@ -180,9 +190,10 @@ UNRUNG_TOP_DB = 40.0
 UNRUNG_XTOL_DB = 0.1
 #: ... unless the ring's band holds least after a cut of one gain (:func:`_least_ring_gain`): a dip
 #: at least LEAST_RING_DIP_DB deep either side on a scan in steps of LEAST_RING_STEP_DB. Measured
-#: on the grid's 100 Hz cases under a 110 Hz voice: the band's power over the gain had a dip only
-#: at Q 20 (0.2-6.4 dB deep on its shallower side, at 1-1.5 dB under the gain applied); elsewhere
-#: it fell with every 0.5 dB step of the scan (no rise at all), so 1 dB is clear of a wiggle.
+#: on the grid's 100 Hz cases under a 110 Hz voice (0.5 dB steps): the band's power over the gain
+#: had a dip only at Q 20 (0.2-6.4 dB deep on its shallower side; at 5.5 and 9 dB for +6 dB, 10
+#: and 10.5 for +10, 14 and 13.5 for +15); elsewhere it fell with every step (no rise at all), so
+#: 1 dB is clear of a wiggle.
 LEAST_RING_STEP_DB = 1.0
 LEAST_RING_DIP_DB = 1.0
 
