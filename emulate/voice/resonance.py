@@ -73,24 +73,25 @@ included. So the finder reads the resonance where the voice is absent:
    leaves a residue that keeps the flat height from crossing zero until the cut is too deep
    (+15 dB at Q 20 and 48 kHz read +24.5 dB, Q 45 % low; at the dip +13.3 dB, Q 4 % high).
 
-Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
-the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
-takes; at 100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes
-there are 30 s; ``tests/resonance_grid.py`` says why with numbers). The weakest corner was a
-low peak inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only
-noise-only moments are the pauses, and after each word the peak rings on for longer than most
-pauses last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the
-gaps between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise.
-Reading the Q from the ring brought that corner from 11 to 14 of 24 grid cases, reading the
-centre and gain from it too (stage 8) to 21 of 24 (all 48 cases at 100 Hz: 36 to 43; the
-whole grid 268 to 275 of 288, no case lost; controls still none), and the gain at the ring's
-dip to 22 (100 Hz: 44 of 48; WHOLEGRID). Left there: two +6 dB Q 2 peaks (poles' Q 2.8, no
-ring to read): one reads its Q 35 % high (the fit's span, set from the start's width guess,
-ends short of the broad peak's skirts), the other is not found (the broad low bump stands only
-2.1-2.3 dB over its +-1 octave neighbourhood, which the grid's low end at 60 Hz cuts off and
-the bump itself fills; over the neighbourhood less +-1/2 octave it stands 5.4 dB and fits
-within 2 % and Q 10 %, but candidates read that way near 60 Hz made an 8 s control report a
-+4.2 dB Q 2.1 bump at 86 Hz, so they are not used).
+Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints the
+table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s takes; at
+100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes there are 30 s;
+``tests/resonance_grid.py`` says why with numbers). The weakest corner was a low peak inside the
+voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only moments are the
+pauses, and after each word the peak rings on for longer than most pauses last (at Q 20 and +6
+dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps between words are 0.05-0.2
+s): the pauses show the ring, not the room's steady noise. Reading the Q from the ring brought
+that corner from 11 to 14 of 24 grid cases, reading the centre and gain from it too (stage 8) to
+21 of 24 (all 48 cases at 100 Hz: 36 to 43; the whole grid 268 to 275 of 288, no case lost;
+controls still none), and the gain at the ring's dip to 22 (the dip was there in 4 of the 18
+cases stage 8 reads, all at Q 20, and read them within 1.8 dB; 100 Hz: 44 of 48; the whole grid
+276 of 288, no case lost; controls none). Left there: two +6 dB Q 2 peaks (poles' Q 2.8, no ring
+to read): one reads its Q 35 % high (the fit's span, set from the start's width guess, ends
+short of the broad peak's skirts), the other is not found (the broad low bump stands only
+2.1-2.3 dB over its +-1 octave neighbourhood, which the grid's low end at 60 Hz cuts off and the
+bump itself fills; over the neighbourhood less +-1/2 octave it stands 5.4 dB and fits within 2 %
+and Q 10 %, but candidates read that way near 60 Hz made an 8 s control report a +4.2 dB Q 2.1
+bump at 86 Hz, so they are not used).
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
