@@ -25,7 +25,8 @@ included. So the finder reads the resonance where the voice is absent:
    then again from the fitted Q, and the fit repeated from its result: a low narrow peak's
    first guess scatters, and a span too narrow for the peak leaves its skirts to the level
    and tilt (on the long frames of stage 6: four widths of the first guess, one fit);
-5. accepted: gain 4 to 30 dB and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
+5. accepted: gain 4 to 30 dB (a peak under 160 Hz on the quiet moments up to 40 dB until
+   stage 8 reads its gain again) and Q 1.5 to 40 (narrow: broad tilts are not ringing), a
    fit that explains the peak (RMS misfit under a quarter of the gain), standing at least
    half as high as the fit in both halves of the quiet material (persistent; the height
    each half shows is the least-squares scale of the fitted response, as the quiet
@@ -45,31 +46,55 @@ included. So the finder reads the resonance where the voice is absent:
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``);
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5):
-   its Q from the ring after the words instead. Under a voice whose pitch covers the peak
-   only the pauses are free of the voice, and the peak rings into them: at 100 Hz, Q 20 and
-   +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise alone through
-   the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s more after
-   each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
-   ``tests/resonance_grid.py``). But the ring itself is the resonance's poles sounding on their own: in a band
-   of +-20 % around the centre, the power from each pause's start falls at
-   ``20 pi f0 / (Q_pole ln 10)`` dB/s; the median slope over the pauses gives the poles'
-   Q (on that grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40),
-   and the peak's Q is that over ``A`` (the fit's gain, still too high where the ring is
-   strong: see below).
+   its centre, Q and gain from the ring after the words instead. Under a voice whose pitch
+   covers the peak only the pauses are free of the voice, and the peak rings into them: at
+   100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
+   alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
+   more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
+   ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
+   peaking response's excess power ``|H|^2 - 1`` is ``(A^4 - 1)`` times its poles' band-pass
+   shape, and a free ring's spectrum has that shape too. But the ring itself is the poles
+   sounding on their own: in a band of +-20 % around the centre, the power from each pause's
+   start falls at ``20 pi f0 / (Q_pole ln 10)`` dB/s and the ring crosses zero at
+   ``f0 sqrt(1 - 1 / (4 Q_pole^2))``; the medians over the pauses give the poles' Q (on that
+   grid's 100 Hz cases within about 10 % of ``A Q`` for ``A Q`` from 7 to 40) and the centre
+   (there within 0.1 %). The gain is then read through the inverse (the cookbook cut at that
+   centre with the poles' Q: its zeros cancel the poles at any gain, whatever the voice did
+   before), applied to the whole take: where the quiet moments' power in the ring's band has a
+   clear dip over the cut's gain (at least 1 dB either side, scanned in 1 dB steps from 0 to
+   40 dB, then Brent's method), the gain is at the dip: a cut too shallow leaves the poles
+   ringing, one too deep rings the words' tail into the pauses through its own broad poles, and
+   where the ring stands far over the room's noise both outweigh the room's noise, which a deeper
+   cut only lowers. Without a dip (a weaker ring: the band's power falls with every step) the
+   gain is the one that leaves the quiet moments flat at the centre (the least-squares height
+   of the peak's shape left there crosses zero, Brent's method from 0 to 40 dB). The peak's Q
+   is the poles' over ``A``. A fit standing above 30 dB there is kept until so read (the ring
+   lifted three Q 20 peaks to 31-37 dB) and reported only if the gain read is at most 30 dB.
+   The inverse must sit on the poles to a small part of their bandwidth ``f0 / Q_pole`` (2-4 Hz
+   at 100 Hz): the quiet spectrum's centre, up to 0.9 Hz off, left a ring that read 6-10 dB too
+   high, hence the zero crossings; and where the ring is strong even the poles' Q read 5 % low
+   leaves a residue that keeps the flat height from crossing zero until the cut is too deep
+   (+15 dB at Q 20 and 48 kHz read +24.5 dB, Q 45 % low; at the dip +13.3 dB, Q 4 % high).
 
-Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints
-the table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s
-takes; at 100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes
-there are 30 s; ``tests/resonance_grid.py`` says why with numbers). Still weak: a low peak
-inside the voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only
-moments are the pauses, and after each word the peak rings on for longer than most pauses
-last (at Q 20 and +6 dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps
-between words are 0.05-0.2 s): the pauses show the ring, not the room's steady noise
-(stage 8 measured it). Reading the Q from the ring (stage 8) brought that corner from 11 to
-14 of 24 grid cases (the whole grid from 253 to 256 of 288, controls still none); the misses
-left there are mostly Q 20, and Q 10 at +15 dB, where the pauses' fitted gain stays 6-17 dB
-too high, so ``A`` is too big and the Q 31-62 % low (or no peak accepted: +10 and +15 dB
-at Q 20); one +6 dB Q 2 peak reads its Q 35 % high and another is not accepted.
+Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints the
+table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s takes; at
+100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes there are 30 s;
+``tests/resonance_grid.py`` says why with numbers). The weakest corner was a low peak inside the
+voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only moments are the
+pauses, and after each word the peak rings on for longer than most pauses last (at Q 20 and +6
+dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps between words are 0.05-0.2
+s): the pauses show the ring, not the room's steady noise. Reading the Q from the ring brought
+that corner from 11 to 14 of 24 grid cases, reading the centre and gain from it too (stage 8) to
+21 of 24 (all 48 cases at 100 Hz: 36 to 43; the whole grid 268 to 275 of 288, no case lost;
+controls still none), and the gain at the ring's dip to 22 (the dip was there in 4 of the 18
+cases stage 8 reads, all at Q 20, and read them within 1.8 dB; 100 Hz: 44 of 48; the whole grid
+276 of 288, no case lost; controls none). Left there: two +6 dB Q 2 peaks (poles' Q 2.8, no ring
+to read): one reads its Q 35 % high (the fit's span, set from the start's width guess, ends
+short of the broad peak's skirts), the other is not found (the broad low bump stands only
+2.1-2.3 dB over its +-1 octave neighbourhood, which the grid's low end at 60 Hz cuts off and the
+bump itself fills; over the neighbourhood less +-1/2 octave it stands 5.4 dB and fits within 2 %
+and Q 10 %, but candidates read that way near 60 Hz made an 8 s control report a +4.2 dB Q 2.1
+bump at 86 Hz, so they are not used).
 
 The fit's span (stage 4: six half-gain widths, set again from the fitted Q; before, four widths
 of the first guess) brought 250 Hz-1.6 kHz from 136 to 141 of 144 grid cases (RMS Q error 14.2
@@ -143,12 +168,18 @@ STANDING_SCALE = 0.5
 PERSISTENT_SHARE = 1.0
 #: ... and its largest RMS misfit as a share of its gain.
 MAX_MISFIT = 1.0 / 4.0
-#: The fit reads the spectrum within this many half-gain widths (in octaves, 1/Q) of the centre,
-#: the span set again from the fitted Q and refitted this many times (module docstring, stage 4).
-#: Measured on the grid, not derived: at 250 Hz-1.6 kHz (144 cases) 4 widths of the first guess
-#: read the Q with 14.2 % RMS error, 6 widths 11.6 % but with 2 cases lost, 6 with one refit
-#: 11.7 % and none lost (4 with one refit: 12.0 %, 2 lost).
-FIT_WIDTHS = 6.0
+#: A fit reads the spectrum within this many half-gain widths (in octaves, 1/Q) of the centre
+#: (the long frames' fit, stage 6, and stage 8's height: four widths of the first guess) ...
+FIT_WIDTHS = 4.0
+#: ... the quiet moments' fit this many, its span set again from the fitted Q and refitted this
+#: many times (module docstring, stage 4). Measured on the grid, not derived: at 250 Hz-1.6 kHz
+#: (144 cases) 4 widths of the first guess read the Q with 14.2 % RMS error, 6 widths 11.6 %
+#: but with 2 cases lost, 6 with one refit 11.7 % and none lost (4 with one refit: 12.0 %, 2
+#: lost). Not on the long frames: there a wider span reaches towards the voice's pitch and the
+#: grid's 60 Hz bottom (with 6 widths 4 cases at 100 Hz under a 210 Hz voice were lost, 2 not
+#: found; with the span set again from the fitted Q a +6 dB Q 5 peak's misfit rose from 0.7 to
+#: 1.7 dB and it was not accepted).
+QUIET_FIT_WIDTHS = 6.0
 FIT_REPEATS = 1
 #: Candidates fitted at most (strongest first).
 MAX_CANDIDATES = 24
@@ -165,18 +196,13 @@ LONG_WITHIN_DB = 6.0
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
-#: The long frames' fit reads this many half-gain widths of the first guess, once (not FIT_WIDTHS,
-#: FIT_REPEATS): a wider span reaches towards the voice's pitch and the grid's bottom at 100 Hz
-#: (measured on the grid: with 6 widths 4 cases at 100 Hz under a 210 Hz voice were lost, 2 not
-#: found; with the span set again from the fitted Q a +6 dB Q 5 peak's misfit rose from 0.7 to
-#: 1.7 dB and it was not accepted).
-LONG_FIT_WIDTHS = 4.0
-#: The low range's Q from the decay after words (:func:`_decay_q`): read for a peak under
+#: The low range's centre and Q from the ring after words (:func:`_decay_ring`): read for a peak under
 #: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
 #: ``A = 10**(gain/40)``) is at least DECAY_MIN_POLE_Q (a broader ring dies within the band
 #: filter's own ring). Measured on the grid, not derived: at 250 Hz the decay read Q no better
 #: than the quiet spectrum (55 vs 66 of 72 cases; broad peaks, Q 5, read 30-66 % high), at 100 Hz
-#: under a 110 Hz voice better (14 vs 11 of 24); between the two it is untested. The band:
+#: under a 110 Hz voice better (14 vs 11 of 24; 21 with the centre and gain read from the ring
+#: too); between the two it is untested. The band:
 #: +-DECAY_BAND/2 of the centre (a 2nd-order Butterworth band-pass); the power read every
 #: DECAY_STEP_S, s, down to DECAY_ABOVE_DB over the band's quiet floor (its QUIET_PERCENTILE), dB,
 #: over at least DECAY_MIN_STEPS steps, in at least DECAY_MIN_ENDS pauses.
@@ -187,6 +213,19 @@ DECAY_STEP_S = 0.005
 DECAY_ABOVE_DB = 6.0
 DECAY_MIN_STEPS = 6
 DECAY_MIN_ENDS = 8
+#: ... and its gain where undoing it leaves the quiet moments flat (:func:`_unrung_gain`), sought
+#: from 0 to UNRUNG_TOP_DB (the fit's own bound: a ring can lift the quiet moments' peak past
+#: MAX_GAIN_DB, measured 31-37 dB at Q 20 and +10/+15 dB on the grid) to within UNRUNG_XTOL_DB.
+UNRUNG_TOP_DB = 40.0
+UNRUNG_XTOL_DB = 0.1
+#: ... unless the ring's band holds least after a cut of one gain (:func:`_least_ring_gain`): a dip
+#: at least LEAST_RING_DIP_DB deep either side on a scan in steps of LEAST_RING_STEP_DB. Measured
+#: on the grid's 100 Hz cases under a 110 Hz voice (0.5 dB steps): the band's power over the gain
+#: had a dip only at Q 20 (0.2-6.4 dB deep on its shallower side; at 5.5 and 9 dB for +6 dB, 10
+#: and 10.5 for +10, 14 and 13.5 for +15); elsewhere it fell with every step (no rise at all), so
+#: 1 dB is clear of a wiggle.
+LEAST_RING_STEP_DB = 1.0
+LEAST_RING_DIP_DB = 1.0
 
 
 @dataclass(frozen=True)
@@ -298,7 +337,7 @@ class _Quiet:
     halves_db: tuple[np.ndarray, ...]
     frames: int
     seconds: np.ndarray | float = 0.0
-    fit_widths: float = FIT_WIDTHS
+    fit_widths: float = QUIET_FIT_WIDTHS
     fit_repeats: int = FIT_REPEATS
 
 
@@ -367,60 +406,126 @@ def _cut_spans(blocks, spans: list[tuple[int, int]]) -> list[np.ndarray]:
     return [np.concatenate(piece or [np.zeros(0, np.float32)]) for piece in pieces]
 
 
-def _decay_q(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> float | None:
-    """The pole Q of a resonance at ``f0`` read from its free decay after each word (see
+@dataclass(frozen=True)
+class _Ring:
+    """A resonance's free ring after the words: its poles' Q and its undamped centre, Hz."""
+
+    pole_q: float
+    hz: float
+
+
+def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> _Ring | None:
+    """The poles of a resonance near ``f0`` read from its free decay after each word (see
     DECAY_BAND) and the ``spans`` of the pauses (:func:`_quiet_spans`: each from a word's end);
     None when fewer than DECAY_MIN_ENDS decays could be read.
 
     Once its excitation stops, a second-order resonance's output is its poles' free ring,
-    ``exp(-sigma t) cos(w t)`` with ``sigma = pi f0 / Q_pole`` (the impulse response of a
-    second-order system, e.g. A. Oppenheim, A. Willsky, Signals and Systems, sec. 6.5; from
-    memory): its power falls at ``20 sigma / ln 10`` dB/s whatever the voice did before. So
+    ``exp(-sigma t) cos(w_d t)`` with ``sigma = pi f0 / Q_pole`` and ``w_d = 2 pi f0
+    sqrt(1 - 1 / (4 Q_pole^2))`` (the impulse response of a second-order system, e.g. A.
+    Oppenheim, A. Willsky, Signals and Systems, sec. 6.5; from memory): its power falls at
+    ``20 sigma / ln 10`` dB/s whatever the voice did before, and it crosses zero at ``w_d``. So
     in a band around ``f0`` the power of each pause is read every DECAY_STEP_S from its start
     (a word's end) until it comes within DECAY_ABOVE_DB of the band's quiet floor, a line is
-    fitted to it in dB, and the median slope over the pauses (robust to a pause the voice or a
-    breath cut short) gives the Q. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
-    from scipy.signal import butter, sosfilt
-
-    band = (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0))
-    sos = butter(2, band, btype="bandpass", fs=source.fs, output="sos")
-
-    def filtered():
-        state = np.zeros((sos.shape[0], 2))
-        for block in iter_mono(source):
-            y, state = sosfilt(sos, block, zi=state)
-            yield y
-
+    fitted to it in dB, and its upward zero crossings over that stretch are timed; the medians
+    over the pauses (robust to a pause the voice or a breath cut short) give the Q and the
+    centre. The band filter's own ring is far shorter (DECAY_MIN_POLE_Q)."""
     step = max(1, round(DECAY_STEP_S * source.fs))
+    pieces = _cut_spans(_filtered(source, _ring_band(f0, source.fs)), spans)
     levels = [_level_db(np.square(piece[: piece.size // step * step], dtype=np.float64).reshape(-1, step).mean(axis=1))
-              for piece in _cut_spans(filtered(), spans)]
+              for piece in pieces]
     if not any(level.size for level in levels):
         return None
     floor = np.percentile(np.concatenate(levels), QUIET_PERCENTILE) + DECAY_ABOVE_DB
-    slopes = []
-    for level in levels:
+    slopes, crossings = [], []
+    for piece, level in zip(pieces, levels):
         below = np.flatnonzero(level <= floor)
         stop = below[0] if below.size else level.size
         if stop >= DECAY_MIN_STEPS:
             slopes.append(np.polyfit(np.arange(stop) * step / source.fs, level[:stop], 1)[0])
+            crossings.append(_crossing_hz(piece[: stop * step], source.fs))
     slope = float(np.median(slopes)) if len(slopes) >= DECAY_MIN_ENDS else 0.0
-    return 20.0 / math.log(10.0) * math.pi * f0 / -slope if slope < 0.0 else None
+    if slope >= 0.0:
+        return None
+    pole_q = 20.0 / math.log(10.0) * math.pi * f0 / -slope
+    return _Ring(pole_q, float(np.nanmedian(crossings)) / math.sqrt(1.0 - 1.0 / (4.0 * pole_q**2)))
+
+
+def _ring_band(f0: float, fs: float) -> np.ndarray:
+    """The band the ring is read in: +-DECAY_BAND/2 of ``f0``, a 2nd-order Butterworth band-pass
+    (second-order sections)."""
+    from scipy.signal import butter
+
+    return butter(2, (f0 * (1.0 - DECAY_BAND / 2.0), f0 * (1.0 + DECAY_BAND / 2.0)), btype="bandpass",
+                  fs=fs, output="sos")
+
+
+def _crossing_hz(y: np.ndarray, fs: float) -> float:
+    """The frequency of a (nearly) sinusoidal stretch from its upward zero crossings (each
+    placed by linear interpolation between samples), Hz; NaN with fewer than three."""
+    up = np.flatnonzero((y[:-1] < 0.0) & (y[1:] >= 0.0))
+    if up.size < 3:
+        return float("nan")
+    at = up + y[up] / (y[up] - y[up + 1])
+    return float((up.size - 1) * fs / (at[-1] - at[0]))
+
+
+def _peaking_sos(f0: float, gain_db: float, q: float, fs: float) -> np.ndarray:
+    """The cookbook's digital peaking biquad (its analog prototype bilinear-transformed, as
+    one second-order section; R. Bristow-Johnson, audio EQ cookbook, "peakingEQ")."""
+    a, w0 = 10.0 ** (gain_db / 40.0), 2.0 * math.pi * f0 / fs
+    alpha = math.sin(w0) / (2.0 * q)
+    b = np.array([1.0 + alpha * a, -2.0 * math.cos(w0), 1.0 - alpha * a])
+    den = np.array([1.0 + alpha / a, -2.0 * math.cos(w0), 1.0 - alpha / a])
+    return np.concatenate((b, den))[None, :] / den[0]
+
+
+def _filtered(source: TakeSource, sos: np.ndarray):
+    """The take's mono blocks through the second-order sections ``sos``, one filter state
+    carried across the blocks."""
+    from scipy.signal import sosfilt
+
+    state = np.zeros((sos.shape[0], 2))
+    for block in iter_mono(source):
+        y, state = sosfilt(sos, block, zi=state)
+        yield y
+
+
+def _unrung(source: TakeSource, sos: np.ndarray, spans) -> tuple[np.ndarray, np.ndarray]:
+    """The quiet moments (``spans``) of the take filtered by ``sos`` (the whole take, so each
+    piece carries what the filter made of the words before it), joined, and their lengths."""
+    pieces = _cut_spans(_filtered(source, sos), spans)
+    return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
+
+
+def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: float, kernel=None) -> float:
+    """The peak the quiet moments still show at ``f0`` after the take has been passed through the
+    inverse of a peaking response of ``gain_db`` whose poles have the Q ``pole_q``: its
+    least-squares height (dB) in the shape of that response, as the quiet spectrum sees it (its
+    smearing ``kernel`` if known: it depends on the spans alone)."""
+    q = pole_q / 10.0 ** (gain_db / 40.0)
+    quiet, lengths = _unrung(source, _peaking_sos(f0, -gain_db, q, source.fs), spans)
+    f = grid_hz[(grid_hz >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (grid_hz <= f0 * 2.0 ** (FIT_WIDTHS / q))]
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, f, FRAME_S, kernel)
+    if spectrum.frames < MIN_FRAMES:
+        return float("nan")
+    columns = np.stack((_smeared_db(f, f0, 1.0, q, spectrum.kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    return float(np.linalg.lstsq(columns, spectrum.level_db, rcond=None)[0][0])
 
 
 def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
-                    frame_s: float) -> _Quiet:
+                    frame_s: float, kernel=None) -> _Quiet:
     """The mean power spectrum of the quiet moments (pieces of ``lengths`` joined end to end)
     with frames of ``frame_s`` (hop a quarter of it), over all of them and over each half,
-    and the smearing it suffers (:func:`_smearing_kernel`)."""
+    and the smearing it suffers (:func:`_smearing_kernel`, unless given)."""
     grid = FrameGrid.at(fs, frame_s, frame_s / 4.0, padded=True)
+    kernel = _smearing_kernel(grid, lengths) if kernel is None else kernel
     rows = [_on_grid(grid.f_hz, power, grid_hz)
             for power in iter_frame_power(TakeSource.from_array(quiet, fs), grid)] if quiet.size >= grid.size else []
     if sum(r.shape[0] for r in rows) < MIN_FRAMES:
-        return _Quiet(frame_s, _smearing_kernel(grid, lengths), np.zeros(grid_hz.size), (), 0)
+        return _Quiet(frame_s, kernel, np.zeros(grid_hz.size), (), 0)
     rows = np.concatenate(rows)
     halves = tuple(_level_db(chunk.mean(axis=0)) for chunk in np.array_split(rows, 2))
-    return _Quiet(frame_s, _smearing_kernel(grid, lengths), _level_db(rows.mean(axis=0)), halves, rows.shape[0],
-                  quiet.size / fs)
+    return _Quiet(frame_s, kernel, _level_db(rows.mean(axis=0)), halves, rows.shape[0], quiet.size / fs)
 
 
 def _density_db(level_db: np.ndarray, grid: FrameGrid) -> np.ndarray:
@@ -458,7 +563,7 @@ def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Q
 
     halves = tuple(mean(part) for part in np.array_split(np.arange(rows.shape[0]), 2))
     seconds = usable.sum(axis=0) * min(grid.hop_s, LONG_FRAME_S)  # the time the frames hold, overlaps once
-    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, LONG_FIT_WIDTHS, 0)
+    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, FIT_WIDTHS, 0)
 
 
 def _excess(level_db: np.ndarray) -> np.ndarray:
@@ -583,17 +688,20 @@ def _candidates(quiet: _Quiet, inside: np.ndarray) -> list[tuple[float, int]]:
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
-           min_width_hz: float = 0.0) -> list[tuple[float, ResonancePeak]]:
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0,
+           ringing: bool = False) -> list[tuple[float, ResonancePeak]]:
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
-    least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB."""
+    least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
+    ``ringing`` (the quiet moments), a peak under DECAY_TOP_HZ may stand up to UNRUNG_TOP_DB:
+    its gain may be the ring's, and stage 8 reads it again (:func:`_read_from_ring`)."""
     accepted = []
     for _, i in _candidates(quiet, inside):
         fit = _fit(grid_hz, quiet, _excess(quiet.level_db), i)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
-        if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
+        top_db = UNRUNG_TOP_DB if ringing and f0 < DECAY_TOP_HZ else MAX_GAIN_DB
+        if not MIN_GAIN_DB <= gain <= top_db or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
                 or f0 / q < min_width_hz:
             continue
         share = _standing_share(grid_hz, quiet, f0, gain, q)
@@ -602,19 +710,76 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray,
     return accepted
 
 
-def _with_decay_q(source: TakeSource, spans: list[tuple[int, int]], peak: ResonancePeak) -> ResonancePeak:
-    """A low, narrow peak read on the quiet moments with its Q from the decay after words
-    (:func:`_decay_q`; see the module's stage 8), else as it is. The cookbook prototype's poles
-    (its denominator ``s^2 + s w0 / (A Q) + w0^2``) have the Q ``A Q``: the peak's Q is the
-    poles' over ``A``, with ``A`` from the fitted gain; the centre and gain stay the fit's."""
+def _read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePeak) -> ResonancePeak:
+    """A low, narrow peak read on the quiet moments with its centre and poles' Q from the ring
+    after words (:func:`_decay_ring`) and its gain where undoing it leaves the quiet moments
+    flat (:func:`_unrung_gain`; see the module's stage 8), else as it is. The cookbook
+    prototype's poles (its denominator ``s^2 + s w0 / (A Q) + w0^2``) have the Q ``A Q``: the
+    peak's Q is the poles' over ``A``."""
     amplitude = 10.0 ** (peak.gain_db / 40.0)
-    pole_q = amplitude * peak.q
-    if peak.frequency_hz >= DECAY_TOP_HZ or pole_q < DECAY_MIN_POLE_Q:
+    if peak.frequency_hz >= DECAY_TOP_HZ or amplitude * peak.q < DECAY_MIN_POLE_Q:
         return peak
-    pole_q = _decay_q(source, spans, peak.frequency_hz)
-    if pole_q is None or not MIN_Q <= pole_q / amplitude <= MAX_Q:
+    ring = _decay_ring(source, pauses, peak.frequency_hz)
+    if ring is None or not math.isfinite(ring.hz) or abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
+        return peak  # no ring, or another peak's (farther than stage 7's one peak)
+    gain = _least_ring_gain(source, spans, ring)
+    gain = _unrung_gain(source, spans, grid_hz, ring) if gain is None else gain
+    gain = peak.gain_db if gain is None else gain
+    if not MIN_Q <= ring.pole_q / 10.0 ** (gain / 40.0) <= MAX_Q:
         return peak
-    return ResonancePeak(peak.frequency_hz, pole_q / amplitude, peak.gain_db, peak.persistence)
+    return ResonancePeak(ring.hz, ring.pole_q / 10.0 ** (gain / 40.0), gain, peak.persistence)
+
+
+def _unrung_gain(source, spans, grid_hz, ring: _Ring) -> float | None:
+    """The gain (0 to UNRUNG_TOP_DB) whose inverse, applied to the take, leaves no peak at the ring's
+    centre in the quiet moments (:func:`_residual_height` crosses zero), dB; None if none does."""
+    from scipy.optimize import brentq
+
+    grid = FrameGrid.at(source.fs, FRAME_S, FRAME_S / 4.0, padded=True)  # as _quiet_spectrum's
+    kernel = _smearing_kernel(grid, np.array([stop - start for start, stop in spans]))
+
+    def height(gain):
+        return _residual_height(source, spans, grid_hz, ring.hz, ring.pole_q, gain, kernel)
+
+    low, high = height(0.0), height(UNRUNG_TOP_DB)
+    if not (low > 0.0 > high):
+        return None
+    return float(brentq(height, 0.0, UNRUNG_TOP_DB, xtol=UNRUNG_XTOL_DB))
+
+
+def _ring_left_db(source, spans, ring: _Ring, gain_db: float) -> float:
+    """The power (dB) the quiet moments (``spans``) hold in the ring's band (:func:`_ring_band`)
+    after the take has been passed through the inverse of a peaking response of ``gain_db`` whose
+    poles are the ring's."""
+    cut = _peaking_sos(ring.hz, -gain_db, ring.pole_q / 10.0 ** (gain_db / 40.0), source.fs)
+    pieces = _cut_spans(_filtered(source, np.concatenate((cut, _ring_band(ring.hz, source.fs)))), spans)
+    energy, count = sum(float(np.sum(np.square(p, dtype=np.float64))) for p in pieces), sum(p.size for p in pieces)
+    return float(_level_db(np.array(energy / max(count, 1))))
+
+
+def _least_ring_gain(source, spans, ring: _Ring) -> float | None:
+    """The gain whose inverse leaves the least of the ring in the quiet moments, where that is a
+    clear dip (LEAST_RING_DIP_DB either side on a scan of LEAST_RING_STEP_DB from 0 to
+    UNRUNG_TOP_DB, then Brent's method between the dip's neighbours), dB; None without one.
+
+    The inverse's zeros cancel the ring's poles at any gain; a gain too low leaves a narrower peak
+    whose poles still ring after each word, one too high a broad dip whose own poles ring the words'
+    tail into the pauses. Where the ring stands far over the room's noise, those leftovers dwarf
+    the room's noise (which a deeper cut only lowers), so the band's power dips at the gain that
+    undoes the peak; where it does not, the power only falls with the cut, and
+    :func:`_unrung_gain` reads the gain instead."""
+    from scipy.optimize import minimize_scalar
+
+    gains = np.arange(0.0, UNRUNG_TOP_DB + LEAST_RING_STEP_DB / 2.0, LEAST_RING_STEP_DB)
+    left = np.array([_ring_left_db(source, spans, ring, gain) for gain in gains])
+    for i in range(1, gains.size - 1):
+        after = left[i:]
+        rise = after[: np.argmax(np.append(after[1:] < left[i], True)) + 1].max() - left[i]
+        if left[i] <= min(left[i - 1], left[i + 1]) and min(left[:i].max() - left[i], rise) >= LEAST_RING_DIP_DB:
+            found = minimize_scalar(lambda gain: _ring_left_db(source, spans, ring, gain), method="bounded",
+                                    bounds=(gains[i - 1], gains[i + 1]), options={"xatol": UNRUNG_XTOL_DB})
+            return float(found.x)
+    return None
 
 
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
@@ -664,11 +829,13 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer)] + \
+    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer, ringing=True)] + \
         [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            accepted.append(_with_decay_q(source, pauses, peak) if short else peak)
+            peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
+            if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
+                accepted.append(peak)
     if not accepted:
         return ResonanceReport(False, "no narrow persistent peak over the neighbourhood", source.seconds,
                                None, (), None, grid_hz, mean)
