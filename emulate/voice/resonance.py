@@ -113,7 +113,7 @@ Walden, from memory; ``nu`` at least 70 for 7 s of quiet moments in 0.2 s frames
 ripple by 0.03 dB. Left at 250 Hz: a +15 dB Q 20 peak reads 20-24 dB
 and its Q 25-80 % off (the ring after words, as at 100 Hz; the same noise without the voice
 reads about 15 dB), a +6 dB Q 20 peak 31 % low; at 630 Hz a +6 dB Q 20 peak 41 % high; at
-100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 % high (over 20 other
+100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 % high (over 10 other
 seeds that case's Q scatters 24 % about +2 %: scatter, not bias) and a +6 dB Q 2 peak's
 centre 4.1 % off.
 
