@@ -436,7 +436,7 @@ class TestDecayAfterWords:
 
     @pytest.mark.slow
     @pytest.mark.parametrize("case", [c for c in grid.grid_cases() if c.name in (
-        "fc=250 gain=15 q=20 fs=44100 pitch=110", "fc=250 gain=6 q=20 fs=44100 pitch=210")], ids=str)
+        "fc=250 gain=15 q=20 fs=44100 pitch=110", "fc=250 gain=6 q=20 fs=44100 pitch=210")], ids=lambda c: c.name)
     def test_a_long_ring_at_250_hz(self, case):
         # up to 400 Hz a peak whose poles ring long (poles' Q over 20 on the quiet moments) is read from
         # its ring: from the pauses these read Q +81 % (+24 dB: the ring after words) and -31 %;
