@@ -9,7 +9,6 @@ gives the same output as one call on the whole signal.
 
 from __future__ import annotations
 
-import numpy as np  # noqa: F401  (the docstring example uses it)
 from numba import njit
 
 __all__ = ["HIT_RAIL", "HIT_SLEW", "rail_stage"]
@@ -45,6 +44,7 @@ def rail_stage(x, step, high, low, last, out, hits):
 
     Example
     -------
+    >>> import numpy as np
     >>> x = np.array([[0.0], [2.0], [2.0], [2.0]]); y = np.empty_like(x); h = np.zeros(2, np.int64)
     >>> rail_stage(x, 0.75, 1.0, -1.0, np.zeros(1), y, h); y[:, 0].tolist(), h.tolist()
     ([0.0, 0.75, 1.0, 1.0], [2, 3])
