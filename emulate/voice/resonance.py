@@ -46,8 +46,8 @@ included. So the finder reads the resonance where the voice is absent:
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``);
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5;
-   up to 400 Hz, at least 20): its centre, Q and gain from the ring after the words instead. Under a voice whose pitch
-   covers the peak only the pauses are free of the voice, and the peak rings into them: at
+   up to 400 Hz, at least 20): its centre, Q and gain from the ring after the words instead.
+   Under a voice whose pitch covers the peak only the pauses are free of the voice, and the peak rings into them: at
    100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
    alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
    more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
@@ -76,8 +76,8 @@ included. So the finder reads the resonance where the voice is absent:
    leaves a residue that keeps the flat height from crossing zero until the cut is too deep
    (+15 dB at Q 20 and 48 kHz read +24.5 dB, Q 45 % low; at the dip +13.3 dB, Q 4 % high).
    From 160 to 400 Hz only a peak that rings long is so read: at 250 Hz the ring's Q of the Q 5
-   peaks (poles' Q 6-12) read 25-65 % high, and a +15 dB Q 20 peak under a 110 Hz voice, whose
-   pauses read +24 dB and Q 81 % high (poles' Q 143), read +14.5 dB and Q 3 % low from its ring.
+   peaks (poles' Q 6-12) read 13-64 % high, and a +15 dB Q 20 peak under a 110 Hz voice, whose
+   pauses read +24 dB and Q 81 % high (poles' Q 143 there), read +14.5 dB and Q 3 % low from its ring.
 
 Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints the
 table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s takes; at
@@ -119,8 +119,8 @@ words, as at 100 Hz; the same noise without the voice reads about 15 dB) brought
 there from 46 to 48 (the +15 dB Q 20 one under a 110 Hz voice, +81 % to -3 %, and a +6 dB Q 20
 one, -31 % to -19 %; RMS Q error 17.1 to 10.1 %; 17 cases read so, the gains of the +15 dB Q 20
 peaks from 20-24 dB to 13.5-15.9 dB; none lost, one +10 dB Q 20 case from -12 % to -28 %; 100 Hz
-unchanged, 44 of 48; the whole grid so 283 of 288; controls none). Left: at 630 Hz a +6 dB Q 20 peak 41 % high; at
-100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 % high (over 10 other
+unchanged, 44 of 48; the whole grid so 283 of 288; controls none). Left: at 630 Hz a +6 dB Q
+20 peak 41 % high; at 100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 % high (over 10 other
 seeds that case's Q scatters 24 % about +2 %: scatter, not bias) and a +6 dB Q 2 peak's
 centre 4.1 % off.
 
@@ -226,7 +226,7 @@ DECAY_MIN_POLE_Q = 5.5
 #: on the grid's 48 cases at 250 Hz (none between 250 and 400 Hz): read so, all 17 of poles' Q 22-143
 #: met (2 more than from the pauses: +15 dB Q 20 under a 110 Hz voice, pauses at +24 dB and Q 81 %
 #: high, read +14.5 dB, Q 3 % low; +6 dB Q 20 under 210 Hz, 31 % to 19 % low), but 8 of the 12 of
-#: poles' Q 5.6-11.7 were lost (the Q 5 peaks: the ring's Q read 25-65 % high) and a +10 dB Q 10
+#: poles' Q 5.6-11.7 were lost (the Q 5 peaks: the ring's Q read 13-64 % high) and a +10 dB Q 10
 #: (poles' Q 14) went from 22 % low to 29 % high; 20 lies between (18.5 the highest not read).
 DECAY_HIGH_TOP_HZ = 400.0
 DECAY_HIGH_MIN_POLE_Q = 20.0
