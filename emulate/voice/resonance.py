@@ -47,8 +47,8 @@ included. So the finder reads the resonance where the voice is absent:
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``);
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5;
    up to 400 Hz, at least 20): its centre, Q and gain from the ring after the words instead.
-   Under a voice whose pitch covers the peak only the pauses are free of the voice, and the peak rings into them: at
-   100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
+   Under a voice whose pitch covers the peak only the pauses are free of the voice, and the
+   peak rings into them: at 100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
    alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
    more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
    ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
@@ -120,9 +120,9 @@ there from 46 to 48 (the +15 dB Q 20 one under a 110 Hz voice, +81 % to -3 %, an
 one, -31 % to -19 %; RMS Q error 17.1 to 10.1 %; 17 cases read so, the gains of the +15 dB Q 20
 peaks from 20-24 dB to 13.5-15.9 dB; none lost, one +10 dB Q 20 case from -12 % to -28 %; 100 Hz
 unchanged, 44 of 48; the whole grid so 283 of 288; controls none). Left: at 630 Hz a +6 dB Q
-20 peak 41 % high; at 100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 % high (over 10 other
-seeds that case's Q scatters 24 % about +2 %: scatter, not bias) and a +6 dB Q 2 peak's
-centre 4.1 % off.
+20 peak 41 % high; at 100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 %
+high (over 10 other seeds that case's Q scatters 24 % about +2 %: scatter, not bias) and a
++6 dB Q 2 peak's centre 4.1 % off.
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
