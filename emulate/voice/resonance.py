@@ -48,7 +48,8 @@ included. So the finder reads the resonance where the voice is absent:
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5;
    up to 400 Hz, at least 20): its centre, Q and gain from the ring after the words instead.
    Under a voice whose pitch covers the peak only the pauses are free of the voice, and the
-   peak rings into them: at 100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9 where the room's noise
+   peak rings into them: at 100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9
+   where the room's noise
    alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
    more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
    ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
