@@ -48,11 +48,10 @@ included. So the finder reads the resonance where the voice is absent:
 8. a low narrow peak read on the quiet moments (under 160 Hz, poles' Q ``A Q`` at least 5.5;
    up to 400 Hz, at least 20): its centre, Q and gain from the ring after the words instead.
    Under a voice whose pitch covers the peak only the pauses are free of the voice, and the
-   peak rings into them: at 100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and Q 7.9
-   where the room's noise
-   alone through the same filter, cut at the same moments, gives +11.6 dB, and cutting 0.1 s
-   more after each word gave +15.1 dB (the grid case fc=100 gain=6 q=20 fs=44100 pitch=110 of
-   ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
+   peak rings into them: at 100 Hz, Q 20 and +6 dB the pauses' spectrum gave +22.8 dB and
+   Q 7.9 where the room's noise alone through the same filter, cut at the same moments, gives
+   +11.6 dB, and cutting 0.1 s more after each word gave +15.1 dB (the grid case fc=100
+   gain=6 q=20 fs=44100 pitch=110 of ``tests/resonance_grid.py``). In a spectrum the ring cannot be told from a taller peak: the
    peaking response's excess power ``|H|^2 - 1`` is ``(A^4 - 1)`` times its poles' band-pass
    shape, and a free ring's spectrum has that shape too. But the ring itself is the poles
    sounding on their own: in a band of +-20 % around the centre, the power from each pause's
@@ -80,50 +79,31 @@ included. So the finder reads the resonance where the voice is absent:
    peaks (poles' Q 6-12) read 13-64 % high, and a +15 dB Q 20 peak under a 110 Hz voice, whose
    pauses read +24 dB and Q 81 % high (poles' Q 143 there), read +14.5 dB and Q 3 % low from its ring.
 
-Measured on the controlled grid (``tests/resonance_grid.py``; ``bench_finders.py`` prints the
-table): from 630 Hz up most cases meet frequency within 2 % and Q within 30 % on 8 s takes; at
-100-250 Hz the Q needs more of the room's noise than 8 s hold (the grid's takes there are 30 s;
-``tests/resonance_grid.py`` says why with numbers). The weakest corner was a low peak inside the
-voice's own pitch range (100 Hz under a 110 Hz voice), where the only noise-only moments are the
-pauses, and after each word the peak rings on for longer than most pauses last (at Q 20 and +6
-dB the poles decay at about 96 dB/s, so 40 dB takes 0.4 s; the gaps between words are 0.05-0.2
-s): the pauses show the ring, not the room's steady noise. Reading the Q from the ring brought
-that corner from 11 to 14 of 24 grid cases, reading the centre and gain from it too (stage 8) to
-21 of 24 (all 48 cases at 100 Hz: 36 to 43; the whole grid 268 to 275 of 288, no case lost;
-controls still none), and the gain at the ring's dip to 22 (the dip was there in 4 of the 18
-cases stage 8 reads, all at Q 20, and read them within 1.8 dB; 100 Hz: 44 of 48; the whole grid
-276 of 288, no case lost; controls none). Left there: two +6 dB Q 2 peaks (poles' Q 2.8, no ring
-to read): one read its Q 35 % high (the fit's span, set from the start's width guess, ended
-short of the broad peak's skirts; with the span set again from the fitted Q, stage 4, its Q
-reads 16 % high but its centre 2.2 % off), the other is not found (the broad low bump stands only
-2.1-2.3 dB over its +-1 octave neighbourhood, which the grid's low end at 60 Hz cuts off and the
-bump itself fills; over the neighbourhood less +-1/2 octave it stands 5.4 dB and fits within 2 %
-and Q 10 %, but candidates read that way near 60 Hz made an 8 s control report a +4.2 dB Q 2.1
-bump at 86 Hz, so they are not used).
-
-The fit's span (stage 4: six half-gain widths, set again from the fitted Q; before, four widths
-of the first guess) brought 250 Hz-1.6 kHz from 136 to 141 of 144 grid cases (RMS Q error 14.2
-to 11.7 %; on the same cases with other seeds 137 to 140, 12.3 to 9.8 %, none lost), the
-whole grid from 268 to 273 of 288 before stage 8's ring reading and from 276 to 281 with it
-(RMS Q error 10.5 %; no case lost; controls still none). A reference for the smearing model:
-white noise through the grid's +6 dB Q 20 biquad at 630 Hz, cut at a grid take's quiet moments
-(66 pieces, median 0.08 s) reads the Q +4 % on average over 12 seeds, spread 23 % (uncut:
--2 %, 13 %): the kernel does not over-correct, and a +6 dB Q 20 peak's misses are the
-scatter of 5-8 s of pauses in short pieces, not a bias (0.1 s or 0.3 s frames scatter as
-much). Fitting dB is harmless here: the log of a mean of periodograms is low by
-``10 / ln 10 (psi(nu / 2) - ln(nu / 2))`` dB, ``nu`` its degrees of freedom (e.g. Percival &
-Walden, from memory; ``nu`` at least 70 for 7 s of quiet moments in 0.2 s frames): about
-0.06 dB for a grid cell of one bin, 0.03 dB for two, so the 250 Hz cells (1 or 2 bins each)
-ripple by 0.03 dB. At 250 Hz stage 8 for the peaks of poles' Q at least
-20 (a +15 dB Q 20 peak read 20-24 dB and its Q up to 81 % off from the pauses: the ring after
-words, as at 100 Hz; the same noise without the voice reads about 15 dB) brought the 48 cases
-there from 46 to 48 (the +15 dB Q 20 one under a 110 Hz voice, +81 % to -3 %, and a +6 dB Q 20
-one, -31 % to -19 %; RMS Q error 17.1 to 10.1 %; 17 cases read so, the gains of the +15 dB Q 20
-peaks from 20-24 dB to 13.5-15.9 dB; none lost, one +10 dB Q 20 case from -12 % to -28 %; 100 Hz
-unchanged, 44 of 48; the whole grid so 283 of 288; controls none). Left: at 630 Hz a +6 dB Q
-20 peak 41 % high; at 100 Hz under a 210 Hz voice (the long frames) a +6 dB Q 20 peak 58 %
-high (over 10 other seeds that case's Q scatters 24 % about +2 %: scatter, not bias) and a
-+6 dB Q 2 peak's centre 4.1 % off.
+Measured on the controlled grid (``tests/resonance_grid.py``: 30 s takes, which says why;
+``bench_finders.py`` prints the table): 283 of 288 cases meet frequency within 2 % and Q
+within 30 % of the biquad applied, none of the 24 controls is reported. What each part
+brought, on the grid's seeds (no case lost by any): the Q from the ring (stage 8) took 100 Hz
+under a 110 Hz voice from 11 to 14 of 24, its centre and gain from the ring to 21, the gain at
+the ring's dip to 22; the fit's span set again from the fitted Q (stage 4) took 250 Hz-1.6 kHz
+from 136 to 141 of 144 (with other seeds 137 to 140, RMS Q error 12.3 to 9.8 %); stage 8 for
+long rings up to 400 Hz took 250 Hz from 46 to 48 of 48 (RMS Q error 17.1 to 10.1 %).
+References for the method: white noise through the grid's +6 dB Q 20 biquad at 630 Hz, cut at
+a grid take's quiet moments (66 pieces, median 0.08 s), reads the Q +4 % on average over 12
+seeds, spread 23 % (uncut: -2 %, 13 %), so the smearing kernel does not over-correct and a
++6 dB Q 20 peak's misses are the scatter of 5-8 s of pauses in short pieces, not a bias
+(0.1 s or 0.3 s frames scatter as much); fitting dB is harmless, the log of a mean of
+periodograms being low by ``10 / ln 10 (psi(nu / 2) - ln(nu / 2))`` dB for ``nu`` degrees of
+freedom (e.g. Percival & Walden, from memory: 0.06 dB for a grid cell of one bin, 0.03 dB for
+two). Left, all +6 dB peaks: at 630 Hz a Q 20 peak 41 % high and at 100 Hz under a 210 Hz
+voice (the long frames) a Q 20 peak 58 % high (scatter: over 10 other seeds that case's Q
+scatters 24 % about +2 %); three Q 2 bumps at 100 Hz (poles' Q 2.8, no ring to read): one not
+found (it stands 2.1-2.3 dB over a +-1 octave neighbourhood that the grid's low end at 60 Hz
+cuts off and the bump itself fills; read against the neighbourhood less +-1/2 octave it stood
+5.4 dB and fitted well, but candidates read that way made an 8 s control report a bump at
+86 Hz), two with their centre 2.2 and 4.1 % off. Tried and not kept: the moments quiet in a
+peak's own octave bands rather than in all (more time, 6.3 to 10.8 s at 630 Hz, and the three
+Q 20 misses then met, but 27 broad peaks lost: the voice leaks in at the joins, and a band-pass
+against it cuts a broad peak's neighbourhood).
 
 What this module does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
