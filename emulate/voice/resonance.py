@@ -386,7 +386,11 @@ def _quiet_moments(source: TakeSource, spans: list[tuple[int, int]] | None = Non
     """The take's quiet moments (between words: the room's own noise, through the same
     resonance; :func:`_quiet_spans` unless given), joined end to end (float32). Also the
     joined pieces' lengths (samples)."""
-    pieces = _cut_spans(iter_mono(source), _quiet_spans(source)[0] if spans is None else spans)
+    return _joined(_cut_spans(iter_mono(source), _quiet_spans(source)[0] if spans is None else spans))
+
+
+def _joined(pieces: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """``pieces`` joined end to end (float32), and their lengths (samples)."""
     return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
 
 
@@ -496,8 +500,7 @@ def _filtered(source: TakeSource, sos: np.ndarray):
 def _unrung(source: TakeSource, sos: np.ndarray, spans) -> tuple[np.ndarray, np.ndarray]:
     """The quiet moments (``spans``) of the take filtered by ``sos`` (the whole take, so each
     piece carries what the filter made of the words before it), joined, and their lengths."""
-    pieces = _cut_spans(_filtered(source, sos), spans)
-    return np.concatenate(pieces or [np.zeros(0, np.float32)]), np.array([piece.size for piece in pieces], int)
+    return _joined(_cut_spans(_filtered(source, sos), spans))
 
 
 def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: float, kernel=None) -> float:
@@ -507,12 +510,11 @@ def _residual_height(source, spans, grid_hz, f0: float, pole_q: float, gain_db: 
     smearing ``kernel`` if known: it depends on the spans alone)."""
     q = pole_q / 10.0 ** (gain_db / 40.0)
     quiet, lengths = _unrung(source, _peaking_sos(f0, -gain_db, q, source.fs), spans)
-    f = grid_hz[(grid_hz >= f0 * 2.0 ** (-FIT_WIDTHS / q)) & (grid_hz <= f0 * 2.0 ** (FIT_WIDTHS / q))]
-    spectrum = _quiet_spectrum(quiet, lengths, source.fs, f, FRAME_S, kernel)
+    inside = _within_widths(grid_hz, f0, q, FIT_WIDTHS)
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz[inside], FRAME_S, kernel)
     if spectrum.frames < MIN_FRAMES:
         return float("nan")
-    columns = np.stack((_smeared_db(f, f0, 1.0, q, spectrum.kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
-    return float(np.linalg.lstsq(columns, spectrum.level_db, rcond=None)[0][0])
+    return _heights(grid_hz[inside], f0, 1.0, q, spectrum.kernel, [spectrum.level_db])[0]
 
 
 def _quiet_spectrum(quiet: np.ndarray, lengths: np.ndarray, fs: float, grid_hz: np.ndarray,
@@ -650,14 +652,13 @@ def _fit_span(grid_hz, quiet: _Quiet, centre: float, q_span: float, start) -> tu
     if np.count_nonzero(inside) < 7:
         return None
     f_fit, target = grid_hz[inside], quiet.level_db[inside]
+    bounds = ([span[0], 0.0, 0.3, -400.0, -60.0], [span[1], 40.0, 200.0, 100.0, 60.0])
 
     def misfit(p):
         return _smeared_db(f_fit, p[0], p[1], p[2], quiet.kernel) + p[3] + p[4] * np.log2(f_fit / centre) - target
 
-    start = np.clip(start, [span[0], 0.0, 0.3, -400.0, -60.0], [span[1], 40.0, 200.0, 100.0, 60.0])
     try:
-        result = least_squares(misfit, start, bounds=([span[0], 0.0, 0.3, -400.0, -60.0],
-                                                      [span[1], 40.0, 200.0, 100.0, 60.0]))
+        result = least_squares(misfit, np.clip(start, *bounds), bounds=bounds)
     except ValueError:
         return None
     return result.x, float(np.sqrt(np.mean(result.fun**2)))
@@ -671,19 +672,29 @@ def _standing_share(grid_hz, quiet: _Quiet, f0: float, gain: float, q: float) ->
     half-gain widths either side; a level and a tilt free too): the scale is the height the
     half shows, read from every point of the span rather than from three, so a single noisy
     point neither makes nor breaks it."""
-    widths = quiet.fit_widths
-    inside = (grid_hz >= f0 * 2.0 ** (-widths / q)) & (grid_hz <= f0 * 2.0 ** (widths / q))
-    f = grid_hz[inside]
-    columns = np.stack((_smeared_db(f, f0, gain, q, quiet.kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
-    scales = [np.linalg.lstsq(columns, h[inside], rcond=None)[0][0] for h in quiet.halves_db]
+    inside = _within_widths(grid_hz, f0, q, quiet.fit_widths)
+    scales = _heights(grid_hz[inside], f0, gain, q, quiet.kernel, [h[inside] for h in quiet.halves_db])
     return float(np.mean([scale >= STANDING_SCALE for scale in scales]))
 
 
-def _candidates(quiet: _Quiet, inside: np.ndarray) -> list[tuple[float, int]]:
-    """Local maxima of the quiet spectrum's excess where ``inside``: (excess dB, grid index), strongest first."""
+def _within_widths(grid_hz, f0: float, q: float, widths: float) -> np.ndarray:
+    """The grid points within ``widths`` half-gain widths (``1 / q`` octave each) either side of ``f0``."""
+    return (grid_hz >= f0 * 2.0 ** (-widths / q)) & (grid_hz <= f0 * 2.0 ** (widths / q))
+
+
+def _heights(f, f0: float, gain: float, q: float, kernel, levels) -> list[float]:
+    """How many times the peaking response (``f0``, ``gain``, ``q``, as the quiet spectrum sees it:
+    smeared by ``kernel``) each of ``levels`` (dB at ``f``) shows: its least-squares scale, with a
+    level and a tilt free too."""
+    columns = np.stack((_smeared_db(f, f0, gain, q, kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    return [float(np.linalg.lstsq(columns, level, rcond=None)[0][0]) for level in levels]
+
+
+def _candidates(quiet: _Quiet, excess: np.ndarray, inside: np.ndarray) -> list[tuple[float, int]]:
+    """Local maxima of the quiet spectrum's ``excess`` (:func:`_excess`) where ``inside``: (excess
+    dB, grid index), strongest first."""
     if quiet.frames < MIN_FRAMES:
         return []
-    excess = _excess(quiet.level_db)
     peak = np.zeros(excess.size, bool)
     peak[1:-1] = (excess[1:-1] >= excess[:-2]) & (excess[1:-1] > excess[2:]) & (excess[1:-1] >= CANDIDATE_DB)
     peak &= inside
@@ -697,9 +708,9 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0
     least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
     ``ringing`` (the quiet moments), a peak under DECAY_HIGH_TOP_HZ may stand up to UNRUNG_TOP_DB:
     its gain may be the ring's, and stage 8 reads it again (:func:`_read_from_ring`)."""
-    accepted = []
-    for _, i in _candidates(quiet, inside):
-        fit = _fit(grid_hz, quiet, _excess(quiet.level_db), i)
+    accepted, excess = [], _excess(quiet.level_db)
+    for _, i in _candidates(quiet, excess, inside):
+        fit = _fit(grid_hz, quiet, excess, i)
         if fit is None:
             continue
         f0, gain, q, misfit = fit
@@ -729,9 +740,8 @@ def _read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonanceP
     gain = _least_ring_gain(source, spans, ring)
     gain = _unrung_gain(source, spans, grid_hz, ring) if gain is None else gain
     gain = peak.gain_db if gain is None else gain
-    if not MIN_Q <= ring.pole_q / 10.0 ** (gain / 40.0) <= MAX_Q:
-        return peak
-    return ResonancePeak(ring.hz, ring.pole_q / 10.0 ** (gain / 40.0), gain, peak.persistence)
+    q = ring.pole_q / 10.0 ** (gain / 40.0)
+    return ResonancePeak(ring.hz, q, gain, peak.persistence) if MIN_Q <= q <= MAX_Q else peak
 
 
 def _unrung_gain(source, spans, grid_hz, ring: _Ring) -> float | None:
