@@ -151,7 +151,7 @@ TOP_HZ = 20000.0
 GRID_PER_OCTAVE = 96
 NEIGHBOURHOOD_OCTAVES = 1.0
 #: A candidate's excess over the neighbourhood, dB.
-CANDIDATE_DB = 2.5
+CANDIDATE_DB = 2.0
 #: An accepted peak's fitted gain (dB) and Q ...
 MIN_GAIN_DB = 4.0
 MAX_GAIN_DB = 30.0
@@ -190,6 +190,9 @@ LONG_WITHIN_DB = 6.0
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
+#: ... and narrower than this many of the quiet frames' resolutions (1 / FRAME_S): a broader peak
+#: in the low range is read on the quiet moments.
+BROAD_WIDTHS = 8.0
 #: The low range's centre and Q from the ring after words (:func:`_decay_ring`): read for a peak under
 #: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
 #: ``A = 10**(gain/40)``) is at least DECAY_MIN_POLE_Q (a broader ring dies within the band
@@ -702,7 +705,7 @@ def _candidates(quiet: _Quiet, excess: np.ndarray, inside: np.ndarray) -> list[t
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0,
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0, max_width_hz: float = math.inf,
            ringing: bool = False) -> list[tuple[float, ResonancePeak]]:
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
     least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
@@ -716,7 +719,7 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0
         f0, gain, q, misfit = fit
         top_db = UNRUNG_TOP_DB if ringing and f0 < DECAY_HIGH_TOP_HZ else MAX_GAIN_DB
         if not MIN_GAIN_DB <= gain <= top_db or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
-                or f0 / q < min_width_hz:
+                or not min_width_hz <= f0 / q < max_width_hz:
             continue
         share = _standing_share(grid_hz, quiet, f0, gain, q)
         if share >= PERSISTENT_SHARE:
@@ -843,8 +846,10 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
+    broad = BROAD_WIDTHS / FRAME_S
     fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer, ringing=True)] + \
-        [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
+        [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, longer, broad, ringing=True)] + \
+        [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S, broad)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
