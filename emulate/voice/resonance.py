@@ -705,7 +705,7 @@ def _candidates(quiet: _Quiet, excess: np.ndarray, inside: np.ndarray) -> list[t
     return sorted(found, key=lambda c: -c[0])[:MAX_CANDIDATES]
 
 
-def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0, max_width_hz: float = math.inf,
+def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0,
            ringing: bool = False) -> list[tuple[float, ResonancePeak]]:
     """Accepted peaks of the quiet spectrum where ``inside`` (see the module's stages 3-5), at
     least ``min_width_hz`` wide between the half-gain points, with their RMS misfits, dB. With
@@ -719,7 +719,7 @@ def _peaks(grid_hz, quiet: _Quiet, inside: np.ndarray, min_width_hz: float = 0.0
         f0, gain, q, misfit = fit
         top_db = UNRUNG_TOP_DB if ringing and f0 < DECAY_HIGH_TOP_HZ else MAX_GAIN_DB
         if not MIN_GAIN_DB <= gain <= top_db or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
-                or not min_width_hz <= f0 / q < max_width_hz:
+                or f0 / q < min_width_hz:
             continue
         share = _standing_share(grid_hz, quiet, f0, gain, q)
         if share >= PERSISTENT_SHARE:
@@ -846,10 +846,10 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     mean = _excess(spectrum.level_db)
-    broad = BROAD_WIDTHS / FRAME_S
-    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer, ringing=True)] + \
-        [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, longer, broad, ringing=True)] + \
-        [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S, broad)]
+    broad = _peaks(grid_hz, spectrum, longer, BROAD_WIDTHS / FRAME_S, ringing=True)
+    fitted = [(misfit, peak, True) for misfit, peak in _peaks(grid_hz, spectrum, ~longer, ringing=True) + broad] + \
+        [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
+         if not any(abs(math.log2(peak.frequency_hz / b.frequency_hz)) <= 0.5 / b.q for _, b in broad)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
             peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
