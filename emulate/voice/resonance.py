@@ -187,6 +187,9 @@ LONG_MAX_FRAMES = 480
 LONG_SPAN_HZ = 1600.0
 LONG_GATE_OCTAVES = 1.0 / 3.0
 LONG_WITHIN_DB = 6.0
+LONG_FIT_WIDTHS = FIT_WIDTHS
+LONG_FIT_REPEATS = 0
+LONG_MIN_SPAN_OCTAVES = 0.3
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
@@ -229,6 +232,10 @@ UNRUNG_XTOL_DB = 0.1
 #: 1 dB is clear of a wiggle.
 LEAST_RING_STEP_DB = 1.0
 LEAST_RING_DIP_DB = 1.0
+#: A narrow peak (Q at least REREAD_MIN_Q) found on the quiet moments from DECAY_HIGH_TOP_HZ up is
+#: read again on the moments quiet within +-REREAD_OCTAVES of it alone (:func:`_reread_in_band`).
+REREAD_MIN_Q = math.inf
+REREAD_OCTAVES = 0.5
 
 
 @dataclass(frozen=True)
@@ -342,6 +349,7 @@ class _Quiet:
     seconds: np.ndarray | float = 0.0
     fit_widths: float = QUIET_FIT_WIDTHS
     fit_repeats: int = FIT_REPEATS
+    min_span_octaves: float = 0.0
 
 
 def _quiet_spans(source: TakeSource) -> tuple[list[tuple[int, int]], list[tuple[int, int]]]:
@@ -568,7 +576,8 @@ def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Q
 
     halves = tuple(mean(part) for part in np.array_split(np.arange(rows.shape[0]), 2))
     seconds = usable.sum(axis=0) * min(grid.hop_s, LONG_FRAME_S)  # the time the frames hold, overlaps once
-    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, FIT_WIDTHS, 0)
+    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, LONG_FIT_WIDTHS,
+                  int(LONG_FIT_REPEATS), LONG_MIN_SPAN_OCTAVES)
 
 
 def _excess(level_db: np.ndarray) -> np.ndarray:
@@ -647,7 +656,8 @@ def _fit_span(grid_hz, quiet: _Quiet, centre: float, q_span: float, start) -> tu
     RMS misfit, dB, or None when the span holds under 7 grid points."""
     from scipy.optimize import least_squares
 
-    span = (centre * 2.0 ** (-quiet.fit_widths / q_span), centre * 2.0 ** (quiet.fit_widths / q_span))
+    reach = max(quiet.fit_widths / q_span, quiet.min_span_octaves)
+    span = (centre * 2.0 ** -reach, centre * 2.0 ** reach)
     inside = (grid_hz >= span[0]) & (grid_hz <= span[1])
     if np.count_nonzero(inside) < 7:
         return None
@@ -796,6 +806,44 @@ def _least_ring_gain(source, spans, ring: _Ring) -> float | None:
     return None
 
 
+def _band_quiet_spans(source: TakeSource, f0: float) -> list[tuple[int, int]]:
+    """Runs of 20 ms frames whose power within +-REREAD_OCTAVES of ``f0`` lies within QUIET_WITHIN_DB
+    of that band's quietest tenth, less one frame at each end, as (start, stop) samples."""
+    grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
+    inside = (grid.f_hz >= f0 * 2.0 ** -REREAD_OCTAVES) & (grid.f_hz <= f0 * 2.0 ** REREAD_OCTAVES)
+    power = np.concatenate([np.zeros(0)] + [chunk[:, inside].sum(axis=1) for chunk in iter_frame_power(source, grid)])
+    live = power > 0
+    if not live.any():
+        return []
+    quiet = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
+    return _spans(runs(quiet), 1, grid.hop, source.fs)
+
+
+def _reread_in_band(source: TakeSource, grid_hz, peak: ResonancePeak) -> ResonancePeak:
+    """A narrow peak read again on the moments quiet in its own band (:func:`_band_quiet_spans`),
+    from its first reading; as it is when that fit fails or wanders."""
+    if peak.frequency_hz < DECAY_HIGH_TOP_HZ or peak.q < REREAD_MIN_Q:
+        return peak
+    quiet, lengths = _joined(_cut_spans(iter_mono(source), _band_quiet_spans(source, peak.frequency_hz)))
+    near = _within_widths(grid_hz, peak.frequency_hz, 1.0, 2.0 * REREAD_OCTAVES)
+    spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz[near], FRAME_S)
+    if spectrum.frames < MIN_FRAMES:
+        return peak
+    f0 = peak.frequency_hz
+    i = int(np.argmin(np.abs(grid_hz[near] - f0)))
+    fit = _fit_span(grid_hz[near], spectrum, f0, peak.q,
+                    [f0, peak.gain_db, peak.q, float(spectrum.level_db[i] - peak.gain_db), 0.0])
+    if fit is not None:
+        fit = _fit_span(grid_hz[near], spectrum, f0, float(np.clip(fit[0][2], 0.5, MAX_Q)), fit[0]) or fit
+    if fit is None:
+        return peak
+    (f, gain, q), misfit = fit[0][:3], fit[1]
+    if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
+            or abs(math.log2(f / f0)) > 1 / 24:
+        return peak
+    return ResonancePeak(float(f), float(q), float(gain), peak.persistence)
+
+
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     """Find one narrow, persistent spectral peak in a take: frequency, Q, height, a notch.
 
@@ -847,7 +895,8 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
         [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
+            peak = _reread_in_band(source, grid_hz, _read_from_ring(source, pauses, spans, grid_hz, peak)) \
+                if short else peak
             if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
                 accepted.append(peak)
     if not accepted:
