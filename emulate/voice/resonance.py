@@ -187,8 +187,6 @@ LONG_MAX_FRAMES = 480
 LONG_SPAN_HZ = 1600.0
 LONG_GATE_OCTAVES = 1.0 / 3.0
 LONG_WITHIN_DB = 6.0
-LONG_FIT_WIDTHS = FIT_WIDTHS
-LONG_FIT_REPEATS = 0
 LONG_MIN_SPAN_OCTAVES = 0.3
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
@@ -212,11 +210,12 @@ DECAY_MIN_POLE_Q = 5.5
 #: high, read +14.5 dB, Q 3 % low; +6 dB Q 20 under 210 Hz, 31 % to 19 % low), but 8 of the 12 of
 #: poles' Q 5.6-11.7 were lost (the Q 5 peaks: the ring's Q read 13-64 % high) and a +10 dB Q 10
 #: (poles' Q 14) went from 22 % low to 29 % high; 20 lies between (18.5 the highest not read).
-DECAY_HIGH_TOP_HZ = 400.0
+DECAY_HIGH_TOP_HZ = 1000.0
 DECAY_HIGH_MIN_POLE_Q = 20.0
 DECAY_BAND = 0.4
 DECAY_STEP_S = 0.005
 DECAY_ABOVE_DB = 6.0
+DECAY_HIGH_ABOVE_DB = 14.0
 DECAY_MIN_STEPS = 6
 DECAY_MIN_ENDS = 8
 #: ... and its gain where undoing it leaves the quiet moments flat (:func:`_unrung_gain`), sought
@@ -232,10 +231,6 @@ UNRUNG_XTOL_DB = 0.1
 #: 1 dB is clear of a wiggle.
 LEAST_RING_STEP_DB = 1.0
 LEAST_RING_DIP_DB = 1.0
-#: A narrow peak (Q at least REREAD_MIN_Q) found on the quiet moments from DECAY_HIGH_TOP_HZ up is
-#: read again on the moments quiet within +-REREAD_OCTAVES of it alone (:func:`_reread_in_band`).
-REREAD_MIN_Q = math.inf
-REREAD_OCTAVES = 0.5
 
 
 @dataclass(frozen=True)
@@ -450,7 +445,8 @@ def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> 
               for piece in pieces]
     if not any(level.size for level in levels):
         return None
-    floor = np.percentile(np.concatenate(levels), QUIET_PERCENTILE) + DECAY_ABOVE_DB
+    above = DECAY_ABOVE_DB if f0 < LOW_RANGE_HZ else DECAY_HIGH_ABOVE_DB
+    floor = np.percentile(np.concatenate(levels), QUIET_PERCENTILE) + above
     slopes, crossings = [], []
     for piece, level in zip(pieces, levels):
         below = np.flatnonzero(level <= floor)
@@ -576,8 +572,8 @@ def _long_spectrum(source: TakeSource, grid_hz: np.ndarray, quiet: _Quiet) -> _Q
 
     halves = tuple(mean(part) for part in np.array_split(np.arange(rows.shape[0]), 2))
     seconds = usable.sum(axis=0) * min(grid.hop_s, LONG_FRAME_S)  # the time the frames hold, overlaps once
-    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, LONG_FIT_WIDTHS,
-                  int(LONG_FIT_REPEATS), LONG_MIN_SPAN_OCTAVES)
+    return _Quiet(LONG_FRAME_S, kernel, mean(slice(None)), halves, rows.shape[0], seconds, FIT_WIDTHS, 0,
+                  LONG_MIN_SPAN_OCTAVES)
 
 
 def _excess(level_db: np.ndarray) -> np.ndarray:
@@ -806,44 +802,6 @@ def _least_ring_gain(source, spans, ring: _Ring) -> float | None:
     return None
 
 
-def _band_quiet_spans(source: TakeSource, f0: float) -> list[tuple[int, int]]:
-    """Runs of 20 ms frames whose power within +-REREAD_OCTAVES of ``f0`` lies within QUIET_WITHIN_DB
-    of that band's quietest tenth, less one frame at each end, as (start, stop) samples."""
-    grid = FrameGrid.at(source.fs, GATE_FRAME_S, GATE_FRAME_S)
-    inside = (grid.f_hz >= f0 * 2.0 ** -REREAD_OCTAVES) & (grid.f_hz <= f0 * 2.0 ** REREAD_OCTAVES)
-    power = np.concatenate([np.zeros(0)] + [chunk[:, inside].sum(axis=1) for chunk in iter_frame_power(source, grid)])
-    live = power > 0
-    if not live.any():
-        return []
-    quiet = live & (power <= np.percentile(power[live], QUIET_PERCENTILE) * 10.0 ** (QUIET_WITHIN_DB / 10.0))
-    return _spans(runs(quiet), 1, grid.hop, source.fs)
-
-
-def _reread_in_band(source: TakeSource, grid_hz, peak: ResonancePeak) -> ResonancePeak:
-    """A narrow peak read again on the moments quiet in its own band (:func:`_band_quiet_spans`),
-    from its first reading; as it is when that fit fails or wanders."""
-    if peak.frequency_hz < DECAY_HIGH_TOP_HZ or peak.q < REREAD_MIN_Q:
-        return peak
-    quiet, lengths = _joined(_cut_spans(iter_mono(source), _band_quiet_spans(source, peak.frequency_hz)))
-    near = _within_widths(grid_hz, peak.frequency_hz, 1.0, 2.0 * REREAD_OCTAVES)
-    spectrum = _quiet_spectrum(quiet, lengths, source.fs, grid_hz[near], FRAME_S)
-    if spectrum.frames < MIN_FRAMES:
-        return peak
-    f0 = peak.frequency_hz
-    i = int(np.argmin(np.abs(grid_hz[near] - f0)))
-    fit = _fit_span(grid_hz[near], spectrum, f0, peak.q,
-                    [f0, peak.gain_db, peak.q, float(spectrum.level_db[i] - peak.gain_db), 0.0])
-    if fit is not None:
-        fit = _fit_span(grid_hz[near], spectrum, f0, float(np.clip(fit[0][2], 0.5, MAX_Q)), fit[0]) or fit
-    if fit is None:
-        return peak
-    (f, gain, q), misfit = fit[0][:3], fit[1]
-    if not MIN_GAIN_DB <= gain <= MAX_GAIN_DB or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
-            or abs(math.log2(f / f0)) > 1 / 24:
-        return peak
-    return ResonancePeak(float(f), float(q), float(gain), peak.persistence)
-
-
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     """Find one narrow, persistent spectral peak in a take: frequency, Q, height, a notch.
 
@@ -895,8 +853,7 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
         [(misfit, peak, False) for misfit, peak in _peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)]
     for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
         if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            peak = _reread_in_band(source, grid_hz, _read_from_ring(source, pauses, spans, grid_hz, peak)) \
-                if short else peak
+            peak = _read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
             if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
                 accepted.append(peak)
     if not accepted:
