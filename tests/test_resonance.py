@@ -8,7 +8,7 @@ voice-like takes through a known peaking filter). The issue's targets: frequency
 ``tests/benchmarks/bench_finders.py``, against the centre and Q of the biquad actually applied
 (measured with scipy.signal.freqz, see TestAppliedPeak); the default run checks cases the finder meets and
 controls at one rate; the grid's takes are 30 s (resonance_grid says why) and
-not every case is met yet (284 of 288; the benchmark prints the misses, all +6 dB peaks).
+not every case is met yet (286 of 288; the benchmark prints the misses, all +6 dB peaks).
 """
 
 import numpy as np

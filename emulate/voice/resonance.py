@@ -94,10 +94,8 @@ included. So the finder reads the resonance where the voice is absent:
    14 dB over the band's floor rather than 6 (where the room's noise flattens its end).
 
 Measured on the controlled grid (``tests/resonance_grid.py``: 30 s takes, which says why;
-``bench_finders.py`` prints the table): 284 of 288 cases meet frequency within 2 % and Q
-within 30 % of the biquad applied, none of the 24 controls is reported, before the two changes
-for the Q 2 bumps below (measured on the earlier main, 283 to 285; with the rest, the whole
-grid is still to be measured). What each part
+``bench_finders.py`` prints the table): 286 of 288 cases meet frequency within 2 % and Q
+within 30 % of the biquad applied (RMS Q error 8.0 %), none of the 24 controls is reported. What each part
 brought, on the grid's seeds (no case lost by any): the Q from the ring (stage 8) took 100 Hz
 under a 110 Hz voice from 11 to 14 of 24, its centre and gain from the ring to 21, the gain at
 the ring's dip to 22; the fit's span set again from the fitted Q (stage 4) took 250 Hz-1.6 kHz
@@ -110,8 +108,9 @@ to -2 %, 26 %); candidates from 2 dB rather than 2.5 (stage 3) found a +6 dB Q 2
 110 Hz voice (99.8 Hz, Q 15 % low; it stood 2.3 dB), and a broad low peak read on the quiet
 moments (stage 6) put another, under a 210 Hz voice, from 4.1 % to 1.1 % off (Q 23 % to 4 %
 low) and the Q 2 peaks at 100 Hz under that voice nearer their gain (+10 dB read 13.6 dB,
-now 9.8; +15 dB 18.9 and 16.8, now 14.5 and 13.9): on the earlier main 283 to 285 of 288, RMS
-Q error 8.9 to 8.7 %.
+now 9.8; +15 dB 18.9 and 16.8, now 14.5 and 13.9): measured before the two changes above them
+(stage 8 to 1 kHz, the long frames' least span) were joined, 283 to 285 of 288, RMS Q error
+8.9 to 8.7 %; all together 286, RMS Q error 8.0 %.
 References for the method: white noise through the grid's +6 dB Q 20 biquad at 630 Hz, cut at
 a grid take's quiet moments (66 pieces, median 0.08 s), reads the Q +4 % on average over 12
 seeds, spread 23 % (uncut: -2 %, 13 %), so the smearing kernel does not over-correct and a
