@@ -133,3 +133,9 @@ class TestBadInput:
         result = run(command, takes["clean"], "--plot", tmp_path / "p.gif")
         assert result.exit_code != 0 and "Traceback" not in result.output
         assert not (tmp_path / "p.gif").exists()
+
+
+@pytest.mark.parametrize("command", ["hum", "resonance"])
+def test_unknown_series_is_refused_before_any_take_is_read(command, tmp_path):
+    # the take does not exist: the series is checked first, so its error is the one shown
+    assert_one_line_error(run(command, tmp_path / "gone.wav", "--series", "E7"), "series 'E7': allowed E3")

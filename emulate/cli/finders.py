@@ -25,7 +25,16 @@ _plot_force_option = force_option("an existing --plot file")
 def plot_option(command):
     """``--plot FILE`` and ``--force`` (to replace an existing picture)."""
     return _plot_path_option(_plot_force_option(command))
-series_option = click.option("--series", default="E24", show_default=True,
+
+
+def _series(ctx, param, value):
+    """The series named, checked before any take is read."""
+    from emulate.analog.parts import parse_series
+
+    return parse_series(value)
+
+
+series_option = click.option("--series", default="E24", show_default=True, callback=_series,
                              help="resistor series for the designed notches, IEC 60063")
 
 
