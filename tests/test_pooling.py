@@ -5,9 +5,14 @@ three or more takes, one lying further than the limit from the median of the oth
 they agree within half of it, is set aside, and the reason says which and why.
 """
 
+import numpy as np
 import pytest
 
+from emulate.voice.hum import combine_hum, find_hum
 from emulate.voice.pooling import distinct, outlying
+from emulate.voice.resonance import combine_resonance, find_resonance
+from emulate.voice.sibilance import combine_reports, find_sibilance
+from emulate.voice.takes import TakeSource
 
 
 class TestDistinct:
@@ -33,3 +38,29 @@ class TestOutlying:
         # 2**0.25 * 6000 lies exactly a quarter octave away: not beyond the limit
         assert outlying([6000, 6000, 6000, 6000 * 2**0.25], 0.25)[0] is None
         assert outlying([6000, 6000, 6000, 6000 * 2**0.26], 0.25)[0] == 3
+
+
+class TestRepeatsByTheirAudio:
+    """An exact repeat is the same samples (TakeSource.digest), not the same figures: two
+    different takes that found nothing, of one length, report the same figures (here: too
+    short for every finder, which keeps the check cheap)."""
+
+    @pytest.fixture(scope="class")
+    def noise(self):
+        rng = np.random.default_rng(5)
+        return [0.05 * rng.standard_normal(24000) for _ in range(2)]
+
+    @pytest.mark.parametrize("find, combine", [(find_hum, combine_hum), (find_resonance, combine_resonance),
+                                               (find_sibilance, combine_reports)],
+                             ids=["hum", "resonance", "sibilance"])
+    def test_different_takes_that_found_nothing_are_both_pooled(self, noise, find, combine):
+        reports = [find(x, 48000) for x in (*noise, noise[0])]
+        assert combine(reports, labels=["a", "b", "c"]).set_aside == ("c: an exact repeat of an earlier take",)
+
+    def test_the_same_audio_in_two_files_is_one_take(self, noise, tmp_path):
+        from emulate.audio import stream
+
+        for name, subtype in (("a.wav", "PCM_24"), ("a.flac", "PCM_24")):
+            stream.write_array(tmp_path / name, noise[0][:, None], 48000, subtype=subtype)
+        sources = [TakeSource.from_file(tmp_path / name) for name in ("a.wav", "a.flac")]
+        assert sources[0].digest() == sources[1].digest()

@@ -34,7 +34,7 @@ suggested notches) or look for lines that are not mains harmonics.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -42,7 +42,7 @@ from emulate.errors import BadValueError
 from emulate.voice.frames import FrameGrid, iter_frame_power
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import label_takes, select_takes
-from emulate.voice.takes import TakeSource, dbfs
+from emulate.voice.takes import TakeSource, dbfs, take_finder
 
 __all__ = ["HumLine", "HumReport", "combine_hum", "find_hum"]
 
@@ -130,6 +130,9 @@ class HumReport:
         The present harmonics, by harmonic number.
     set_aside : tuple of str
         Pooled reports only: the takes left out and why (see :func:`combine_hum`).
+    digest : str
+        One take's samples (:meth:`~emulate.voice.takes.TakeSource.digest`): pooling tells exact
+        repeats by it (empty for a pooled report or one made by hand).
     notches : tuple of SuggestedNotch
         The fundamental (if present) and up to three strongest other harmonics, each with
         ``depth = clip(above_programme + 10, 20, 40)`` dB and the highest Q (at most 10)
@@ -148,6 +151,7 @@ class HumReport:
     lines: tuple[HumLine, ...]
     notches: tuple[SuggestedNotch, ...]
     set_aside: tuple[str, ...] = ()
+    digest: str = field(default="", repr=False, compare=False)
 
 
 def _not_found(reason: str, seconds: float, set_aside=()) -> HumReport:
@@ -273,6 +277,7 @@ def _suggestions(lines, drift_hz: float) -> tuple[SuggestedNotch, ...]:
     return tuple(notches)
 
 
+@take_finder
 def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> HumReport:
     """Find mains hum in a take: its fundamental to a few hundredths of a hertz, drift, harmonics.
 
@@ -347,7 +352,8 @@ OUTLIER_OCTAVES = 0.1
 def combine_hum(reports, labels=None) -> HumReport:
     """Pool the hum found in several takes (one session, one mains) into one report.
 
-    Exact repeats are left out and, with three or more takes that found hum, one whose
+    Exact repeats (the same samples, by ``digest``; reports without one, by their figures)
+    are left out and, with three or more takes that found hum, one whose
     fundamental lies far from the others' (another mains family) is set aside
     (:func:`emulate.voice.pooling.select_takes`; ``set_aside`` says which and why). Of the
     rest, the takes that found hum are pooled: the fundamental is their mean weighted by
@@ -385,7 +391,7 @@ def combine_hum(reports, labels=None) -> HumReport:
     if not reports or not all(isinstance(r, HumReport) for r in reports):
         raise BadValueError(f"reports = {reports!r:.80} is not allowed; need one or more HumReport")
     labels = label_takes(len(reports), labels)
-    keys = [(r.seconds, r.fundamental_hz, r.track, r.lines) for r in reports]
+    keys = [r.digest or (r.seconds, r.fundamental_hz, r.track, r.lines) for r in reports]
     kept, aside = select_takes(keys, [r.fundamental_hz for r in reports], labels, OUTLIER_OCTAVES, "fundamental")
     pool = [reports[i] for i in kept]
     seconds = sum(r.seconds for r in pool)

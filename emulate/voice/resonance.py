@@ -161,7 +161,7 @@ from emulate.voice.frames import (BandSummer, FrameGrid, band_floors, iter_frame
 from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import label_takes, select_takes
-from emulate.voice.takes import TakeSource
+from emulate.voice.takes import TakeSource, take_finder
 
 __all__ = ["ResonancePeak", "ResonanceReport", "combine_resonance", "find_resonance", "peaking_db"]
 
@@ -337,6 +337,9 @@ class ResonanceReport:
         The quiet spectrum's excess over the neighbourhood (dB) the finder read, for pictures.
     set_aside : tuple of str
         Pooled reports only: the takes left out and why (see :func:`combine_resonance`).
+    digest : str
+        One take's samples (:meth:`~emulate.voice.takes.TakeSource.digest`): pooling tells exact
+        repeats by it (empty for a pooled report or one made by hand).
     """
 
     found: bool
@@ -348,6 +351,7 @@ class ResonanceReport:
     grid_hz: np.ndarray = field(default=None, repr=False, compare=False)
     excess_db: np.ndarray = field(default=None, repr=False, compare=False)
     set_aside: tuple[str, ...] = ()
+    digest: str = field(default="", repr=False, compare=False)
 
 
 def peaking_db(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:
@@ -870,6 +874,7 @@ def _least_ring_gain(source, spans, ring: _Ring) -> float | None:
     return None
 
 
+@take_finder
 def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     """Find one narrow, persistent spectral peak in a take: frequency, Q, height, a notch.
 
@@ -943,7 +948,8 @@ OUTLIER_OCTAVES = 1.0 / 12.0
 def combine_resonance(reports, labels=None) -> ResonanceReport:
     """Pool the resonance found in several takes (one room, one microphone) into one report.
 
-    Exact repeats are left out and, with three or more takes that found a peak, one whose
+    Exact repeats (the same samples, by ``digest``; reports without one, by their figures)
+    are left out and, with three or more takes that found a peak, one whose
     peak lies more than a semitone from the others' is set aside
     (:func:`emulate.voice.pooling.select_takes`; ``set_aside`` says which and why). The
     resonance is found when at least half the pooled takes found it; its frequency is the
@@ -980,7 +986,7 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
     if not reports or not all(isinstance(r, ResonanceReport) for r in reports):
         raise BadValueError(f"reports = {reports!r:.80} is not allowed; need one or more ResonanceReport")
     labels = label_takes(len(reports), labels)
-    keys = [(r.seconds, r.peak, r.others) for r in reports]
+    keys = [r.digest or (r.seconds, r.peak, r.others) for r in reports]
     peaks = [r.peak.frequency_hz if r.found else float("nan") for r in reports]
     kept, aside = select_takes(keys, peaks, labels, OUTLIER_OCTAVES)
     pool = [reports[i] for i in kept]

@@ -43,7 +43,7 @@ from emulate.voice.frames import (LOG_GRID_HZ, BandSummer, FrameGrid, band_floor
                                   grid_density, iter_frame_power, log_band_edges, peak_on_grid, runs,
                                   smooth_on_grid)
 from emulate.voice.pooling import label_takes, select_takes
-from emulate.voice.takes import TakeSource, check_band, check_seconds, dbfs
+from emulate.voice.takes import TakeSource, check_band, check_seconds, dbfs, take_finder
 
 __all__ = [
     "DEFAULT_SEARCH_BAND_HZ",
@@ -197,6 +197,9 @@ class SibilanceReport:
         ``{"s": SibilantClass, "sh": SibilantClass}``.
     set_aside : tuple of str
         Pooled reports only: the takes left out and why (repeats, one outlying take).
+    digest : str
+        One take's samples (:meth:`~emulate.voice.takes.TakeSource.digest`): pooling tells exact
+        repeats by it (empty for a pooled report or one made by hand).
     """
 
     usable: bool
@@ -218,6 +221,7 @@ class SibilanceReport:
     target: str = "s"
     classes: dict = field(default_factory=dict, repr=False, compare=False)
     set_aside: tuple[str, ...] = ()
+    digest: str = field(default="", repr=False, compare=False)
 
 
 # --------------------------------------------------------------------------- describing a class
@@ -401,6 +405,7 @@ def _source(x, fs) -> TakeSource:
 # --------------------------------------------------------------------------- public API
 
 
+@take_finder
 def find_sibilance(x, fs: float | None = None, *, search_band_hz=DEFAULT_SEARCH_BAND_HZ,
                    target: str = "s") -> SibilanceReport:
     """Find a take's sibilance (/s/-like and /sh/-like apart) and suggest a notch for one of them.
@@ -475,7 +480,8 @@ def combine_reports(reports, labels=None) -> SibilanceReport:
     Each class is pooled on its own: the takes' mean spectra are averaged weighted by
     their sibilant time of that class (not by loudness, so one louder take does not
     drag the result), then described like one take. A take that is an exact repeat of
-    one already pooled is left out; with three or more usable takes, one whose target
+    one already pooled (the same samples, by ``digest``; reports without one, by their
+    figures) is left out; with three or more usable takes, one whose target
     peak lies more than a quarter octave from the others' (while they agree) is set
     aside. ``set_aside`` names each take left out and why. The search band is the union.
 
@@ -512,8 +518,8 @@ def combine_reports(reports, labels=None) -> SibilanceReport:
     if len({r.target for r in reports}) != 1:
         raise BadValueError("combine_reports needs reports with one target")
     target = reports[0].target
-    keys = [(r.seconds, tuple(sorted((k, c.sibilant_seconds, c.peak_hz, c.sibilant_level_db)
-                                     for k, c in r.classes.items()))) for r in reports]
+    keys = [r.digest or (r.seconds, tuple(sorted((k, c.sibilant_seconds, c.peak_hz, c.sibilant_level_db)
+                                                 for k, c in r.classes.items()))) for r in reports]
     peaks = [r.peak_hz if r.usable else float("nan") for r in reports]
     kept, aside = select_takes(keys, peaks, labels, OUTLIER_OCTAVES)
     pool = [reports[i] for i in kept]
