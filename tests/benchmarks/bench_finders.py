@@ -9,6 +9,10 @@ Tables (the issue's targets beside each):
 - resonance (``tests/resonance_grid.py``): frequency within 2 % and Q within 30 % of the
   filter actually applied, by centre and Q, and frequency-only; the misses; controls
   reported (target none).
+Cost: the resonance finder's time on one take, median of 3 in process: 30 s grid takes without
+a peak and with a ringing one at 100 Hz and 630 Hz, and continuous room tone (noise alone) of
+3 s and 5 s, where the whole take is quiet and the fits have most to do; with ``--against REV``
+also the finder as it was at git revision REV, in the same run, and the ratio.
 Memory: peak resident memory (ru_maxrss, in a fresh interpreter) of each finder on a take
 file of --short and --long minutes (a 30 s invented take repeated); the target is no growth
 with the take's length.
@@ -18,14 +22,17 @@ choose N coprime with 2, 3 and 4 (e.g. 7, 11) so that every background, rate and
 Figures measured on a loaded machine are indicative only. Writes JSON (--json, default
 bench-out/finders.json).
 
-Run: python3 tests/benchmarks/bench_finders.py [--stride 1] [--only sibilance,hum,resonance,memory]
+Run: python3 tests/benchmarks/bench_finders.py [--stride 1] [--only sibilance,hum,resonance,cost,memory]
+    [--against REV]
 """
 
 from __future__ import annotations
 
 import argparse
 import collections
+import importlib.util
 import json
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -137,6 +144,44 @@ def bench_resonance(stride: int) -> dict:
     return {"found": found, "cases": total, "rows": rows, "controls_reported": reported}
 
 
+def _finder_at(revision: str):
+    """``find_resonance`` as the module was at git ``revision`` (loaded beside today's package)."""
+    source = subprocess.run(["git", "-C", str(ROOT), "show", f"{revision}:emulate/voice/resonance.py"],
+                            check=True, capture_output=True, text=True).stdout
+    spec = importlib.util.spec_from_loader(f"resonance_at_{revision}", loader=None)
+    module = importlib.util.module_from_spec(spec)
+    exec(compile(source, f"{revision}:resonance.py", "exec"), module.__dict__)
+    return module.find_resonance
+
+
+def _median_s(find, x, fs, repeats: int = 3) -> float:
+    times = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        find(x, fs)
+        times.append(time.perf_counter() - start)
+    return statistics.median(times)
+
+
+def bench_cost(against: str | None) -> dict:
+    from emulate.voice.resonance import find_resonance
+
+    fs, rng = 48000, np.random.default_rng(5)
+    case = resonance_grid.Case
+    takes = {"30 s, no peak": resonance_grid.make_case(resonance_grid.controls()[-1]),
+             "30 s, +10 dB Q 20 at 100 Hz": resonance_grid.make_case(case(100.0, 10.0, 20.0, fs, 110.0)),
+             "30 s, +10 dB Q 20 at 630 Hz": resonance_grid.make_case(case(630.0, 10.0, 20.0, fs, 110.0)),
+             "room tone 3 s": 0.05 * rng.standard_normal(3 * fs),
+             "room tone 5 s": 0.05 * rng.standard_normal(5 * fs)}
+    finders = {"now": find_resonance} | ({against: _finder_at(against)} if against else {})
+    rows = {name: {label: _median_s(find, x, fs) for label, find in finders.items()} for name, x in takes.items()}
+    print("\nresonance finder's cost, s (median of 3, in process)")
+    for name, row in rows.items():
+        ratio = f"  ({row[against] / row['now']:.1f}x faster now)" if against else ""
+        print(f"  {name:30s} " + "  ".join(f"{label} {t:6.2f}" for label, t in row.items()) + ratio)
+    return rows
+
+
 _MEASURE = """
 import resource, sys
 from emulate.voice.takes import TakeSource
@@ -187,7 +232,8 @@ def bench_memory(short_min: float, long_min: float) -> dict:
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--stride", type=int, default=1, help="run every N-th grid case")
-    parser.add_argument("--only", default="sibilance,hum,resonance,memory", help="comma-separated parts to run")
+    parser.add_argument("--only", default="sibilance,hum,resonance,cost,memory", help="comma-separated parts to run")
+    parser.add_argument("--against", help="with cost: also time the resonance finder as at this git revision")
     parser.add_argument("--short", type=float, default=2.0, help="short take for the memory check, minutes")
     parser.add_argument("--long", type=float, default=20.0, help="long take for the memory check, minutes")
     parser.add_argument("--json", type=Path, default=ROOT / "bench-out" / "finders.json", help="JSON output path")
@@ -200,6 +246,8 @@ def main(argv=None) -> int:
         figures["hum"] = bench_hum(args.stride)
     if "resonance" in parts:
         figures["resonance"] = bench_resonance(args.stride)
+    if "cost" in parts:
+        figures["cost"] = bench_cost(args.against)
     if "memory" in parts:
         figures["memory"] = bench_memory(args.short, args.long)
     args.json.parent.mkdir(parents=True, exist_ok=True)
