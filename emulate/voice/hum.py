@@ -17,9 +17,14 @@ and at most 96 short spectra, whatever the take's length):
 4. frequency: in each segment, each present harmonic's peak refined by a parabola
    through the log powers of its three highest bins (common practice, no source),
    divided by ``k`` and averaged weighted by ``k**2`` times its prominence (higher
-   harmonics pin the frequency ``k`` times tighter); the take's frequency is the mean over
+   harmonics pin the frequency ``k`` times tighter); the take's frequency is the median over
    segments weighted the same way (a segment where the voice sits on the line counts
-   less), its drift the span (max - min) of the segment frequencies;
+   less, and one it pulls far off does not drag the rest: on the hum grid a -50 dBFS
+   60.1 Hz line under a 95 Hz voice read 60.218 and 60.113 Hz in the two segments it stood
+   out in, their weighted mean 0.062 Hz off; the weighted median over the grid's 64 cases:
+   worst 0.014 Hz, RMS 0.0022 Hz, against 0.062 and 0.0078 Hz for the mean, and over 128
+   more on other seeds worst 0.008 Hz, RMS 0.0013 and 0.0010 Hz, against 0.007 Hz, 0.0012
+   and 0.0009 Hz), its drift the span (max - min) of the segment frequencies;
 5. levels and notches: each present harmonic's level (dBFS) and its level over the
    programme in the 1/3-octave band around it (the line taken out), and a suggested notch
    for the fundamental and the three strongest other harmonics (see :class:`HumReport`).
@@ -253,6 +258,19 @@ def _segment_fundamental(power, f_hz, mains, present) -> tuple[float, float, flo
     return float(np.average(estimates, weights=weights)), standing / len(present), float(np.sum(weights))
 
 
+def _weighted_median(values, weights) -> float:
+    """The value at half the total weight (values sorted; the lower one at a tie).
+
+    Example
+    -------
+    >>> _weighted_median([50.0, 50.2, 50.01], [1.0, 1.0, 1.5])
+    50.01
+    """
+    order = np.argsort(values)
+    cumulative = np.cumsum(np.asarray(weights, dtype=np.float64)[order])
+    return float(np.asarray(values)[order][np.searchsorted(cumulative, cumulative[-1] / 2.0)])
+
+
 def _level_above_programme(mean: np.ndarray, f_hz: np.ndarray, f_line: float) -> tuple[float, float]:
     """Line level (dBFS) and its level over the programme in the 1/3 octave around it (dB)."""
     _, line, _ = _line(mean, f_hz, f_line)
@@ -335,7 +353,7 @@ def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> Hu
                   if np.isfinite(f))
     f0s = np.array([f for _, f in track])
     weights = [w for f, _, w in per_segment if np.isfinite(f)]
-    f0, drift = float(np.average(f0s, weights=weights)), float(f0s.max() - f0s.min())
+    f0, drift = _weighted_median(f0s, weights), float(f0s.max() - f0s.min())
     lines = []
     for k in present:
         level, above = _level_above_programme(mean, f_hz, k * f0)
