@@ -41,14 +41,6 @@ def _hum_report(seed: int, f_hz: float = 50.0):
     return find_hum(_with_hum(48000, f_hz, -30, seed=seed), 48000)
 
 
-def _known_miss(case):
-    # measured: 0.062 Hz off, a lone -50 dBFS line at 60.1 Hz under a 95 Hz voice whose pitch
-    # dips onto it (bench_finders.py); 63 of 64 meet 0.05 Hz
-    mark = pytest.mark.xfail(reason="0.062 Hz: a -50 dBFS line under a low voice", strict=False)
-    known = case.fundamental_hz == 60.1 and case.level_dbfs == -50 and not case.harmonics and case.fs == 44100
-    return pytest.param(case, marks=mark, id=case.name) if known else pytest.param(case, id=case.name)
-
-
 class TestControlledGrid:
     def test_subset_covers_every_dimension(self):
         cases = _subset()
@@ -66,8 +58,15 @@ class TestControlledGrid:
     def test_clean_takes_have_no_hum(self, case):
         assert grid.judge(find_hum(grid.make_case(case), case.fs), case)[0]
 
+    def test_a_line_under_a_voice_that_dips_onto_it(self):
+        # once 0.062 Hz off (one segment pulled 0.118 Hz by a 95 Hz voice, the segments' mean
+        # dragged; their weighted median is not): measured with bench_finders.py
+        case = next(c for c in grid.grid_cases() if c.name == "f=60.1 level=-50 harmonics=False fs=44100")
+        passes, error = grid.judge(find_hum(grid.make_case(case), case.fs), case)
+        assert passes, f"{case.name}: error {error} Hz"
+
     @pytest.mark.slow
-    @pytest.mark.parametrize("case", [_known_miss(c) for c in grid.grid_cases() + grid.controls()])
+    @pytest.mark.parametrize("case", grid.grid_cases() + grid.controls(), ids=lambda c: c.name)
     def test_whole_grid(self, case):
         passes, error = grid.judge(find_hum(grid.make_case(case), case.fs), case)
         assert passes, f"{case.name}: error {error} Hz"
