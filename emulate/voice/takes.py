@@ -133,7 +133,9 @@ class TakeSource:
 
     def digest(self) -> str:
         """A digest of the take's samples and rate (BLAKE2b, hex): equal for the same audio only,
-        whatever file holds it (a WAV and a FLAC of one take agree).
+        whatever file holds it (a WAV and a FLAC of one take agree). The samples are hashed as
+        float32 (half the bytes of float64; exact for integer files up to 24 bits): one more
+        reading of the take, about 2 s for 20 minutes of 48 kHz stereo.
 
         Example
         -------
@@ -145,7 +147,7 @@ class TakeSource:
         """
         digest = hashlib.blake2b(f"{self.fs!r} {self.frames}".encode(), digest_size=16)  # frames: the channels
         for block in self.blocks():
-            digest.update(np.ascontiguousarray(block, dtype=np.float64).tobytes())
+            digest.update(np.ascontiguousarray(block, dtype=np.float32).tobytes())  # 24-bit codes exactly
         return digest.hexdigest()
 
     @classmethod
