@@ -79,8 +79,8 @@ class TestControlledGrid:
 
     @pytest.mark.parametrize("case", _grid_subset())
     def test_subset_finds_clearly_audible_bursts(self, case):
-        # the target: found, the peak within 3 %. Measured over the grid: 123 of 125
-        # audible cases (98 %) with `bench_finders.py --stride 11`, 0 of 27 negative controls
+        # the target: found, the peak within 3 %. Measured over the whole grid: 1348 of
+        # 1365 audible cases (98.8 %), the misses 3.0-4.3 % off, 0 of 27 negative controls
         x, margin = grid.make_case(case)
         if not grid.audible(margin):
             pytest.skip(f"not clearly audible: {margin:.1f} dB over the masker in its band")

@@ -248,13 +248,15 @@ def smooth_on_grid(density: np.ndarray, octaves: float) -> np.ndarray:
     return np.convolve(padded, np.ones(points) / points, mode="valid")
 
 
-def peak_on_grid(density: np.ndarray, band_hz, drop_db: float) -> tuple[float, tuple[float, float]]:
+def peak_on_grid(density: np.ndarray, band_hz, drop_db: float,
+                 peak_within_hz=None) -> tuple[float, tuple[float, float]]:
     """Peak of a grid density inside ``band_hz`` and the band around it down ``drop_db``.
 
-    The peak is refined by a parabola through the log-levels of the three grid points
-    around the highest (common practice, no source); the band walks out from the peak
-    until the density falls ``drop_db`` under it, and stops at ``band_hz``. The peak
-    always lies inside the returned band.
+    The peak is the highest point within ``peak_within_hz`` (default: all of ``band_hz``),
+    refined by a parabola through the log-levels of the three grid points around it
+    (common practice, no source); the band walks out from the peak until the density
+    falls ``drop_db`` under it, and stops at ``band_hz``. The peak always lies inside the
+    returned band.
 
     Example
     -------
@@ -266,7 +268,9 @@ def peak_on_grid(density: np.ndarray, band_hz, drop_db: float) -> tuple[float, t
     lo_hz, hi_hz = band_hz
     inside = np.flatnonzero((LOG_GRID_HZ >= lo_hz) & (LOG_GRID_HZ <= hi_hz))
     d = density[inside]
-    top = int(np.argmax(d))
+    lo_peak, hi_peak = band_hz if peak_within_hz is None else peak_within_hz
+    allowed = (LOG_GRID_HZ[inside] >= lo_peak) & (LOG_GRID_HZ[inside] <= hi_peak)
+    top = int(np.argmax(np.where(allowed, d, -np.inf)))
     peak_hz = float(LOG_GRID_HZ[inside[top]])
     if 0 < top < d.size - 1 and np.all(d[top - 1 : top + 2] > 0):
         y0, y1, y2 = np.log(d[top - 1 : top + 2])

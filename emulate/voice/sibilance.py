@@ -22,7 +22,12 @@ so memory grows only by a few bytes a frame whatever the take's length (see
    of Jongman, Wayland & Wong, JASA 108, 2000);
 5. second pass: average each class's frame spectra, and the vowel frames' spectra, onto
    the shared log-frequency grid; describe each class (peak, band, levels) and suggest a
-   notch for the class asked for (default /s/).
+   notch for the class asked for (default /s/). A class's peak is read only within the range
+   that defines it (step 4, one band wider): the frames of an /s/ run also hold the vowel
+   under it, and a bright vowel's formant at 2-3 kHz can outweigh a soft /s/ (on the whole
+   controlled grid 1319 of 1365 clearly audible cases found, 33 of the misses read at 2.18
+   kHz whatever the burst's centre; so: 1348, the rest 3.0-4.3 % off, negative controls 0 of 27
+   either way, the recorded words unchanged).
 
 Levels are in dBFS (AES17: a full-scale sine reads 0 dBFS).
 
@@ -249,15 +254,28 @@ def _describe(kind: str, sibilant_seconds: float, densities, search_band) -> Sib
                                      f"{MIN_SIBILANT_S:g} s", sibilant_seconds)
     sibilant, vowel, floor = densities
     excess = smooth_on_grid(np.maximum(sibilant - floor, 0.0), SMOOTH_OCTAVES)
-    if not np.any(excess[(LOG_GRID_HZ >= search_band[0]) & (LOG_GRID_HZ <= search_band[1])] > 0):
-        return _unusable_class(kind, "nothing over the floors in the search band", sibilant_seconds)
-    peak_hz, band_hz = peak_on_grid(excess, search_band, BAND_DROP_DB)
+    own = _class_range(kind, search_band)
+    if not np.any(excess[(LOG_GRID_HZ >= own[0]) & (LOG_GRID_HZ <= own[1])] > 0):
+        return _unusable_class(kind, f"nothing over the floors in the /{kind}/ range of the search band",
+                               sibilant_seconds)
+    peak_hz, band_hz = peak_on_grid(excess, search_band, BAND_DROP_DB, peak_within_hz=own)
     sib_db, vowel_db, floor_db = (float(dbfs(grid_band_power(d, band_hz))) for d in densities)
     q, depth, mix = _suggest(peak_hz, band_hz, sib_db, vowel_db)
     snr = sib_db - floor_db
     confidence = min(1.0, sibilant_seconds) * (0.5 + 0.5 * float(np.clip((snr - ABOVE_FLOOR_DB) / 15.0, 0, 1)))
     return SibilantClass(kind, True, "", float(sibilant_seconds), peak_hz, band_hz, sib_db, vowel_db, snr,
                          confidence, peak_hz, q, depth, mix, tuple(densities))
+
+
+def _class_range(kind: str, search_band) -> tuple[float, float]:
+    """Where a class's peak may lie: the range that defines it (its runs peak there, see
+    S_FROM_HZ) widened by one analysis band (a run is classed by its peak band's centre), within
+    the search band. The frames of an /s/ run can hold a bright vowel's formant at 2-3 kHz that
+    outweighs a soft /s/ (on the controlled grid, bursts 12-18 dB under -6 dB/octave vowels were
+    read at 2.18 kHz however high they were)."""
+    slack = 2.0 ** (1.0 / BANDS_PER_OCTAVE)
+    lo, hi = (S_FROM_HZ / slack, math.inf) if kind == "s" else (SH_FROM_HZ / slack, S_FROM_HZ * slack)
+    return max(lo, search_band[0]), min(hi, search_band[1])
 
 
 def _report(seconds, search_band, classes, target, reason="", set_aside=()) -> SibilanceReport:
