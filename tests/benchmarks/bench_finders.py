@@ -150,6 +150,7 @@ def _finder_at(revision: str):
                             check=True, capture_output=True, text=True).stdout
     spec = importlib.util.spec_from_loader(f"resonance_at_{revision}", loader=None)
     module = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = module  # its dataclasses look their module up
     exec(compile(source, f"{revision}:resonance.py", "exec"), module.__dict__)
     return module.find_resonance
 
