@@ -128,6 +128,8 @@ def _series(raw, where: str) -> str:
     try:
         return parts.parse_series(str(raw))
     except BadValueError as exc:
+        if where == "series":  # no table around it: the message names the series already
+            raise
         raise BadValueError(f"{where}: {exc}") from None
 
 
