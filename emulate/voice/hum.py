@@ -329,7 +329,7 @@ def find_hum(x, fs: float | None = None, *, mains_hz: float | None = None) -> Hu
     >>> r.found, round(r.fundamental_hz, 2)
     (True, 50.02)
     """
-    source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
+    source = TakeSource.of(x, fs)
     if mains_hz is not None and float(mains_hz) not in MAINS_HZ:
         raise BadValueError(f"mains_hz = {mains_hz!r} is not allowed; choose 50 or 60 (or none for both)")
     if source.seconds < MIN_SECONDS:

@@ -924,7 +924,7 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     >>> r.found, abs(r.peak.frequency_hz / 1000 - 1) < 0.02
     (True, True)
     """
-    source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
+    source = TakeSource.of(x, fs)
     spans, pauses = _quiet_spans(source)  # reads the whole take first: a damaged file is refused, short or not
     quiet, lengths = _quiet_moments(source, spans)
     if source.seconds < MIN_SECONDS:

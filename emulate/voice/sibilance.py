@@ -416,10 +416,6 @@ def _floor_density(found: _Detection) -> np.ndarray:
     return np.interp(LOG_GRID_HZ, found.summer.centres_hz, density, left=density[0], right=0.0)
 
 
-def _source(x, fs) -> TakeSource:
-    return x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
-
-
 # --------------------------------------------------------------------------- public API
 
 
@@ -461,7 +457,7 @@ def find_sibilance(x, fs: float | None = None, *, search_band_hz=DEFAULT_SEARCH_
     >>> r.usable and 5700 < r.peak_hz < 6300 and r.band_hz[0] < r.peak_hz < r.band_hz[1]
     True
     """
-    source, target = _source(x, fs), _check_target(target)
+    source, target = TakeSource.of(x, fs), _check_target(target)
     band = check_band(search_band_hz, source.fs, "search_band_hz")
     seconds = source.seconds
     found = _detect(source, band) if seconds >= MIN_SECONDS else None
@@ -586,7 +582,7 @@ def most_sibilant_excerpt(x, fs: float | None = None, seconds: float = 3.0, *,
     96000
     """
     seconds = check_seconds(seconds, "seconds")
-    source = _source(x, fs)
+    source = TakeSource.of(x, fs)
     band = check_band(search_band_hz, source.fs, "search_band_hz")
     n, length = source.frames, round(seconds * source.fs)
     found = _detect(source, band) if length < n else None

@@ -135,7 +135,7 @@ class TakeSource:
         """A digest of the take's samples and rate (BLAKE2b, hex): equal for the same audio only,
         whatever file holds it (a WAV and a FLAC of one take agree). The samples are hashed as
         float32 (half the bytes of float64; exact for integer files up to 24 bits): one more
-        reading of the take, about 2 s for 20 minutes of 48 kHz stereo.
+        reading of the take, about 2 s for 20 minutes of 48 kHz stereo (see :meth:`digesting`).
 
         Example
         -------
@@ -145,10 +145,43 @@ class TakeSource:
         >>> a.digest() == TakeSource.from_array(np.zeros(4800), 44100).digest()
         False
         """
-        digest = hashlib.blake2b(f"{self.fs!r} {self.frames}".encode(), digest_size=16)  # frames: the channels
+        digest = self._hasher()
         for block in self.blocks():
-            digest.update(np.ascontiguousarray(block, dtype=np.float32).tobytes())  # 24-bit codes exactly
+            _feed(digest, block)
         return digest.hexdigest()
+
+    def _hasher(self):
+        return hashlib.blake2b(f"{self.fs!r} {self.frames}".encode(), digest_size=16)  # frames: the channels
+
+    def digesting(self) -> tuple[TakeSource, Callable[[], str]]:
+        """This take, hashed as it is first read through, and a function giving its
+        :meth:`digest`: from that reading when it went to the end, else by reading again.
+        A finder reads its take at least once anyway; so the digest costs no extra decoding.
+
+        Example
+        -------
+        >>> a = TakeSource.from_array(np.ones(4800), 48000)
+        >>> read, digest = a.digesting()
+        >>> sum(block.size for block in read.blocks()), digest() == a.digest()
+        (4800, True)
+        """
+        state = {"hasher": self._hasher(), "done": None}
+
+        def blocks():
+            hasher, state["hasher"] = state["hasher"], None  # only the first reading hashes
+            for block in self.blocks():
+                if hasher is not None:
+                    _feed(hasher, block)
+                yield block
+            if hasher is not None:
+                state["done"] = hasher.hexdigest()
+
+        return TakeSource(self.fs, self.frames, blocks), lambda: state["done"] or self.digest()
+
+    @classmethod
+    def of(cls, x, fs: float | None = None) -> TakeSource:
+        """``x`` if it is a TakeSource, else :meth:`from_array` of it at ``fs``."""
+        return x if isinstance(x, TakeSource) else cls.from_array(x, fs)
 
     @classmethod
     def from_array(cls, x, fs: float) -> TakeSource:
@@ -234,12 +267,18 @@ class SectionFilter:
 def take_finder(find):
     """Decorator for a finder ``find(x, fs=None, **options)`` whose report has a ``digest`` field:
     the take (an array and its rate, or a :class:`TakeSource`) is made a TakeSource once, and the
-    report carries the take's :meth:`TakeSource.digest`, so pooling tells an exact repeat by its
+    report carries the take's :meth:`TakeSource.digest` (hashed during the finder's own first
+    reading, :meth:`TakeSource.digesting`), so pooling tells an exact repeat by its
     audio, not by its figures (two different takes that found nothing have equal figures)."""
 
     @functools.wraps(find)
     def finder(x, fs: float | None = None, **options):
-        source = x if isinstance(x, TakeSource) else TakeSource.from_array(x, fs)
-        return dataclasses.replace(find(source, source.fs, **options), digest=source.digest())
+        source, digest = TakeSource.of(x, fs).digesting()
+        return dataclasses.replace(find(source, source.fs, **options), digest=digest())
 
     return finder
+
+
+def _feed(hasher, block: np.ndarray) -> None:
+    """One block into a take's digest (as float32: exact for integer files up to 24 bits)."""
+    hasher.update(np.ascontiguousarray(block, dtype=np.float32).tobytes())
