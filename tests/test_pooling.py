@@ -40,15 +40,17 @@ class TestOutlying:
         assert outlying([6000, 6000, 6000, 6000 * 2**0.26], 0.25)[0] == 3
 
 
+@pytest.fixture(scope="module")
+def noise():
+    """Two different half-second noise takes of one length."""
+    rng = np.random.default_rng(5)
+    return [0.05 * rng.standard_normal(24000) for _ in range(2)]
+
+
 class TestRepeatsByTheirAudio:
     """An exact repeat is the same samples (TakeSource.digest), not the same figures: two
     different takes that found nothing, of one length, report the same figures (here: too
     short for every finder, which keeps the check cheap)."""
-
-    @pytest.fixture(scope="class")
-    def noise(self):
-        rng = np.random.default_rng(5)
-        return [0.05 * rng.standard_normal(24000) for _ in range(2)]
 
     @pytest.mark.parametrize("find, combine", [(find_hum, combine_hum), (find_resonance, combine_resonance),
                                                (find_sibilance, combine_reports)],
