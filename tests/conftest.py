@@ -102,7 +102,7 @@ SLOW_DOCTESTS = frozenset({
     "emulate.report.schematic.draw_schematic",
     "emulate.report.schematic.schematic_figure",  # 0.6 s; drawn by default in test_schematic.py
     "emulate.voice.sibilance.most_sibilant_excerpt",
-    "emulate.voice.resonance.find_resonance",
+    "emulate.voice.resonance.finder.find_resonance",
     "emulate.voice.sibilance.find_sibilance",
     "emulate.voice.sibilance.combine_reports",
     "emulate.voice.sibilance.aimed_at",

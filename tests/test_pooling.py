@@ -10,7 +10,7 @@ import pytest
 
 from emulate.voice.hum import combine_hum, find_hum
 from emulate.voice.pooling import distinct, outlying
-from emulate.voice.resonance import combine_resonance, find_resonance
+from emulate.voice.resonance.finder import combine_resonance, find_resonance
 from emulate.voice.sibilance import combine_reports, find_sibilance
 from emulate.voice.takes import TakeSource
 

@@ -1,4 +1,4 @@
-"""Tests of the resonance finder (emulate.voice.resonance).
+"""Tests of the resonance finder (the package emulate.voice.resonance).
 
 References: R. Bristow-Johnson's audio EQ cookbook (the peaking biquad and its analog
 prototype, whose Q and gain the finder reports); scipy.signal.freqz as the reference for
@@ -17,8 +17,8 @@ from scipy import signal
 
 import resonance_grid as grid
 from emulate.errors import BadValueError
-from emulate.voice.resonance import (ResonancePeak, ResonanceReport, combine_resonance, find_resonance,
-                                     peaking_db)
+from emulate.voice.resonance.finder import ResonanceReport, combine_resonance, find_resonance
+from emulate.voice.resonance.fit import ResonancePeak, peaking_db
 
 
 class TestPeakingDb:
@@ -149,13 +149,13 @@ class TestQuietMoments:
         # a 100 Hz tone 3 dB under white noise keeps the sum within 12 dB of its quietest tenth,
         # but stands ~20 dB over the noise of its octave (60-120 Hz holds 60/24000 of white
         # noise's power, Parseval): those 2 s are not quiet moments
-        from emulate.voice.resonance import _quiet_moments
+        from emulate.voice.resonance.quiet import quiet_moments
         from emulate.voice.takes import TakeSource
 
         fs, rng = 48000, np.random.default_rng(4)
         x = 1e-3 * rng.standard_normal(8 * fs)
         x[2 * fs : 4 * fs] += 1e-3 * np.sin(2 * np.pi * np.arange(2 * fs) * 100 / fs)  # 3 dB under the noise
-        quiet, lengths = _quiet_moments(TakeSource.from_array(x, fs))
+        quiet, lengths = quiet_moments(TakeSource.from_array(x, fs))
         assert quiet.size == lengths.sum() and quiet.size > 2 * fs
         # the quiet material holds no tone: its level at 100 Hz is white noise's (scipy.signal.welch;
         # 0.1 s segments, ~100 averaged: +-1 dB scatter; the tone would stand ~17 dB out)
@@ -168,15 +168,15 @@ class TestLongFrames:
         # a 210 Hz voice (its pitch within a few semitones, synth._PITCH_SPREAD_ST) leaves 100 Hz
         # to the room's noise all along: the long frames read most of the 8 s there (the quiet
         # moments between words are under 2.5 s), none at the voice's own fundamental
-        from emulate.voice.resonance import _grid_hz, _long_spectrum, _quiet_moments, _quiet_spectrum, FRAME_S
+        from emulate.voice.resonance.quiet import FRAME_S, long_spectrum, quiet_moments, quiet_spectrum, spectrum_grid_hz
         from emulate.voice.synth import voice_like_take
         from emulate.voice.takes import TakeSource
 
         fs = 48000
         source = TakeSource.from_array(voice_like_take(fs, 8.0, pitch_hz=210, sibilance_hz=6000.0, seed=5), fs)
-        grid_hz = _grid_hz(fs)
-        quiet = _quiet_spectrum(*_quiet_moments(source), fs, grid_hz, FRAME_S)
-        long = _long_spectrum(source, grid_hz, quiet)
+        grid_hz = spectrum_grid_hz(fs)
+        quiet = quiet_spectrum(*quiet_moments(source), fs, grid_hz, FRAME_S)
+        long = long_spectrum(source, grid_hz, quiet)
         at = {f: long.seconds[np.argmin(abs(grid_hz - f))] for f in (100.0, 210.0)}
         assert quiet.seconds < 2.5 and at[100.0] > 5.0 and at[210.0] == 0.0
 
@@ -215,10 +215,10 @@ class TestSmearingKernel:
         # F. J. Harris, Proc. IEEE 66 (1978), table 1: the Hann window's equivalent noise
         # bandwidth is 1.50 bins (1.5 / frame length); the kernel is normalised to sum 1
         from emulate.voice.frames import FrameGrid
-        from emulate.voice.resonance import _smearing_kernel
+        from emulate.voice.resonance.quiet import smearing_kernel
 
         grid = FrameGrid.at(48000, 0.2, 0.05, padded=True)
-        offsets, weights = _smearing_kernel(grid, np.array([48000 * 4]))
+        offsets, weights = smearing_kernel(grid, np.array([48000 * 4]))
         step = offsets[1] - offsets[0]
         assert weights.sum() == pytest.approx(1.0)
         assert step / weights.max() == pytest.approx(1.5 / 0.2, rel=0.02)
@@ -227,11 +227,11 @@ class TestSmearingKernel:
         # a frame cut into short joined pieces sees each through a shorter window: its
         # equivalent noise bandwidth grows (Welch 1967: the expected periodogram)
         from emulate.voice.frames import FrameGrid
-        from emulate.voice.resonance import _smearing_kernel
+        from emulate.voice.resonance.quiet import smearing_kernel
 
         grid = FrameGrid.at(48000, 0.2, 0.05, padded=True)
-        offsets, one = _smearing_kernel(grid, np.array([48000 * 4]))
-        _, pieces = _smearing_kernel(grid, np.full(40, 4800))
+        offsets, one = smearing_kernel(grid, np.array([48000 * 4]))
+        _, pieces = smearing_kernel(grid, np.full(40, 4800))
         assert (offsets[1] - offsets[0]) / pieces.max() > 1.5 * (offsets[1] - offsets[0]) / one.max()
 
 
@@ -241,16 +241,17 @@ class TestFit:
         # tilted level, as a continuous 0.2 s Hann frame sees it: the fit, whose span is set
         # again from the fitted Q, returns the centre, gain and Q applied (resonance_grid.applied_peak)
         from emulate.voice.frames import FrameGrid
-        from emulate.voice.resonance import _excess, _fit, _grid_hz, _Quiet, _smearing_kernel
+        from emulate.voice.resonance.fit import _fit, excess_db
+        from emulate.voice.resonance.quiet import QuietSpectrum, smearing_kernel, spectrum_grid_hz
 
         fs, f0, gain, q = 384000, 630.0, 6.0, 20.0
-        grid_hz = _grid_hz(48000)
+        grid_hz = spectrum_grid_hz(48000)
         _, h = signal.freqz(*grid.peaking_ba(f0, gain, q, fs), worN=grid_hz, fs=fs)
         level = 20 * np.log10(np.abs(h)) - 3.0 * np.log2(grid_hz / 1000.0) - 60.0
-        kernel = _smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
-        quiet = _Quiet(0.2, kernel, level, (level, level), 100, 4.0)
+        kernel = smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
+        quiet = QuietSpectrum(0.2, kernel, level, (level, level), 100, 4.0)
         i = int(np.argmin(np.abs(grid_hz - f0)))
-        centre, fitted_gain, fitted_q, misfit = _fit(grid_hz, quiet, _excess(level), i)
+        centre, fitted_gain, fitted_q, misfit = _fit(grid_hz, quiet, excess_db(level), i)
         applied_f0, applied_q = grid.applied_peak(f0, gain, q, fs)
         assert centre == pytest.approx(applied_f0, rel=0.002)
         assert fitted_gain == pytest.approx(gain, abs=0.2) and fitted_q == pytest.approx(applied_q, rel=0.05)
@@ -263,13 +264,14 @@ class TestFit:
         # finder joins them; read by the quiet spectrum and fitted. Over 12 seeds the mean Q
         # error is near 0 (measured +4 %, spread 23 %; the same noise uncut: -2 %, 13 %): the
         # kernel does not over-correct, and the grid's misses there are scatter, not bias
-        from emulate.voice.resonance import _grid_hz, _peaks, _quiet_spans, _quiet_spectrum
+        from emulate.voice.resonance.quiet import quiet_spans, quiet_spectrum, spectrum_grid_hz
+        from emulate.voice.resonance.fit import accepted_peaks
         from emulate.voice.takes import TakeSource
 
         case = next(c for c in grid.grid_cases() if c.name == "fc=630 gain=6 q=20 fs=44100 pitch=210")
-        spans, _ = _quiet_spans(TakeSource.from_array(grid.make_case(case), case.fs))
+        spans, _ = quiet_spans(TakeSource.from_array(grid.make_case(case), case.fs))
         lengths = np.array([b - a for a, b in spans])
-        grid_hz = _grid_hz(case.fs)
+        grid_hz = spectrum_grid_hz(case.fs)
         near = np.abs(np.log2(grid_hz / case.centre_hz)) < 0.25
         _, applied_q = grid.applied_peak(case.centre_hz, case.gain_db, case.q, case.fs)
         errors = []
@@ -277,7 +279,7 @@ class TestFit:
             noise = np.random.default_rng(seed).standard_normal(int(case.seconds * case.fs))
             y = signal.lfilter(*grid.peaking_ba(case.centre_hz, case.gain_db, case.q, case.fs), noise)
             quiet = np.concatenate([y[a:b] for a, b in spans]).astype(np.float32)
-            fits = _peaks(grid_hz, _quiet_spectrum(quiet, lengths, case.fs, grid_hz, 0.2), near)
+            fits = accepted_peaks(grid_hz, quiet_spectrum(quiet, lengths, case.fs, grid_hz, 0.2), near)
             errors.append(min(fits, key=lambda fit: fit[0])[1].q / applied_q - 1.0)
         assert abs(np.mean(errors)) < 0.1
 
@@ -342,7 +344,7 @@ class TestDecayAfterWords:
         # the poles' Q, and its zero crossings their undamped centre |ln p| fs / (2 pi) (the
         # s-plane pole's magnitude w0, mapped by z = exp(s/fs); from memory) within 0.5 % (a
         # twentieth of the poles' bandwidth f0 / Q_pole; 0.02-0.3 % over seeds 6-9 when written)
-        from emulate.voice.resonance import _decay_ring
+        from emulate.voice.resonance.ring import _decay_ring
         from emulate.voice.takes import TakeSource
 
         fs, b, a, y, pauses = self._bursts(10.0, 10.0, 1e-3, 6)
@@ -352,7 +354,7 @@ class TestDecayAfterWords:
         assert ring.hz == pytest.approx(abs(np.log(pole)) * fs / (2 * np.pi), rel=0.005)
 
     def test_too_few_pauses(self):
-        from emulate.voice.resonance import _decay_ring
+        from emulate.voice.resonance.ring import _decay_ring
         from emulate.voice.takes import TakeSource
 
         y = np.random.default_rng(7).standard_normal(16000 * 3)
@@ -360,7 +362,7 @@ class TestDecayAfterWords:
 
     def test_zero_crossings_give_the_frequency(self):
         # a sine's upward zero crossings lie one period apart (the definition of frequency)
-        from emulate.voice.resonance import _crossing_hz
+        from emulate.voice.resonance.ring import _crossing_hz
 
         t = np.arange(1600) / 16000.0
         assert _crossing_hz(np.sin(2 * np.pi * 101.3 * t + 0.7), 16000.0) == pytest.approx(101.3, rel=1e-4)
@@ -381,7 +383,7 @@ class TestDecayAfterWords:
         # cookbook peakingEQ: negating the gain swaps A and 1/A, i.e. numerator and denominator,
         # so the cut is the boost's exact inverse; the boost's gain at the centre is the gain
         # (scipy.signal.sosfreqz as the reference)
-        from emulate.voice.resonance import _peaking_sos
+        from emulate.voice.resonance.ring import _peaking_sos
 
         f = np.geomspace(30.0, 8000.0, 200)
         boost = signal.sosfreqz(_peaking_sos(100.0, 9.0, 12.0, 16000.0), worN=f, fs=16000.0)[1]
@@ -395,15 +397,16 @@ class TestDecayAfterWords:
         # runs into the pause (96 dB/s), and the pauses' own spectrum reads the peak too high
         # (fitted 6.4-10.7 dB over seeds 6-10 when written, 9.3 on average); the gain whose inverse
         # leaves the pauses flat read 7.1, 5.3, 7.1, 3.6, 6.7 dB (mean 6.0); three seeds here (time)
-        from emulate.voice.resonance import _Ring, _grid_hz, _unrung_gain
+        from emulate.voice.resonance.ring import Ring, _unrung_gain
+        from emulate.voice.resonance.quiet import spectrum_grid_hz
         from emulate.voice.takes import TakeSource
 
         gains = []
         for seed in range(6, 9):
             fs, b, a, y, pauses = self._bursts(6.0, 20.0, 1e-1, seed)
             pole = signal.tf2zpk(b, a)[1][0]
-            ring = _Ring(self._poles_q(b, a, fs), abs(np.log(pole)) * fs / (2 * np.pi))
-            gains.append(_unrung_gain(TakeSource.from_array(y, fs), pauses, _grid_hz(fs), ring))
+            ring = Ring(self._poles_q(b, a, fs), abs(np.log(pole)) * fs / (2 * np.pi))
+            gains.append(_unrung_gain(TakeSource.from_array(y, fs), pauses, spectrum_grid_hz(fs), ring))
         assert np.mean(gains) == pytest.approx(6.0, abs=1.0) and min(gains) > 3.0
 
     def test_the_gain_where_the_cut_leaves_least_of_a_strong_ring(self):
@@ -413,13 +416,13 @@ class TestDecayAfterWords:
         # ring's band holds least after the cut of the gain applied (the biquad's, R. Bristow-Johnson's
         # cookbook): 14.9 and 15.6 dB when written. Under a floor 20 dB down (+6 dB, Q 20) the band's
         # power only falls with the cut: no dip, and the flat height reads the gain (test above)
-        from emulate.voice.resonance import _Ring, _least_ring_gain
+        from emulate.voice.resonance.ring import Ring, _least_ring_gain
         from emulate.voice.takes import TakeSource
 
         for gain, floor, expected in ((15.0, 1e-3, 15.0), (6.0, 1e-1, None)):
             fs, b, a, y, pauses = self._bursts(gain, 20.0, floor, 6)
             pole = signal.tf2zpk(b, a)[1][0]
-            ring = _Ring(self._poles_q(b, a, fs), abs(np.log(pole)) * fs / (2 * np.pi))
+            ring = Ring(self._poles_q(b, a, fs), abs(np.log(pole)) * fs / (2 * np.pi))
             quiet = [(start + round(0.02 * fs), stop) for start, stop in pauses]
             read = _least_ring_gain(TakeSource.from_array(y, fs), quiet, ring)
             assert read == (None if expected is None else pytest.approx(expected, abs=1.0))

@@ -157,7 +157,7 @@ def resonance(takes, series, plot_path, force, as_json):
 
     With several takes, also their pooled resonance (repeats and one outlying take set aside)."""
     check_plot(plot_path, force)
-    from emulate.voice.resonance import combine_resonance, find_resonance
+    from emulate.voice.resonance.finder import combine_resonance, find_resonance
 
     results = []
     for take, source in zip(takes, _sources(takes)):

@@ -9,7 +9,7 @@ Tables (the issue's targets beside each):
 - resonance (``tests/resonance_grid.py``): frequency within 2 % and Q within 30 % of the
   filter actually applied, by centre and Q, and frequency-only; the misses; controls
   reported (target none).
-Cost: the resonance finder's time on one take, median of 3 in process: 30 s grid takes without
+Cost: the resonance finder's time on one take, median of 3 in a fresh interpreter: 30 s grid takes without
 a peak and with a ringing one at 100 Hz and 630 Hz, and continuous room tone (noise alone) of
 3 s and 5 s, where the whole take is quiet and the fits have most to do; with ``--against REV``
 also the finder as it was at git revision REV, in the same run, and the ratio.
@@ -30,9 +30,8 @@ from __future__ import annotations
 
 import argparse
 import collections
-import importlib.util
 import json
-import statistics
+import os
 import subprocess
 import sys
 import tempfile
@@ -118,7 +117,7 @@ def bench_hum(stride: int) -> dict:
 
 
 def bench_resonance(stride: int) -> dict:
-    from emulate.voice.resonance import find_resonance
+    from emulate.voice.resonance.finder import find_resonance
 
     cells, freq_only, rows = collections.defaultdict(lambda: [0, 0]), collections.defaultdict(lambda: [0, 0]), []
     for case in resonance_grid.grid_cases()[::stride]:
@@ -144,29 +143,37 @@ def bench_resonance(stride: int) -> dict:
     return {"found": found, "cases": total, "rows": rows, "controls_reported": reported}
 
 
-def _finder_at(revision: str):
-    """``find_resonance`` as the module was at git ``revision`` (loaded beside today's package)."""
-    source = subprocess.run(["git", "-C", str(ROOT), "show", f"{revision}:emulate/voice/resonance.py"],
-                            check=True, capture_output=True, text=True).stdout
-    spec = importlib.util.spec_from_loader(f"resonance_at_{revision}", loader=None)
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module  # its dataclasses look their module up
-    exec(compile(source, f"{revision}:resonance.py", "exec"), module.__dict__)
-    return module.find_resonance
-
-
-def _median_s(find, x, fs, repeats: int = 3) -> float:
-    times = []
-    for _ in range(repeats):
+_TIME_TAKES = """
+import json, statistics, sys, time
+from pathlib import Path
+import numpy as np
+try:  # a package since 2026-12-04, one module before
+    from emulate.voice.resonance.finder import find_resonance
+except ImportError:
+    from emulate.voice.resonance import find_resonance
+times = {}
+for path in sorted(Path(sys.argv[1]).glob("*.npy")):
+    x, runs = np.load(path), []
+    for _ in range(3):
         start = time.perf_counter()
-        find(x, fs)
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
+        find_resonance(x, 48000)
+        runs.append(time.perf_counter() - start)
+    times[path.stem] = statistics.median(runs)
+print(json.dumps(times))
+"""
+
+
+def _times(package_root: Path, takes_dir: Path) -> dict:
+    """The resonance finder's median time (of 3) on each take in ``takes_dir``, s, with the
+    ``emulate`` package found under ``package_root`` (a fresh interpreter, so that two
+    revisions of the package never meet)."""
+    env = {**os.environ, "PYTHONPATH": str(package_root)}
+    run = subprocess.run([sys.executable, "-c", _TIME_TAKES, str(takes_dir)], check=True, capture_output=True,
+                         text=True, env=env, cwd=package_root)
+    return json.loads(run.stdout)
 
 
 def bench_cost(against: str | None) -> dict:
-    from emulate.voice.resonance import find_resonance
-
     fs, rng = 48000, np.random.default_rng(5)
     case = resonance_grid.Case
     takes = {"30 s, no peak": resonance_grid.make_case(resonance_grid.controls()[-1]),
@@ -174,9 +181,21 @@ def bench_cost(against: str | None) -> dict:
              "30 s, +10 dB Q 20 at 630 Hz": resonance_grid.make_case(case(630.0, 10.0, 20.0, fs, 110.0)),
              "room tone 3 s": 0.05 * rng.standard_normal(3 * fs),
              "room tone 5 s": 0.05 * rng.standard_normal(5 * fs)}
-    finders = {"now": find_resonance} | ({against: _finder_at(against)} if against else {})
-    rows = {name: {label: _median_s(find, x, fs) for label, find in finders.items()} for name, x in takes.items()}
-    print("\nresonance finder's cost, s (median of 3, in process)")
+    with tempfile.TemporaryDirectory() as scratch:
+        takes_dir, old_root = Path(scratch, "takes"), Path(scratch, "old")
+        takes_dir.mkdir()
+        for i, x in enumerate(takes.values()):
+            np.save(takes_dir / f"{i}.npy", x)
+        roots = {"now": ROOT}
+        if against:  # the package as it was at git revision ``against``, whatever its shape then
+            old_root.mkdir()
+            archive = subprocess.run(["git", "-C", str(ROOT), "archive", against, "emulate"], check=True,
+                                     capture_output=True).stdout
+            subprocess.run(["tar", "-x", "-C", str(old_root)], input=archive, check=True)
+            roots[against] = old_root
+        measured = {label: _times(root, takes_dir) for label, root in roots.items()}
+    rows = {name: {label: measured[label][str(i)] for label in roots} for i, name in enumerate(takes)}
+    print("\nresonance finder's cost, s (median of 3, a fresh interpreter per revision)")
     for name, row in rows.items():
         ratio = f"  ({row[against] / row['now']:.1f}x faster now)" if against else ""
         print(f"  {name:30s} " + "  ".join(f"{label} {t:6.2f}" for label, t in row.items()) + ratio)
@@ -186,7 +205,8 @@ def bench_cost(against: str | None) -> dict:
 _MEASURE = """
 import resource, sys
 from emulate.voice.takes import TakeSource
-from emulate.voice import sibilance, hum, resonance
+from emulate.voice import sibilance, hum
+from emulate.voice.resonance import finder as resonance
 finder = {"sibilance": sibilance.find_sibilance, "hum": hum.find_hum, "resonance": resonance.find_resonance}[sys.argv[1]]
 before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 finder(TakeSource.from_file(sys.argv[2]))

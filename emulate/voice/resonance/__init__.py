@@ -1,0 +1,30 @@
+"""The resonance finder: one narrow, persistent spectral peak (a room mode, a stand or capsule ringing).
+
+A voice's own harmonics and formants are peaks too, and they move; a resonance is fixed
+and colours everything the microphone hears, the room's quiet noise between words
+included. So the finder reads the resonance where the voice is absent. Its stages, in the
+order the data flows, each in the module that does it (whose docstring gives the details and
+what was measured; import the modules by name, e.g. ``emulate.voice.resonance.finder``):
+
+1. quiet moments: 20 ms frames quiet in all and in every octave band (:mod:`.quiet`);
+2. their spectrum on a 1/96-octave grid, 0.2 s Hann frames over the pieces joined end to end,
+   with the smearing the joins cause (:mod:`.quiet`);
+3. candidates: local maxima standing out of the spectrum's running median (:mod:`.fit`);
+4. fit: the analog peaking response as the quiet spectrum sees it, plus a level and a tilt
+   (:mod:`.fit`);
+5. accepted: gain, Q, misfit and persistence in both halves of the quiet material (:mod:`.fit`);
+6. the low range (under 400 Hz) also on 1 s frames gated per grid point (:mod:`.quiet`; which
+   reading counts where, :mod:`.finder`);
+7. one fit per peak, the strongest reported with a suggested notch (:mod:`.finder`);
+8. a low ringing peak's centre, Q and gain read from its ring after the words (:mod:`.ring`).
+
+:mod:`.finder` gives what the whole finder measures on the controlled grid, what was tried and
+not kept, and what is left.
+
+What the finder does *not* do: it does not tell a resonance of the room from one of the
+microphone; a resonance that only the voice excites (a take whose quiet moments are
+electrical noise or digital silence) is not seen; a steady tone in the quiet moments
+reads as a (very narrow) resonance.
+"""
+
+__all__: list[str] = []  # the modules are imported by name
