@@ -20,7 +20,7 @@ import numpy as np
 
 from emulate.voice.synth import voice_like_take
 
-__all__ = ["Case", "controls", "grid_cases", "judge", "make_case"]
+__all__ = ["Case", "controls", "grid_cases", "hum_signal", "judge", "make_case"]
 
 FUNDAMENTALS_HZ = (49.9, 50.0, 59.9, 60.1)
 LEVELS_DBFS = (-50.0, -40.0, -30.0, -20.0)
@@ -63,11 +63,17 @@ def make_case(case: Case) -> np.ndarray:
     x = voice_like_take(case.fs, SECONDS, pitch_hz=pitch, sibilance_hz=6000.0, seed=case.seed)[:, 0]
     if case.fundamental_hz is None:
         return x
-    t = np.arange(x.size) / case.fs
-    amplitude = 10.0 ** (case.level_dbfs / 20.0)
-    ks = range(1, 8) if case.harmonics else (1,)
+    return x + hum_signal(x.size, case.fs, case.fundamental_hz, case.level_dbfs, case.harmonics)
+
+
+def hum_signal(frames: int, fs: float, fundamental_hz: float, level_dbfs: float, harmonics: bool) -> np.ndarray:
+    """Mains hum of ``frames`` samples: the fundamental at ``level_dbfs`` (its peak
+    ``10**(level/20)``, AES17), with harmonics 2..7 as the module docstring says."""
+    t = np.arange(frames) / fs
+    amplitude = 10.0 ** (level_dbfs / 20.0)
+    ks = range(1, 8) if harmonics else (1,)
     weight = {k: 1.0 if k == 1 else (1.0 / k if k % 2 else 0.5 / k) for k in ks}
-    return x + sum(amplitude * w * np.sin(2 * np.pi * k * case.fundamental_hz * t + 0.3 * k) for k, w in weight.items())
+    return sum(amplitude * w * np.sin(2 * np.pi * k * fundamental_hz * t + 0.3 * k) for k, w in weight.items())
 
 
 def judge(report, case: Case) -> tuple[bool, float]:

@@ -1,4 +1,4 @@
-"""The sibilance finder on real recorded speech (openly licensed; ``tests/data/fetch_speech.sh``).
+"""The sibilance and hum finders on real recorded speech (openly licensed; ``tests/data/fetch_speech.sh``).
 
 The recordings are words spoken by real speakers, shipped in two Debian packages (see
 ``tests/data/speech/SOURCES.md`` once fetched): alsa-utils 1.2.8-1's channel announcements
@@ -12,6 +12,13 @@ each end; not by listening. Their spectral peak is read with plain ``scipy.signa
 (512-point Hann segments) smoothed over 1/6 octave, between 2 and 12 kHz. The issue's
 targets: the finder's /s/ peak within 2 semitones of that reference; words without
 sibilants reported as having no sibilance in at least 85 % of cases.
+
+Hum: words of one package spliced end to end (each file as recorded, pauses and all) are
+takes of 8-11 s; the hum finder must find nothing on them, and with hum added as the hum grid
+adds it (``tests/hum_grid.py``: 49.9, 50, 59.9, 60.1 Hz, -50 to -20 dBFS, with and without
+harmonics; see HUM_SPLICES for which) the fundamental within 0.05 Hz (the issue's targets;
+the reference is the frequency added). Measured when written: nothing on the three clean
+splices, 64 of 64 within 0.05 Hz, worst 0.023 Hz, RMS 0.0065 Hz.
 """
 
 from pathlib import Path
@@ -21,6 +28,8 @@ import pytest
 import soundfile as sf
 from scipy import signal
 
+import hum_grid
+from emulate.voice.hum import find_hum
 from emulate.voice.sibilance import find_sibilance
 
 DATA = Path(__file__).parent / "data" / "speech"
@@ -109,3 +118,49 @@ def test_words_without_sibilants(quiet_share):
     # stops and aspiration in six words ("cart", "hat", "moonwalker", "cucumber", "train", "tree")
     # still come back as sibilant
     assert quiet_share >= 0.85
+
+
+#: Splices for the hum finder: words of one package end to end, in this order, and the mains
+#: frequencies added to each. ktuberling-data's recordings carry a line near 50 Hz of their own
+#: (the fundamental alone: on the finder's steady spectrum it stands 6-14 dB over the programme
+#: in each ten-word splice, under the 10 dB a line needs in the two used here, over it in
+#: "egypt_girl" to "flower" and "hair" to "moon_ufo", which report 50.29 and 50.22 Hz clean; mains
+#: hum recorded with the words, as far as the files tell), so an added 49.9 or 50 Hz line would
+#: meet it (its readings then depend on the two lines' phases); their 60 Hz family is clean
+#: (at most 1.8 dB), as are both families in alsa-utils' (at most 1.4 dB).
+HUM_SPLICES = {
+    "alsa-utils": (["Front_Center.wav", "Front_Left.wav", "Front_Right.wav", "Rear_Center.wav", "Rear_Left.wav",
+                    "Rear_Right.wav", "Side_Left.wav", "Side_Right.wav"], hum_grid.FUNDAMENTALS_HZ),
+    "ktuberling-a": (["ball", "bow", "coat", "ear", "earring", "egypt_boy", "egypt_camel", "egypt_cart",
+                      "egypt_column", "egypt_donkey"], (59.9, 60.1)),
+    "ktuberling-b": (["pizzeria_pineapple", "pizzeria_tomato", "skirt", "spectacles", "stick", "sunglasses", "tie",
+                      "tv_car", "tv_train", "tv_tree"], (59.9, 60.1)),
+}
+#: The default run adds the grid's faintest hum without harmonics; the slow run every level.
+HUM_ADDED = [pytest.param(splice, f, level, harmonics, id=f"{splice}-{f:g}Hz-{level:g}dBFS-{harmonics}",
+                          marks=() if (level, harmonics) == (-50.0, False) else pytest.mark.slow)
+             for splice, (_, fundamentals) in HUM_SPLICES.items() for f in fundamentals
+             for level in hum_grid.LEVELS_DBFS for harmonics in hum_grid.HARMONICS]
+
+
+@pytest.fixture(scope="module")
+def splices():
+    """Each splice as one mono take and its rate."""
+    takes = {}
+    for splice, (names, _) in HUM_SPLICES.items():
+        parts = [_read(name) for name in names]
+        takes[splice] = (np.concatenate([x.mean(axis=1) for x, _ in parts]), parts[0][1])
+    return takes
+
+
+@pytest.mark.parametrize("splice", HUM_SPLICES)
+def test_no_hum_in_clean_recorded_speech(splices, splice):
+    assert not find_hum(*splices[splice]).found
+
+
+@pytest.mark.parametrize("splice, fundamental_hz, level_dbfs, harmonics", HUM_ADDED)
+def test_hum_added_to_recorded_speech(splices, splice, fundamental_hz, level_dbfs, harmonics):
+    x, fs = splices[splice]
+    r = find_hum(x + hum_grid.hum_signal(x.size, fs, fundamental_hz, level_dbfs, harmonics), fs)
+    assert r.found, r.reason
+    assert abs(r.fundamental_hz - fundamental_hz) <= hum_grid.FREQ_ABS_HZ, r.fundamental_hz

@@ -197,7 +197,7 @@ def bench_cost(against: str | None) -> dict:
     rows = {name: {label: measured[label][str(i)] for label in roots} for i, name in enumerate(takes)}
     print("\nresonance finder's cost, s (median of 3, a fresh interpreter per revision)")
     for name, row in rows.items():
-        ratio = f"  ({row[against] / row['now']:.1f}x faster now)" if against else ""
+        ratio = f"  ({against} / now: {row[against] / row['now']:.2f})" if against else ""
         print(f"  {name:30s} " + "  ".join(f"{label} {t:6.2f}" for label, t in row.items()) + ratio)
     return rows
 
