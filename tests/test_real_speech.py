@@ -1,4 +1,4 @@
-"""The sibilance and hum finders on real recorded speech (openly licensed; ``tests/data/fetch_speech.sh``).
+"""The finders on real recorded speech (openly licensed; ``tests/data/fetch_speech.sh``).
 
 The recordings are words spoken by real speakers, shipped in two Debian packages (see
 ``tests/data/speech/SOURCES.md`` once fetched): alsa-utils 1.2.8-1's channel announcements
@@ -19,6 +19,10 @@ adds it (``tests/hum_grid.py``: 49.9, 50, 59.9, 60.1 Hz, -50 to -20 dBFS, with a
 harmonics; see HUM_SPLICES for which) the fundamental within 0.05 Hz (the issue's targets;
 the reference is the frequency added). Measured when written: nothing on the three clean
 splices, 64 of 64 within 0.05 Hz, worst 0.023 Hz, RMS 0.0065 Hz.
+
+Resonance: these splices are words recorded apart, each with a few tenths of a second of its
+own pauses (or digital silence), not a take with the room's noise between words; the finder
+must say that it has too few quiet moments rather than read a peak from them.
 """
 
 from pathlib import Path
@@ -30,6 +34,7 @@ from scipy import signal
 
 import hum_grid
 from emulate.voice.hum import find_hum
+from emulate.voice.resonance.finder import find_resonance
 from emulate.voice.sibilance import find_sibilance
 
 DATA = Path(__file__).parent / "data" / "speech"
@@ -164,3 +169,11 @@ def test_hum_added_to_recorded_speech(splices, splice, fundamental_hz, level_dbf
     r = find_hum(x + hum_grid.hum_signal(x.size, fs, fundamental_hz, level_dbfs, harmonics), fs)
     assert r.found, r.reason
     assert abs(r.fundamental_hz - fundamental_hz) <= hum_grid.FREQ_ABS_HZ, r.fundamental_hz
+
+
+@pytest.mark.parametrize("splice", ["alsa-utils", "ktuberling-b"])
+def test_resonance_says_the_pauses_are_too_few(splices, splice):
+    # measured: 0.90 s of quiet moments in the alsa-utils splice (12 % of its samples are digital
+    # silence, which does not count), none in ktuberling-b's; the finder needs 1.5 s
+    r = find_resonance(*splices[splice])
+    assert not r.found and r.reason.startswith("too few quiet moments")

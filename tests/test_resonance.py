@@ -137,7 +137,18 @@ class TestFindResonance:
         assert not r.found and r.reason.startswith("too short")
 
     def test_digital_silence(self):
-        assert not find_resonance(np.zeros(3 * 48000), 48000).found
+        r = find_resonance(np.zeros(3 * 48000), 48000)
+        assert not r.found and r.reason.startswith("too few quiet moments: 0.00 s")
+
+    def test_too_few_quiet_moments_is_said(self):
+        # words (noise 40 dB over the room) with four 0.25 s pauses: under 1 s of quiet moments,
+        # under the 1.5 s the finder needs, though a +12 dB Q 8 peak colours the room's noise
+        fs, rng = 48000, np.random.default_rng(6)
+        x = rng.standard_normal(8 * fs)
+        for start in (1.0, 3.0, 5.0, 7.0):
+            x[int(start * fs) : int((start + 0.25) * fs)] *= 0.01
+        r = find_resonance(signal.lfilter(*grid.peaking_ba(1000, 12, 8, fs), x), fs)
+        assert not r.found and r.reason.startswith("too few quiet moments") and "need at least 1.5 s" in r.reason
 
     def test_rejects_bad_input(self):
         with pytest.raises(BadValueError):

@@ -176,7 +176,8 @@ def resonance(takes, series, plot_path, force, as_json):
 
         marks = [(first.notch.notch_hz, f"notch {first.notch.notch_hz:.0f} Hz")] if first.notch else []
         curves = ({"excess over the neighbourhood": (first.grid_hz, first.excess_db)}
-                  if first.grid_hz is not None else {"(too short)": ([100.0, 1000.0], [float("nan")] * 2)})
+                  if first.grid_hz is not None else {f"(nothing read: {first.reason.split(':')[0]})":
+                                                   ([100.0, 1000.0], [float("nan")] * 2)})
         text += "\nwrote " + str(plots.plot_finding(curves, plot_path, title="the first take against its "
                                                     "neighbourhood", ylabel="dB", marks=marks,
                                                     f_range_hz=(50.0, 20000.0)))

@@ -6,7 +6,8 @@ included. So the finder reads the resonance where the voice is absent. Its stage
 order the data flows, each in the module that does it (whose docstring gives the details and
 what was measured; import the modules by name, e.g. ``emulate.voice.resonance.finder``):
 
-1. quiet moments: 20 ms frames quiet in all and in every octave band (:mod:`.quiet`);
+1. quiet moments: 20 ms frames quiet in all and in every octave band, at least 1.5 s of them
+   (:mod:`.quiet`; the least, :mod:`.finder`);
 2. their spectrum on a 1/96-octave grid, 0.2 s Hann frames over the pieces joined end to end,
    with the smearing the joins cause (:mod:`.quiet`);
 3. candidates: local maxima standing out of the spectrum's running median (:mod:`.fit`);

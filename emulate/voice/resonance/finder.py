@@ -85,6 +85,14 @@ __all__ = ["ResonanceReport", "combine_resonance", "find_resonance"]
 
 #: Takes shorter than this are reported as too short, s.
 MIN_SECONDS = 2.0
+#: ... and takes with less quiet material (stage 1) than this, s: the least the finder is checked
+#: at. The grid's 8 s controls hold 1.64-1.90 s of it and report nothing; with less, a 0.2 s frame's
+#: spectrum scatters towards the least gain accepted (about +-1.2 dB per 5 Hz cell at 1.5 s,
+#: against 4 dB); on real words spliced end to end (``tests/test_real_speech.py``) 0.52 s of
+#: quiet moments in 9 pieces (0.04 s median) read a 4.6 kHz peak of Q 35, 1.32 s in 13 pieces one
+#: of Q 3.5 at 3.9 kHz where the files' own quiet moments peak anywhere from 3.4 to 4.6 kHz. The
+#: grid's cases hold 2.7-8.7 s.
+MIN_QUIET_S = 1.5
 #: A peak read on long frames must be at least this many frame resolutions (1 / LONG_FRAME_S)
 #: wide between its half-gain points: a narrower one is not resolved (one bin's scatter fits it).
 LONG_MIN_WIDTH = 2.5
@@ -172,6 +180,11 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     quiet, lengths = quiet_moments(source, spans)
     if source.seconds < MIN_SECONDS:
         return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
+                               source.seconds, None, (), None)
+    if quiet.size < MIN_QUIET_S * source.fs:
+        return ResonanceReport(False, f"too few quiet moments: {quiet.size / source.fs:.2f} s of the room's noise between "
+                               f"words (digital silence does not count), need at least {MIN_QUIET_S:g} s; give a "
+                               "longer take",
                                source.seconds, None, (), None)
     grid_hz = spectrum_grid_hz(source.fs)
     accepted = []
