@@ -63,6 +63,14 @@ class TestAppliedPeak:
         assert grid.applied_peak(8000.0, 6.0, 10.0, 44100)[1] / 10.0 == pytest.approx(1.26, abs=0.02)
 
 
+#: The wider controls that reported a peak before low peaks had to ring and the long frames'
+#: span had to lie inside the spectrum (62-154 Hz, Q 4-34, +4.6 to +11.9 dB): by default; the
+#: other 84 in the slow run.
+ONCE_REPORTED = {(44100, 95.0, 3004), (44100, 130.0, 3003), (44100, 210.0, 3003), (44100, 210.0, 3004),
+                 (44100, 230.0, 3002), (44100, 230.0, 3003), (48000, 95.0, 3001), (48000, 95.0, 3004),
+                 (48000, 95.0, 3007), (48000, 110.0, 3001), (48000, 110.0, 3004), (48000, 130.0, 3004)}
+
+
 class TestControlledGrid:
     # cases the finder meets on the grid's 30 s takes, picked from the benchmark's table (seeds
     # fixed): a regression guard, not the measure; the measure is the benchmark's whole table
@@ -94,6 +102,13 @@ class TestControlledGrid:
     @pytest.mark.parametrize("case", grid.controls(), ids=lambda c: c.name)
     def test_every_control(self, case):
         assert not find_resonance(grid.make_case(case), case.fs).found
+
+    @pytest.mark.parametrize("case", [pytest.param(c, marks=() if (c.fs, c.pitch_hz, c.seed) in ONCE_REPORTED
+                                                   else pytest.mark.slow) for c in grid.wider_controls()],
+                             ids=lambda c: c.name)
+    def test_wider_controls(self, case):
+        r = find_resonance(grid.make_case(case), case.fs)
+        assert not r.found, (r.peak.frequency_hz, r.peak.q, r.peak.gain_db)
 
     @pytest.mark.slow
     def test_from_630_hz_nearly_every_case_of_the_benchmark(self):

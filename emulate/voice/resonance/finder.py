@@ -76,8 +76,8 @@ from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import label_takes, select_takes
 from emulate.voice.resonance.fit import MAX_GAIN_DB, ResonancePeak, accepted_peaks, excess_db, within_band
-from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, long_spectrum, quiet_moments,
-                                           quiet_spans, quiet_spectrum, spectrum_grid_hz)
+from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
+                                           quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
 from emulate.voice.takes import TakeSource, take_finder
 
@@ -156,8 +156,8 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     Returns
     -------
     ResonanceReport
-        ``found`` is False (with a ``reason``) for a take under 2 s or without an
-        accepted peak.
+        ``found`` is False (with a ``reason``) for a take under 2 s, one with under 1.5 s
+        of quiet moments, or one without an accepted peak.
 
     Raises
     ------
@@ -178,35 +178,13 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     source = TakeSource.of(x, fs)
     spans, pauses = quiet_spans(source)  # reads the whole take first: a damaged file is refused, short or not
     quiet, lengths = quiet_moments(source, spans)
-    if source.seconds < MIN_SECONDS:
-        return ResonanceReport(False, f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s",
-                               source.seconds, None, (), None)
-    if quiet.size < MIN_QUIET_S * source.fs:
-        return ResonanceReport(False, f"too few quiet moments: {quiet.size / source.fs:.2f} s of the room's noise between "
-                               f"words (digital silence does not count), need at least {MIN_QUIET_S:g} s; give a "
-                               "longer take",
-                               source.seconds, None, (), None)
+    refusal = _refusal(source, quiet.size / source.fs)
+    if refusal:
+        return ResonanceReport(False, refusal, source.seconds, None, (), None)
     grid_hz = spectrum_grid_hz(source.fs)
-    accepted = []
     spectrum = quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
-    long = long_spectrum(source, grid_hz, spectrum)
-    low = grid_hz[: long.level_db.size]
-    longer = np.zeros(grid_hz.size, bool)
-    longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
+    accepted = _one_per_peak(_fitted_peaks(source, grid_hz, spectrum), source, pauses, spans, grid_hz)
     mean = excess_db(spectrum.level_db)
-    # stage 6: a broad low peak on the quiet moments
-    broad = accepted_peaks(grid_hz, spectrum, longer, BROAD_WIDTHS / FRAME_S, gain_top_db=gain_top_db)
-    long_peaks = [(misfit, peak) for misfit, peak in
-                  accepted_peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
-                  if not any(within_band(peak.frequency_hz, wide) for _, wide in broad)]
-    quiet_peaks = accepted_peaks(grid_hz, spectrum, ~longer, gain_top_db=gain_top_db) + broad
-    fitted = [(misfit, peak, True) for misfit, peak in quiet_peaks] + \
-        [(misfit, peak, False) for misfit, peak in long_peaks]
-    for _, peak, short in sorted(fitted, key=lambda fitted: fitted[0]):  # of one peak's fits, the best
-        if all(abs(math.log2(peak.frequency_hz / p.frequency_hz)) > 1 / 24 for p in accepted):
-            peak = read_from_ring(source, pauses, spans, grid_hz, peak) if short else peak
-            if peak.gain_db <= MAX_GAIN_DB:  # a ringing peak's gain read again (stage 8)
-                accepted.append(peak)
     if not accepted:
         return ResonanceReport(False, "no narrow persistent peak over the neighbourhood", source.seconds,
                                None, (), None, grid_hz, mean)
@@ -215,6 +193,48 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
     notch = SuggestedNotch.of("resonance", peak.frequency_hz, peak.q, peak.gain_db)
     return ResonanceReport(True, "", source.seconds, peak, tuple(accepted[1:]), notch, grid_hz, mean)
 
+
+def _refusal(source: TakeSource, quiet_s: float) -> str:
+    """Why a take cannot be read (too short, too few quiet moments), or an empty string."""
+    if source.seconds < MIN_SECONDS:
+        return f"too short: {source.seconds:.3f} s, need at least {MIN_SECONDS:g} s"
+    if quiet_s < MIN_QUIET_S:
+        return (f"too few quiet moments: {quiet_s:.2f} s of the room's noise between words (digital silence does "
+                f"not count), need at least {MIN_QUIET_S:g} s; give a longer take")
+    return ""
+
+
+def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[tuple[float, ResonancePeak, bool]]:
+    """Every accepted fit (misfit, peak, read on the quiet moments), stage 6's choice made: in the
+    low range where the long frames average more time than the quiet moments, the long frames'
+    peaks, less those within the band of a broad peak read on the quiet moments; elsewhere the
+    quiet moments'."""
+    long = long_spectrum(source, grid_hz, spectrum)
+    low = grid_hz[: long.level_db.size]
+    longer = np.zeros(grid_hz.size, bool)
+    longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
+    broad = accepted_peaks(grid_hz, spectrum, longer, BROAD_WIDTHS / FRAME_S, gain_top_db=gain_top_db)
+    long_peaks = [(misfit, peak) for misfit, peak in
+                  accepted_peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
+                  if not any(within_band(peak.frequency_hz, wide) for _, wide in broad)]
+    quiet_peaks = accepted_peaks(grid_hz, spectrum, ~longer, gain_top_db=gain_top_db) + broad
+    return [(misfit, peak, True) for misfit, peak in quiet_peaks] + \
+        [(misfit, peak, False) for misfit, peak in long_peaks]
+
+
+def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz) -> list[ResonancePeak]:
+    """Of the fits that land on one peak (within 1/24 octave) the one with the least misfit
+    (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
+    within MAX_GAIN_DB."""
+    accepted, ringless = [], []
+    for _, peak, on_quiet in sorted(fitted, key=lambda fit: fit[0]):
+        if all(abs(math.log2(peak.frequency_hz / f_hz)) > 1 / 24 for f_hz in [p.frequency_hz for p in accepted] + ringless):
+            read = read_from_ring(source, pauses, spans, grid_hz, peak) if on_quiet else peak
+            if read is None:
+                ringless.append(peak.frequency_hz)
+            elif read.gain_db <= MAX_GAIN_DB:
+                accepted.append(read)
+    return accepted
 
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).
 OUTLIER_OCTAVES = 1.0 / 12.0
