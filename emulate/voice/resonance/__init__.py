@@ -17,7 +17,8 @@ what was measured; import the modules by name, e.g. ``emulate.voice.resonance.fi
 6. the low range (under 400 Hz) also on 1 s frames gated per grid point (:mod:`.quiet`; which
    reading counts where, :mod:`.finder`);
 7. one fit per peak, the strongest reported with a suggested notch (:mod:`.finder`);
-8. a low ringing peak's centre, Q and gain read from its ring after the words (:mod:`.ring`).
+8. a low ringing peak's centre, Q and gain read from its ring after the words; under 160 Hz a
+   peak that does not ring is not reported (:mod:`.ring`).
 
 :mod:`.finder` gives what the whole finder measures on the controlled grid, what was tried and
 not kept, and what is left.

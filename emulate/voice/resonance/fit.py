@@ -262,6 +262,8 @@ def accepted_peaks(grid_hz, quiet: QuietSpectrum, inside: np.ndarray, min_width_
         if fit is None:
             continue
         f0, gain, q, misfit = fit
+        if span_rule(quiet).least_octaves and f0 * 2.0 ** -span_rule(quiet).least_octaves < grid_hz[0]:
+            continue
         if not MIN_GAIN_DB <= gain <= gain_top_db(f0) or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
                 or f0 / q < min_width_hz:
             continue

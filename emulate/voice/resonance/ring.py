@@ -116,7 +116,9 @@ LEAST_RING_DIP_DB = 1.0
 #: rates; the grid's own controls report nothing): 7 such peaks at 73-154 Hz (Q 9-34, +4.6 to
 #: +11.9 dB) whose "ring" was the band's own (poles' Q 3.5-4.4, 8-14 % above the peak), now none;
 #: every grid reading unchanged. Not above DECAY_TOP_HZ: there a resonance's ring dies within tens
-#: of ms and six grid cases at 630 Hz (+6 dB Q 20, +15 dB Q 10) have none that can be read.
+#: of ms and six grid cases at 630 Hz (+6 dB Q 20, +15 dB Q 10) have none that can be read; but
+#: up to DECAY_HIGH_TOP_HZ a ring that is read and is no longer than the band's own rejects the
+#: peak (a 200 Hz Q 28 'peak' on an 8 s hum-grid take; every grid reading unchanged).
 
 
 @dataclass(frozen=True)
@@ -243,7 +245,9 @@ def read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePe
     if peak.frequency_hz >= DECAY_HIGH_TOP_HZ or pole_q < least_pole_q:
         return peak
     ring = _decay_ring(source, pauses, peak.frequency_hz)
-    if ring is None or not math.isfinite(ring.hz) or ring.pole_q < DECAY_MIN_POLE_Q:
+    if ring is not None and math.isfinite(ring.hz) and ring.pole_q < DECAY_MIN_POLE_Q:
+        return None  # the measuring band's own ring and no other
+    if ring is None or not math.isfinite(ring.hz):
         return None if peak.frequency_hz < DECAY_TOP_HZ else peak  # no ring: not a resonance (see above)
     if abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
         return peak  # another peak's ring (farther than stage 7's one peak)
