@@ -326,6 +326,14 @@ class TestCombineResonance:
         assert r.set_aside[0] == "e: an exact repeat of an earlier take"
         assert r.set_aside[1].startswith("d: its peak 1500 Hz") and r.peak.frequency_hz == pytest.approx(1000, rel=0.01)
 
+    def test_two_takes_that_disagree_are_not_averaged(self):
+        r = combine_resonance([self._report(630.0), self._report(100.0, 30.0)])
+        assert not r.found and r.peak is None
+        assert r.reason.startswith("the takes' peaks disagree: 100 to 630 Hz, over a semitone from their median;")
+
+    def test_takes_within_a_semitone_are_pooled(self):
+        assert combine_resonance([self._report(1000.0), self._report(1050.0)]).found
+
     def test_found_in_under_half_the_takes(self):
         none = ResonanceReport(False, "no narrow persistent peak", 10.0, None, (), None)
         r = combine_resonance([self._report(1000), none, ResonanceReport(False, "x", 11.0, None, (), None)])

@@ -128,7 +128,9 @@ def bench_resonance(stride: int) -> dict:
         near = bool(np.isfinite(f_err) and abs(f_err) <= resonance_grid.FREQ_REL)
         freq_only[f"{case.centre_hz:g} Hz"][0] += near
         freq_only[f"{case.centre_hz:g} Hz"][1] += 1
-        rows.append({"case": case.name, "passes": ok, "f_err": f_err, "q_err": q_err})
+        spreads = (report.peak.frequency_spread, report.peak.q_spread) if report.found else (np.nan, np.nan)
+        rows.append({"case": case.name, "passes": ok, "f_err": f_err, "q_err": q_err,
+                     "f_spread": spreads[0], "q_spread": spreads[1]})
     reported = [c.name for c in resonance_grid.controls()
                 if find_resonance(resonance_grid.make_case(c), c.fs).found]
     found, total = sum(v[0] for v in cells.values()), sum(v[1] for v in cells.values())
@@ -139,8 +141,25 @@ def bench_resonance(stride: int) -> dict:
           f"{len(resonance_grid.controls())} (target 0)")
     for row in rows:
         if not row["passes"]:
-            print(f"  miss: {row['case']}: frequency {row['f_err']:+.3f}, Q {row['q_err']:+.2f}")
+            print(f"  miss: {row['case']}: frequency {row['f_err']:+.3f}, Q {row['q_err']:+.2f} (the least spread "
+                  f"the take allows: {row['f_spread']:.3f}, {row['q_spread']:.2f})")
+    _spread_summary(rows)
     return {"found": found, "cases": total, "rows": rows, "controls_reported": reported}
+
+
+def _spread_summary(rows) -> None:
+    """How the readings' errors compare with the least spread each take allows (the report's
+    frequency_spread and q_spread, emulate.voice.resonance.spread)."""
+    read = [r for r in rows if np.isfinite(r["f_err"]) and np.isfinite(r["f_spread"])]
+    if not read:
+        return
+    z_f = np.array([r["f_err"] / r["f_spread"] for r in read])
+    z_q = np.array([r["q_err"] / r["q_spread"] for r in read])
+    tight_f = sum(r["f_spread"] > resonance_grid.FREQ_REL / 2 for r in read)
+    tight_q = sum(r["q_spread"] > resonance_grid.Q_REL / 2 for r in read)
+    print(f"  errors over the least spread the take allows ({len(read)} readings): frequency RMS {np.sqrt(np.mean(z_f**2)):.2f}"
+          f" (median |.| {np.median(np.abs(z_f)):.2f}), Q RMS {np.sqrt(np.mean(z_q**2)):.2f} (median |.| "
+          f"{np.median(np.abs(z_q)):.2f}); takes whose least spread exceeds half the target: frequency {tight_f}, Q {tight_q}")
 
 
 _TIME_TAKES = """

@@ -16,7 +16,8 @@ what was measured; import the modules by name, e.g. ``emulate.voice.resonance.fi
 5. accepted: gain, Q, misfit and persistence in both halves of the quiet material (:mod:`.fit`);
 6. the low range (under 400 Hz) also on 1 s frames gated per grid point (:mod:`.quiet`; which
    reading counts where, :mod:`.finder`);
-7. one fit per peak, the strongest reported with a suggested notch (:mod:`.finder`);
+7. one fit per peak, the strongest reported with a suggested notch (:mod:`.finder`) and the least
+   spread of its centre and Q that the material it was read on allows (:mod:`.spread`);
 8. a low ringing peak's centre, Q and gain read from its ring after the words; under 160 Hz a
    peak that does not ring is not reported (:mod:`.ring`).
 

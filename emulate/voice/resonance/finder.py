@@ -4,7 +4,8 @@ stages are listed in :mod:`emulate.voice.resonance`).
 7. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
    fit, and least squares can stop in a local minimum) the one with the least misfit is
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
-   Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``).
+   Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``), and the least spread of its centre
+   and Q that the spectrum it was read on allows (:mod:`emulate.voice.resonance.spread`).
 
 Measured on the controlled grid (``tests/resonance_grid.py``: 30 s takes, which says why;
 ``bench_finders.py`` prints the table): 286 of 288 cases meet frequency within 2 % and Q
@@ -79,6 +80,7 @@ from emulate.voice.resonance.fit import MAX_GAIN_DB, ResonancePeak, accepted_pea
 from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
+from emulate.voice.resonance.spread import with_least_spread
 from emulate.voice.takes import TakeSource, take_finder
 
 __all__ = ["ResonanceReport", "combine_resonance", "find_resonance"]
@@ -204,8 +206,8 @@ def _refusal(source: TakeSource, quiet_s: float) -> str:
     return ""
 
 
-def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[tuple[float, ResonancePeak, bool]]:
-    """Every accepted fit (misfit, peak, read on the quiet moments), stage 6's choice made: in the
+def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[tuple[float, ResonancePeak, QuietSpectrum]]:
+    """Every accepted fit (misfit, peak, the spectrum it was read on), stage 6's choice made: in the
     low range where the long frames average more time than the quiet moments, the long frames'
     peaks, less those within the band of a broad peak read on the quiet moments; elsewhere the
     quiet moments'."""
@@ -218,22 +220,23 @@ def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[
                   accepted_peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
                   if not any(within_band(peak.frequency_hz, wide) for _, wide in broad)]
     quiet_peaks = accepted_peaks(grid_hz, spectrum, ~longer, gain_top_db=gain_top_db) + broad
-    return [(misfit, peak, True) for misfit, peak in quiet_peaks] + \
-        [(misfit, peak, False) for misfit, peak in long_peaks]
+    return [(misfit, peak, spectrum) for misfit, peak in quiet_peaks] + \
+        [(misfit, peak, long) for misfit, peak in long_peaks]
 
 
 def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz) -> list[ResonancePeak]:
     """Of the fits that land on one peak (within 1/24 octave) the one with the least misfit
     (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
-    within MAX_GAIN_DB."""
+    within MAX_GAIN_DB, each with the least spread its spectrum's material allows
+    (:mod:`emulate.voice.resonance.spread`)."""
     accepted, ringless = [], []
-    for _, peak, on_quiet in sorted(fitted, key=lambda fit: fit[0]):
+    for _, peak, spectrum in sorted(fitted, key=lambda fit: fit[0]):
         if all(abs(math.log2(peak.frequency_hz / f_hz)) > 1 / 24 for f_hz in [p.frequency_hz for p in accepted] + ringless):
-            read = read_from_ring(source, pauses, spans, grid_hz, peak) if on_quiet else peak
+            read = peak if spectrum.long_frames else read_from_ring(source, pauses, spans, grid_hz, peak)
             if read is None:
                 ringless.append(peak.frequency_hz)
             elif read.gain_db <= MAX_GAIN_DB:
-                accepted.append(read)
+                accepted.append(with_least_spread(grid_hz[: spectrum.level_db.size], spectrum, read))
     return accepted
 
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).
@@ -247,9 +250,12 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
     are left out and, with three or more takes that found a peak, one whose
     peak lies more than a semitone from the others' is set aside
     (:func:`emulate.voice.pooling.select_takes`; ``set_aside`` says which and why). The
-    resonance is found when at least half the pooled takes found it; its frequency is the
+    resonance is found when at least half the pooled takes found it and their peaks agree (each
+    within a semitone of their median: one room and one microphone ring at one frequency, and
+    two that disagree cannot be told apart, nor averaged into a peak neither has); its frequency is the
     duration-weighted geometric mean of theirs, its Q and gain the duration-weighted means,
-    its persistence the share of pooled takes that found it.
+    its persistence the share of pooled takes that found it, its least spreads those of the
+    weighted means of independent readings.
 
     Parameters
     ----------
@@ -290,10 +296,30 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
     if not found or len(found) < len(pool) / 2.0:
         return ResonanceReport(False, f"a resonance in {len(found)} of {len(pool)} takes (need half)", seconds,
                                None, (), None, set_aside=tuple(aside))
+    disagreement = _disagreement([r.peak.frequency_hz for r in found])
+    if disagreement:
+        return ResonanceReport(False, disagreement, seconds, None, (), None, set_aside=tuple(aside))
     w = np.array([r.seconds for r in found])
     f0 = float(2.0 ** np.average([math.log2(r.peak.frequency_hz) for r in found], weights=w))
     q = float(np.average([r.peak.q for r in found], weights=w))
     gain = float(np.average([r.peak.gain_db for r in found], weights=w))
-    peak = ResonancePeak(f0, q, gain, len(found) / len(pool))
+    spread_f = _weighted_spread(w, [r.peak.frequency_spread for r in found])
+    spread_q = _weighted_spread(w, [r.peak.q_spread * r.peak.q for r in found]) / q
+    peak = ResonancePeak(f0, q, gain, len(found) / len(pool), spread_f, spread_q)
     return ResonanceReport(True, "", seconds, peak, (), SuggestedNotch.of("resonance", f0, q, gain),
                            set_aside=tuple(aside))
+
+
+def _disagreement(frequencies_hz) -> str:
+    """Why the takes' peaks cannot be pooled (one lies over OUTLIER_OCTAVES from their median), or ""."""
+    f = np.asarray(frequencies_hz, dtype=np.float64)
+    if np.max(np.abs(np.log2(f / np.median(f)))) <= OUTLIER_OCTAVES:
+        return ""
+    return (f"the takes' peaks disagree: {f.min():.4g} to {f.max():.4g} Hz, over a semitone from their median; "
+            f"one room and microphone ring at one frequency, so pool takes of one or read each alone")
+
+
+def _weighted_spread(weights, spreads) -> float:
+    """The spread of a weighted mean of independent readings with these spreads (nan if any is)."""
+    weights = np.asarray(weights, dtype=np.float64)
+    return float(np.sqrt(np.sum((weights * np.asarray(spreads, dtype=np.float64)) ** 2)) / weights.sum())

@@ -33,8 +33,8 @@ import numpy as np
 
 from emulate.voice.resonance.quiet import GRID_PER_OCTAVE, MIN_FRAMES, QuietSpectrum
 
-__all__ = ["ResonancePeak", "SpanRule", "accepted_peaks", "excess_db", "heights", "peaking_db", "span_rule",
-           "within_band", "within_widths"]
+__all__ = ["ResonancePeak", "SpanRule", "accepted_peaks", "excess_db", "heights", "peaking_db", "smeared_db",
+           "span_rule", "within_band", "within_widths"]
 
 #: The neighbourhood's half width, octaves.
 NEIGHBOURHOOD_OCTAVES = 1.0
@@ -90,6 +90,10 @@ class SpanRule:
     repeats: int
     least_octaves: float
 
+    def reach(self, q: float) -> float:
+        """How far either side of the centre a fit of a peak of Q ``q`` reads, octaves."""
+        return max(self.widths / q, self.least_octaves)
+
 
 QUIET_SPAN = SpanRule(QUIET_FIT_WIDTHS, FIT_REPEATS, 0.0)
 LONG_SPAN = SpanRule(FIT_WIDTHS, 0, LONG_MIN_SPAN_OCTAVES)
@@ -113,13 +117,18 @@ class ResonancePeak:
     gain_db : float
         Height over the neighbourhood, dB.
     persistence : float
-        Share of the take's quarters where it stands out, 0..1.
+        Share of the take's halves where it stands out, 0..1.
+    frequency_spread, q_spread : float
+        The least relative spread (one standard deviation) of the centre and the Q that the
+        take's quiet material allows (:mod:`emulate.voice.resonance.spread`); nan where not known.
     """
 
     frequency_hz: float
     q: float
     gain_db: float
     persistence: float
+    frequency_spread: float = math.nan
+    q_spread: float = math.nan
 
 
 def peaking_db(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:
@@ -143,7 +152,7 @@ def _peaking_power(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:
     return (real + x2 * (a / q) ** 2) / (real + x2 / (a * q) ** 2)
 
 
-def _smeared_db(f_hz, f0: float, gain: float, q: float, kernel) -> np.ndarray:
+def smeared_db(f_hz, f0: float, gain: float, q: float, kernel) -> np.ndarray:
     """The peaking response as the quiet spectrum sees it (its power smeared by ``kernel``,
     offsets and weights from :func:`smearing_kernel`), dB."""
     offsets, weights = kernel
@@ -191,7 +200,7 @@ def _fit_span(grid_hz, quiet: QuietSpectrum, centre: float, q_span: float, start
     from scipy.optimize import least_squares
 
     rule = span_rule(quiet)
-    reach = max(rule.widths / q_span, rule.least_octaves)
+    reach = rule.reach(q_span)
     span = (centre * 2.0 ** -reach, centre * 2.0 ** reach)
     if centre * 2.0 ** -rule.least_octaves < grid_hz[0]:
         return None  # its least span reaches under the spectrum: one skirt seen (LONG_MIN_SPAN_OCTAVES)
@@ -202,7 +211,7 @@ def _fit_span(grid_hz, quiet: QuietSpectrum, centre: float, q_span: float, start
     bounds = ([span[0], 0.0, 0.3, -400.0, -60.0], [span[1], 40.0, 200.0, 100.0, 60.0])
 
     def misfit(p):
-        return _smeared_db(f_fit, p[0], p[1], p[2], quiet.kernel) + p[3] + p[4] * np.log2(f_fit / centre) - target
+        return smeared_db(f_fit, p[0], p[1], p[2], quiet.kernel) + p[3] + p[4] * np.log2(f_fit / centre) - target
 
     try:
         result = least_squares(misfit, np.clip(start, *bounds), bounds=bounds)
@@ -233,7 +242,7 @@ def heights(f, f0: float, gain: float, q: float, kernel, levels) -> list[float]:
     """How many times the peaking response (``f0``, ``gain``, ``q``, as the quiet spectrum sees it:
     smeared by ``kernel``) each of ``levels`` (dB at ``f``) shows: its least-squares scale, with a
     level and a tilt free too."""
-    columns = np.stack((_smeared_db(f, f0, gain, q, kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    columns = np.stack((smeared_db(f, f0, gain, q, kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
     return [float(np.linalg.lstsq(columns, level, rcond=None)[0][0]) for level in levels]
 
 
