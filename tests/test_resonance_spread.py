@@ -1,5 +1,5 @@
-"""Tests of the least spread a take's quiet material allows a resonance's reading
-(emulate.voice.resonance.spread).
+"""Tests of how closely a take pins a resonance's reading: the least spread its quiet material
+allows (emulate.voice.resonance.spread) or, read from its ring, its decays' scatter.
 
 References: the Cramer-Rao bound under Whittle's approximation to a Gaussian stationary
 noise's likelihood (e.g. Percival & Walden, Spectral Analysis for Physical Applications, from
@@ -7,7 +7,9 @@ memory), checked here three ways: against the same information computed from sym
 derivatives of the cookbook's analog peaking response (R. Bristow-Johnson's audio EQ cookbook);
 against the scatter of Whittle's maximum-likelihood fit, by scipy.optimize, to the periodograms of
 white noise through the cookbook's peaking biquad (the bound is met by an efficient reading);
-and against the scatter of the finder's own readings of such noise.
+and against the scatter of the finder's own readings of such noise. A peak read from its ring
+after the words carries the scatter of the decays it was read from instead (the median's standard
+error, checked against the scatter of medians of normal draws).
 """
 
 import math
@@ -21,6 +23,7 @@ import resonance_grid as grid
 from emulate.voice.resonance.finder import ResonanceReport, combine_resonance, find_resonance
 from emulate.voice.resonance.fit import ResonancePeak, peaking_db
 from emulate.voice.resonance.quiet import GRID_PER_OCTAVE, QuietSpectrum, spectrum_grid_hz
+from emulate.voice.resonance.ring import median_spread
 from emulate.voice.resonance.spread import least_spread
 
 UNSMEARED = (np.zeros(1), np.ones(1))
@@ -43,7 +46,7 @@ def _symbolic_spread(grid_hz, seconds, f0, gain, q, reach):
     rows = [d(fk, f0, gain, q) * np.ones(fk.size) for d in gradient] + [np.ones(fk.size), np.log2(fk / f0)]
     jacobian = np.array(rows)
     bound = np.linalg.inv((jacobian * cells) @ jacobian.T)
-    return math.sqrt(bound[0, 0]) / f0, math.sqrt(bound[2, 2]) / q
+    return math.sqrt(bound[0, 0]) / f0, math.sqrt(bound[2, 2]) / q, math.sqrt(bound[1, 1])
 
 
 class TestLeastSpread:
@@ -57,7 +60,7 @@ class TestLeastSpread:
     def test_four_times_the_time_half_the_spread(self):
         peak = ResonancePeak(630.0, 10.0, 6.0, 1.0)
         short, long = (least_spread(*_spectrum(44100, s), peak) for s in (2.0, 8.0))
-        assert short == pytest.approx(tuple(2.0 * v for v in long), rel=1e-9)
+        assert short == pytest.approx(tuple(2.0 * v for v in long), rel=1e-9)  # centre, Q and gain
 
     def test_smearing_loses_information(self):
         """A narrow low peak seen through 0.2 s frames (a Hann window's power response, +-10 Hz) is
@@ -67,7 +70,7 @@ class TestLeastSpread:
         peak = ResonancePeak(100.0, 20.0, 6.0, 1.0)
         exact = least_spread(*_spectrum(48000, 6.0), peak)
         smeared = least_spread(*_spectrum(48000, 6.0, (offsets, weights / weights.sum())), peak)
-        assert smeared[0] > exact[0] and smeared[1] > exact[1]
+        assert all(s > e for s, e in zip(smeared, exact))
 
     def test_nothing_to_read_is_nan(self):
         grid_hz, quiet = _spectrum(48000, 0.0)
@@ -94,7 +97,7 @@ class TestLeastSpread:
             fit = optimize.minimize(minus_log_likelihood, [f0, 10.0, q, 0.0, 0.0], method="Nelder-Mead",
                                     options={"maxiter": 20000, "xatol": 1e-7, "fatol": 1e-9})
             readings.append((fit.x[0] / f0 - 1.0, fit.x[2] / q - 1.0))
-        bound = least_spread(*_spectrum(fs, seconds), ResonancePeak(f0, q, 10.0, 1.0))
+        bound = least_spread(*_spectrum(fs, seconds), ResonancePeak(f0, q, 10.0, 1.0))[:2]
         scatter = np.std(readings, axis=0)
         # 30 readings: a standard deviation read to about +-13 % (one s.d.)
         assert scatter[0] == pytest.approx(bound[0], rel=0.35) and scatter[1] == pytest.approx(bound[1], rel=0.35)
@@ -121,6 +124,26 @@ class TestInTheReport:
         peak = ResonancePeak(1000.0, 8.0, 12.0, 1.0)
         r = combine_resonance([ResonanceReport(True, "", 10.0, peak, (), None)])
         assert math.isnan(r.peak.frequency_spread) and math.isnan(r.peak.q_spread)
+
+
+class TestRingSpread:
+    def test_median_spread_is_the_medians_standard_deviation(self):
+        """The standard deviation of the median of n normal draws tends to sqrt(pi / (2 n)) sigma (the
+        sample median's asymptotic variance, e.g. Kendall & Stuart, from memory); read from the draws'
+        own scatter, over 4000 sets of 25 draws, it matches the medians' scatter."""
+        draws = np.random.default_rng(3).normal(0.0, 2.0, size=(4000, 25))
+        medians_scatter = np.std(np.median(draws, axis=1))
+        assert medians_scatter == pytest.approx(2.0 * math.sqrt(math.pi / 50.0), rel=0.1)
+        assert np.mean([median_spread(row) for row in draws]) == pytest.approx(medians_scatter, rel=0.1)
+
+    def test_too_few_is_nan(self):
+        assert math.isnan(median_spread([1.0, float("nan"), 2.0]))
+
+    @pytest.mark.slow
+    def test_a_peak_read_from_its_ring_carries_its_decays_scatter(self):
+        case = next(c for c in grid.grid_cases() if c.name == "fc=100 gain=10 q=20 fs=44100 pitch=110")
+        peak = find_resonance(grid.make_case(case), case.fs).peak
+        assert peak.from_ring and 0.0 < peak.frequency_spread < 0.01 and 0.0 < peak.q_spread < 0.3
 
 
 @pytest.mark.slow

@@ -405,7 +405,7 @@ def resonance_payload(take, report, designed) -> dict:
     def peak(p):
         return None if p is None else {"frequency_hz": p.frequency_hz, "q": p.q, "gain_db": p.gain_db,
                                        "persistence": p.persistence, "frequency_spread": p.frequency_spread,
-                                       "q_spread": p.q_spread}
+                                       "q_spread": p.q_spread, "from_ring": p.from_ring}
 
     return {"take": str(take), "found": report.found, "reason": report.reason, "seconds": report.seconds,
             "peak": peak(report.peak), "others": [peak(p) for p in report.others],
@@ -419,8 +419,10 @@ def resonance_text(take, report, designed) -> str:
     lines = [f"{take}: resonance at {p.frequency_hz:.1f} Hz, Q {p.q:.1f}, {p.gain_db:+.1f} dB over its "
              f"neighbourhood, in {p.persistence:.0%} of the take"]
     if math.isfinite(p.frequency_spread) and math.isfinite(p.q_spread):
-        lines.append(f"  the room's noise it was read on pins it at best to +-{p.frequency_spread:.1%} in frequency "
-                     f"and +-{p.q_spread:.0%} in Q (one standard deviation); more takes narrow it")
+        how = ("read from its ring after the words, which scatter" if p.from_ring else
+               "the room's noise it was read on pins it at best to")
+        lines.append(f"  {how} +-{p.frequency_spread:.1%} in frequency and +-{p.q_spread:.0%} in Q "
+                     f"(one standard deviation); more takes narrow it")
     lines += [f"  also {o.frequency_hz:.1f} Hz, Q {o.q:.1f}, {o.gain_db:+.1f} dB" for o in report.others]
     return "\n".join(lines + _notch_lines(designed))
 

@@ -80,7 +80,7 @@ from emulate.voice.resonance.fit import MAX_GAIN_DB, ResonancePeak, accepted_pea
 from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
-from emulate.voice.resonance.spread import with_least_spread
+from emulate.voice.resonance.spread import with_stated_spread
 from emulate.voice.takes import TakeSource, take_finder
 
 __all__ = ["ResonanceReport", "combine_resonance", "find_resonance"]
@@ -227,8 +227,8 @@ def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[
 def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz) -> list[ResonancePeak]:
     """Of the fits that land on one peak (within 1/24 octave) the one with the least misfit
     (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
-    within MAX_GAIN_DB, each with the least spread its spectrum's material allows
-    (:mod:`emulate.voice.resonance.spread`)."""
+    within MAX_GAIN_DB, each with the spreads its report states
+    (:func:`emulate.voice.resonance.spread.with_stated_spread`)."""
     accepted, ringless = [], []
     for _, peak, spectrum in sorted(fitted, key=lambda fit: fit[0]):
         if all(abs(math.log2(peak.frequency_hz / f_hz)) > 1 / 24 for f_hz in [p.frequency_hz for p in accepted] + ringless):
@@ -236,7 +236,7 @@ def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz) -> list[Re
             if read is None:
                 ringless.append(peak.frequency_hz)
             elif read.gain_db <= MAX_GAIN_DB:
-                accepted.append(with_least_spread(grid_hz[: spectrum.level_db.size], spectrum, read))
+                accepted.append(with_stated_spread(grid_hz[: spectrum.level_db.size], spectrum, read))
     return accepted
 
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).
@@ -305,7 +305,8 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
     gain = float(np.average([r.peak.gain_db for r in found], weights=w))
     spread_f = _weighted_spread(w, [r.peak.frequency_spread for r in found])
     spread_q = _weighted_spread(w, [r.peak.q_spread * r.peak.q for r in found]) / q
-    peak = ResonancePeak(f0, q, gain, len(found) / len(pool), spread_f, spread_q)
+    peak = ResonancePeak(f0, q, gain, len(found) / len(pool), spread_f, spread_q,
+                         from_ring=all(r.peak.from_ring for r in found))
     return ResonanceReport(True, "", seconds, peak, (), SuggestedNotch.of("resonance", f0, q, gain),
                            set_aside=tuple(aside))
 

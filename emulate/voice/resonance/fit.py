@@ -119,8 +119,13 @@ class ResonancePeak:
     persistence : float
         Share of the take's halves where it stands out, 0..1.
     frequency_spread, q_spread : float
-        The least relative spread (one standard deviation) of the centre and the Q that the
-        take's quiet material allows (:mod:`emulate.voice.resonance.spread`); nan where not known.
+        How closely the take pins the centre and the Q, relative, one standard deviation: for a
+        reading of the quiet spectrum the least spread its material allows
+        (:mod:`emulate.voice.resonance.spread`), for one read from its ring the scatter of the
+        decays it was read from (:func:`emulate.voice.resonance.ring.median_spread`; the Q's
+        is its poles' Q's); nan where not known.
+    from_ring : bool
+        Read from its ring after the words (stage 8) rather than from the quiet spectrum.
     """
 
     frequency_hz: float
@@ -129,6 +134,7 @@ class ResonancePeak:
     persistence: float
     frequency_spread: float = math.nan
     q_spread: float = math.nan
+    from_ring: bool = False
 
 
 def peaking_db(f_hz, f0_hz: float, gain_db: float, q: float) -> np.ndarray:

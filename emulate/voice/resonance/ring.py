@@ -55,7 +55,7 @@ from emulate.voice.resonance.quiet import (FRAME_S, LOW_RANGE_HZ, MIN_FRAMES, QU
                                            power_db, quiet_spectrum, smearing_kernel)
 from emulate.voice.takes import TakeSource
 
-__all__ = ["Ring", "gain_top_db", "read_from_ring"]
+__all__ = ["Ring", "gain_top_db", "median_spread", "read_from_ring"]
 
 #: The low range's centre and Q from the ring after words (:func:`_decay_ring`): read for a peak under
 #: DECAY_TOP_HZ found on the quiet moments (not the long frames) whose poles' Q (``A Q``,
@@ -123,10 +123,14 @@ LEAST_RING_DIP_DB = 1.0
 
 @dataclass(frozen=True)
 class Ring:
-    """A resonance's free ring after the words: its poles' Q and its undamped centre, Hz."""
+    """A resonance's free ring after the words: its poles' Q and its undamped centre, Hz, and
+    how closely the decays pin each (relative, one standard deviation of their median:
+    :func:`median_spread`; nan where unknown)."""
 
     pole_q: float
     hz: float
+    pole_q_spread: float = math.nan
+    hz_spread: float = math.nan
 
 
 def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> Ring | None:
@@ -163,7 +167,28 @@ def _decay_ring(source: TakeSource, spans: list[tuple[int, int]], f0: float) -> 
     if slope >= 0.0:
         return None
     pole_q = 20.0 / math.log(10.0) * math.pi * f0 / -slope
-    return Ring(pole_q, float(np.nanmedian(crossings)) / math.sqrt(1.0 - 1.0 / (4.0 * pole_q**2)))
+    crossing_hz = float(np.nanmedian(crossings))
+    return Ring(pole_q, crossing_hz / math.sqrt(1.0 - 1.0 / (4.0 * pole_q**2)),
+                median_spread(slopes) / -slope, median_spread(crossings) / crossing_hz)
+
+
+def median_spread(values) -> float:
+    """The standard deviation of the median of ``values`` (NaNs aside) read from their own scatter:
+    ``sqrt(pi / 2) * 1.4826 * MAD / sqrt(n)`` (the median's asymptotic standard error for a normal
+    scatter, the median absolute deviation scaled to a standard deviation; e.g. Kendall & Stuart,
+    from memory); nan with fewer than three.
+
+    Example
+    -------
+    >>> round(median_spread([1.0, 2.0, 3.0, 4.0, 5.0]), 3)
+    0.831
+    """
+    v = np.asarray(values, dtype=np.float64)
+    v = v[np.isfinite(v)]
+    if v.size < 3:
+        return math.nan
+    mad = float(np.median(np.abs(v - np.median(v))))
+    return math.sqrt(math.pi / 2.0) * 1.4826 * mad / math.sqrt(v.size)
 
 
 def _ring_band(f0: float, fs: float) -> np.ndarray:
@@ -255,7 +280,8 @@ def read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePe
     gain = _unrung_gain(source, spans, grid_hz, ring) if gain is None else gain
     gain = peak.gain_db if gain is None else gain
     q = ring.pole_q / 10.0 ** (gain / 40.0)
-    return ResonancePeak(ring.hz, q, gain, peak.persistence) if MIN_Q <= q <= MAX_Q else peak
+    read = ResonancePeak(ring.hz, q, gain, peak.persistence, ring.hz_spread, ring.pole_q_spread, from_ring=True)
+    return read if MIN_Q <= q <= MAX_Q else peak
 
 
 def _unrung_gain(source, spans, grid_hz, ring: Ring) -> float | None:
