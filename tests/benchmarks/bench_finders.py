@@ -141,8 +141,8 @@ def bench_resonance(stride: int) -> dict:
           f"{len(resonance_grid.controls())} (target 0)")
     for row in rows:
         if not row["passes"]:
-            print(f"  miss: {row['case']}: frequency {row['f_err']:+.3f}, Q {row['q_err']:+.2f} (the least spread "
-                  f"the take allows: {row['f_spread']:.3f}, {row['q_spread']:.2f})")
+            print(f"  miss: {row['case']}: frequency {row['f_err']:+.3f}, Q {row['q_err']:+.2f} (spread stated: "
+                  f"{row['f_spread']:.3f}, {row['q_spread']:.2f})")
     _spread_summary(rows)
     return {"found": found, "cases": total, "rows": rows, "controls_reported": reported}
 
