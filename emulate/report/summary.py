@@ -409,12 +409,14 @@ def resonance_payload(take, report, designed) -> dict:
 
     return {"take": str(take), "found": report.found, "reason": report.reason, "seconds": report.seconds,
             "peak": peak(report.peak), "others": [peak(p) for p in report.others],
-            "notches": [_notch_fields(d) for d in designed]}
+            "steady_tones_hz": list(report.steady_tones_hz), "notches": [_notch_fields(d) for d in designed]}
 
 
 def resonance_text(take, report, designed) -> str:
+    tones = ([f"  steady tones between the words, not resonances: {', '.join(f'{f:.1f} Hz' for f in report.steady_tones_hz)}"
+              " (a whine or a mains line: `hum` reads mains hum)"] if report.steady_tones_hz else [])
     if not report.found:
-        return f"{take}: no resonance ({report.reason})"
+        return "\n".join([f"{take}: no resonance ({report.reason})", *tones])
     p = report.peak
     lines = [f"{take}: resonance at {p.frequency_hz:.1f} Hz, Q {p.q:.1f}, {p.gain_db:+.1f} dB over its "
              f"neighbourhood, in {p.persistence:.0%} of the take"]
@@ -424,7 +426,7 @@ def resonance_text(take, report, designed) -> str:
         lines.append(f"  {how} +-{p.frequency_spread:.1%} in frequency and +-{p.q_spread:.0%} in Q "
                      f"(one standard deviation); more takes narrow it")
     lines += [f"  also {o.frequency_hz:.1f} Hz, Q {o.q:.1f}, {o.gain_db:+.1f} dB" for o in report.others]
-    return "\n".join(lines + _notch_lines(designed))
+    return "\n".join(lines + tones + _notch_lines(designed))
 
 
 def sweep_text(result, csv_path, json_path, page_path=None) -> str:

@@ -17,7 +17,9 @@ what was measured; import the modules by name, e.g. ``emulate.voice.resonance.fi
 6. the low range (under 400 Hz) also on 1 s frames gated per grid point (:mod:`.quiet`; which
    reading counts where, :mod:`.finder`);
 7. one fit per peak, the strongest reported with a suggested notch (:mod:`.finder`) and the least
-   spread of its centre and Q that the material it was read on allows (:mod:`.spread`);
+   spread of its centre and Q that the material it was read on allows (:mod:`.spread`); a peak
+   whose level between the words holds steady is a tone (a whine, a mains line), listed apart
+   and not reported as a resonance (:mod:`.steady`);
 8. a low ringing peak's centre, Q and gain read from its ring after the words; under 160 Hz a
    peak that does not ring is not reported (:mod:`.ring`).
 
@@ -26,8 +28,9 @@ not kept, and what is left.
 
 What the finder does *not* do: it does not tell a resonance of the room from one of the
 microphone; a resonance that only the voice excites (a take whose quiet moments are
-electrical noise or digital silence) is not seen; a steady tone in the quiet moments
-reads as a (very narrow) resonance.
+electrical noise or digital silence) is not seen; a tone it tells from a resonance only
+where the quiet moments hold enough of the peak's band (a narrow low peak's band outlasts the
+pieces: there a tone that passes the other tests is read as a resonance).
 """
 
 __all__: list[str] = []  # the modules are imported by name

@@ -6,7 +6,8 @@ stages are listed in :mod:`emulate.voice.resonance`).
    kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``), and the least spread of its centre
    and Q that the spectrum it was read on allows (:mod:`emulate.voice.resonance.spread`); a peak
-   whose Q that leaves open (over +-50 %) is not reported.
+   whose Q that leaves open (over +-50 %) is not reported, nor one whose level between the words
+   holds steady, a tone (:mod:`emulate.voice.resonance.steady`), listed apart.
 
 Measured on the controlled grid (``tests/resonance_grid.py``: 30 s takes, which says why;
 ``bench_finders.py`` prints the table): 286 of 288 cases meet frequency within 2 % and Q
@@ -82,6 +83,7 @@ from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, 
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
 from emulate.voice.resonance.spread import with_stated_spread
+from emulate.voice.resonance.steady import is_steady_tone
 from emulate.voice.takes import TakeSource, take_finder
 
 __all__ = ["ResonanceReport", "combine_resonance", "find_resonance"]
@@ -127,6 +129,9 @@ class ResonanceReport:
         The quiet spectrum's excess over the neighbourhood (dB) the finder read, for pictures.
     set_aside : tuple of str
         Pooled reports only: the takes left out and why (see :func:`combine_resonance`).
+    steady_tones_hz : tuple of float
+        Peaks of the quiet moments that are steady tones (a whine, a mains line), not resonances
+        (:mod:`emulate.voice.resonance.steady`), Hz; not pooled.
     digest : str
         One take's samples (:meth:`~emulate.voice.takes.TakeSource.digest`): pooling tells exact
         repeats by it (empty for a pooled report or one made by hand).
@@ -142,6 +147,7 @@ class ResonanceReport:
     excess_db: np.ndarray = field(default=None, repr=False, compare=False)
     set_aside: tuple[str, ...] = ()
     digest: str = field(default="", repr=False, compare=False)
+    steady_tones_hz: tuple[float, ...] = ()
 
 
 @take_finder
@@ -186,15 +192,17 @@ def find_resonance(x, fs: float | None = None) -> ResonanceReport:
         return ResonanceReport(False, refusal, source.seconds, None, (), None)
     grid_hz = spectrum_grid_hz(source.fs)
     spectrum = quiet_spectrum(quiet, lengths, source.fs, grid_hz, FRAME_S)
-    accepted = _one_per_peak(_fitted_peaks(source, grid_hz, spectrum), source, pauses, spans, grid_hz)
+    accepted, tones = _one_per_peak(_fitted_peaks(source, grid_hz, spectrum), source, pauses, spans, grid_hz,
+                                    (quiet, lengths))
     mean = excess_db(spectrum.level_db)
     if not accepted:
         return ResonanceReport(False, "no narrow persistent peak over the neighbourhood", source.seconds,
-                               None, (), None, grid_hz, mean)
+                               None, (), None, grid_hz, mean, steady_tones_hz=tones)
     accepted.sort(key=lambda p: -p.gain_db)
     peak = accepted[0]
     notch = SuggestedNotch.of("resonance", peak.frequency_hz, peak.q, peak.gain_db)
-    return ResonanceReport(True, "", source.seconds, peak, tuple(accepted[1:]), notch, grid_hz, mean)
+    return ResonanceReport(True, "", source.seconds, peak, tuple(accepted[1:]), notch, grid_hz, mean,
+                           steady_tones_hz=tones)
 
 
 def _refusal(source: TakeSource, quiet_s: float) -> str:
@@ -225,23 +233,31 @@ def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[
         [(misfit, peak, long) for misfit, peak in long_peaks]
 
 
-def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz) -> list[ResonancePeak]:
+def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz,
+                  pieces) -> tuple[list[ResonancePeak], tuple[float, ...]]:
     """Of the fits that land on one peak (within 1/24 octave) the one with the least misfit
     (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
     within MAX_GAIN_DB, each with the spreads its report states
     (:func:`emulate.voice.resonance.spread.with_stated_spread`), whose Q the take pins to within
-    MAX_Q_SPREAD."""
-    accepted, ringless = [], []
+    MAX_Q_SPREAD. Also the peaks that are steady tones in the quiet ``pieces`` (the joined quiet
+    moments and their lengths; :mod:`emulate.voice.resonance.steady`), Hz, rather than resonances."""
+    accepted, ringless, tones = [], [], []
     for _, peak, spectrum in sorted(fitted, key=lambda fit: fit[0]):
-        if all(abs(math.log2(peak.frequency_hz / f_hz)) > 1 / 24 for f_hz in [p.frequency_hz for p in accepted] + ringless):
-            read = peak if spectrum.long_frames else read_from_ring(source, pauses, spans, grid_hz, peak)
-            if read is None:
-                ringless.append(peak.frequency_hz)
-            elif read.gain_db <= MAX_GAIN_DB:
-                read = with_stated_spread(grid_hz[: spectrum.level_db.size], spectrum, read)
-                if not read.q_spread > MAX_Q_SPREAD:
-                    accepted.append(read)
-    return accepted
+        taken = [p.frequency_hz for p in accepted] + ringless + tones
+        if any(abs(math.log2(peak.frequency_hz / f_hz)) <= 1 / 24 for f_hz in taken):
+            continue
+        if is_steady_tone(*pieces, source.fs, peak):
+            tones.append(peak.frequency_hz)
+            continue
+        read = peak if spectrum.long_frames else read_from_ring(source, pauses, spans, grid_hz, peak)
+        if read is None:
+            ringless.append(peak.frequency_hz)
+        elif read.gain_db <= MAX_GAIN_DB:
+            read = with_stated_spread(grid_hz[: spectrum.level_db.size], spectrum, read)
+            if not read.q_spread > MAX_Q_SPREAD:
+                accepted.append(read)
+    return accepted, tuple(sorted(tones))
+
 
 #: A reading whose Q the take pins no better than this (relative, one standard deviation) is not
 #: reported: its width could be anything from half to twice the reading. Not tuned: on the grid
