@@ -107,6 +107,12 @@ LONG_MIN_WIDTH = 2.5
 #: Not tuned (no other value tried): at 100 Hz it lies between the Q 5 peaks' 20 Hz and the Q 2
 #: bumps' 45-53 Hz.
 BROAD_WIDTHS = 8.0
+#: A reading whose Q the take pins no better than this (relative, one standard deviation) is not
+#: reported: its width could be anything from half to twice the reading. Not tuned: on the grid
+#: the spread stated is at most 0.24 for a reading of the quiet spectrum and 0.33 for one from the
+#: ring; the one peak the finder read on 72 takes of the hum grid (the skirt of a -20 dBFS 50 Hz
+#: line under a voice, "75 Hz, Q 2.8, +15.6 dB" on 8 s) stated 1.46.
+MAX_Q_SPREAD = 0.5
 
 
 @dataclass(frozen=True)
@@ -259,12 +265,6 @@ def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz,
     return accepted, tuple(sorted(tones))
 
 
-#: A reading whose Q the take pins no better than this (relative, one standard deviation) is not
-#: reported: its width could be anything from half to twice the reading. Not tuned: on the grid
-#: the spread stated is at most 0.23 for a reading of the quiet spectrum and 0.33 for one from the
-#: ring; the one peak the finder read on 72 takes of the hum grid (the skirt of a -20 dBFS 50 Hz
-#: line under a voice, "75 Hz, Q 2.8, +15.6 dB" on 8 s) stated 1.46.
-MAX_Q_SPREAD = 0.5
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).
 OUTLIER_OCTAVES = 1.0 / 12.0
 
