@@ -168,7 +168,8 @@ def resonance(takes, series, plot_path, force, as_json):
         combined = combine_resonance([r for _, r, _ in results], labels=takes)
         pooled = (f"pooled over {len(takes)} takes", combined,
                   _designed([combined.notch] if combined.notch else [], series))
-    text = "\n".join(summary.resonance_text(*r) for r in results + ([pooled] if pooled else []))
+    text = "\n".join([*(summary.resonance_text(*r) for r in results),
+                      *([summary.resonance_text(*pooled, pooled=True)] if pooled else [])])
     text += _set_aside_text(pooled)
     if plot_path:
         first = results[0][1]

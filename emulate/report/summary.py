@@ -412,14 +412,14 @@ def resonance_payload(take, report, designed) -> dict:
             "steady_tones_hz": list(report.steady_tones_hz), "notches": [_notch_fields(d) for d in designed]}
 
 
-def resonance_text(take, report, designed) -> str:
+def resonance_text(take, report, designed, pooled: bool = False) -> str:
     tones = ([f"  steady tones between the words, not resonances: {', '.join(f'{f:.1f} Hz' for f in report.steady_tones_hz)}"
               " (a whine or a mains line: `hum` reads mains hum)"] if report.steady_tones_hz else [])
     if not report.found:
         return "\n".join([f"{take}: no resonance ({report.reason})", *tones])
     p = report.peak
     lines = [f"{take}: resonance at {p.frequency_hz:.1f} Hz, Q {p.q:.1f}, {p.gain_db:+.1f} dB over its "
-             f"neighbourhood, in {p.persistence:.0%} of the take"]
+             f"neighbourhood, in {p.persistence:.0%} of the take{'s' if pooled else ''}"]
     if math.isfinite(p.frequency_spread) and math.isfinite(p.q_spread):
         how = ("read from its ring after the words, which scatter" if p.from_ring else
                "the room's noise it was read on pins it at best to")
