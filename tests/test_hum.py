@@ -153,7 +153,7 @@ class TestCombineHum:
     def test_two_mains_families_are_not_pooled(self):
         # before, the first take's family was kept and the other take dropped without a word
         r = combine_hum([_hum_report(1), _hum_report(4, 60.0)], labels=["a", "b"])
-        assert not r.found and r.reason.startswith("the takes' hum disagree: 50 Hz and 60 Hz mains families")
+        assert not r.found and r.reason.startswith("the takes' fundamentals disagree: 50 to 60 Hz, over 0.1 octave from their median")
 
     def test_hum_in_under_half_the_takes_is_not_found(self):
         clean = [find_hum(voice_like_take(48000, 4.0, pitch_hz=150, sibilance_hz=6000, seed=s)[:, 0], 48000)

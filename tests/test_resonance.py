@@ -338,7 +338,7 @@ class TestCombineResonance:
     def test_two_takes_that_disagree_are_not_averaged(self):
         r = combine_resonance([self._report(630.0), self._report(100.0, 30.0)])
         assert not r.found and r.peak is None
-        assert r.reason.startswith("the takes' peaks disagree: 100 to 630 Hz, over a semitone from their median;")
+        assert r.reason.startswith("the takes' peaks disagree: 100 to 630 Hz, over 0.083 octave from their median;")
 
     def test_takes_within_a_semitone_are_pooled(self):
         assert combine_resonance([self._report(1000.0), self._report(1050.0)]).found

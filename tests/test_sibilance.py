@@ -254,7 +254,8 @@ class TestCombineReports:
         assert r.peak_hz == pytest.approx(6000, rel=0.05)  # as for one take of these bursts
 
     def test_weights_by_sibilant_time(self):
-        low = find_sibilance(bursts_over_tone(48000, 2.0, band_hz=(4500, 5500), period_s=1.0), 48000)
+        # the two peaks within a quarter octave of their median (farther apart they are not pooled)
+        low = find_sibilance(bursts_over_tone(48000, 2.0, band_hz=(5500, 6500), period_s=1.0), 48000)
         high = find_sibilance(bursts_over_tone(48000, 6.0, band_hz=(7000, 8000), period_s=0.3), 48000)
         r = combine_reports([low, high])
         assert high.sibilant_seconds > 5 * low.sibilant_seconds
@@ -286,6 +287,16 @@ class TestCombineReports:
         assert r.peak_hz == pytest.approx(6000, rel=0.05)
         assert len(r.set_aside) == 1 and r.set_aside[0].startswith("odd: its peak")
         assert "octave from the other takes" in r.set_aside[0]
+
+    def test_two_speakers_are_not_pooled(self):
+        # an invented low voice's /s/ near 4.5 kHz and a high one's near 8 kHz (common practice: male
+        # sibilance roughly 2-5 kHz, female 5-10 kHz): before, the pool read the first voice's peak
+        low = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=110, sibilance_hz=4500, seed=1), 48000)
+        high = find_sibilance(voice_like_take(48000, 2.0, pitch_hz=210, sibilance_hz=8000, seed=2), 48000)
+        assert low.usable and high.usable
+        r = combine_reports([low, high], labels=["low", "high"])
+        assert not r.usable and r.reason.startswith("the takes' /s/ peaks disagree: ")
+        assert "over 0.25 octave from their median" in r.reason
 
     def test_unusable_reports_add_only_duration(self):
         good = _take_report(0)

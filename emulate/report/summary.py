@@ -354,7 +354,8 @@ def _sibilance_line(label, report) -> str:
 
 def suggestion_line(report) -> str:
     if not report.usable:
-        return f"  no suggestion: the takes hold no usable /{report.target}/ sibilance"
+        return (f"  no suggestion: the takes hold no usable /{report.target}/ sibilance" if report.classes
+                else f"  no suggestion: {report.reason}")
     kind = "passive (Q 0.25)" if report.suggested_q <= 0.25 else f"active, Q {report.suggested_q:.2f}"
     return (f"  suggested notch for /{report.target}/ {report.suggested_notch_hz:.0f} Hz, {kind}, "
             f"mix {report.suggested_mix:.2f} (about {report.suggested_depth_db:.1f} dB of cut at the notch)")

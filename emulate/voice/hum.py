@@ -46,7 +46,7 @@ import numpy as np
 from emulate.errors import BadValueError
 from emulate.voice.frames import FrameGrid, iter_frame_power
 from emulate.voice.notches import SuggestedNotch
-from emulate.voice.pooling import label_takes, select_takes
+from emulate.voice.pooling import disagreement, label_takes, select_takes
 from emulate.voice.takes import TakeSource, dbfs, take_finder
 
 __all__ = ["HumLine", "HumReport", "combine_hum", "find_hum"]
@@ -378,8 +378,9 @@ def combine_hum(reports, labels=None) -> HumReport:
     duration; the drift spans every segment of every pooled take (one notch must hold its
     depth over all of them); each harmonic's level over the programme is the highest any
     take measured (the notch is deep enough for the worst take). Hum is found when at least
-    half the pooled takes found it, all of one mains family (two takes of different families
-    cannot be told apart: the pooled report says they disagree).
+    half the pooled takes found it and their fundamentals agree (each within OUTLIER_OCTAVES of
+    their median, :func:`emulate.voice.pooling.disagreement`: two takes of different mains
+    cannot be told apart, and the pooled report says they disagree).
 
     Parameters
     ----------
@@ -417,11 +418,11 @@ def combine_hum(reports, labels=None) -> HumReport:
     found = [r for r in pool if r.found]
     if not found or len(found) < len(pool) / 2.0:
         return _not_found(f"hum in {len(found)} of {len(pool)} takes (need half)", seconds, aside)
-    families = sorted({r.mains_hz for r in found})
-    if len(families) > 1:
-        return _not_found(f"the takes' hum disagree: {' and '.join(f'{f:g} Hz' for f in families)} mains families; one "
-                          f"session has one mains, so pool takes of one or read each alone", seconds, aside)
-    mains = families[0]
+    apart = disagreement([r.fundamental_hz for r in found], OUTLIER_OCTAVES, "fundamentals")
+    if apart:
+        return _not_found(f"{apart}; one session has one mains, so pool takes of one or read each alone", seconds, aside)
+    mains = found[0].mains_hz
+    found = [r for r in found if r.mains_hz == mains]
     f0 = float(np.average([r.fundamental_hz for r in found], weights=[r.seconds for r in found]))
     points = [f for r in found for _, f in r.track]
     drift = float(max(points) - min(points))

@@ -3,7 +3,9 @@
 The finders pool their per-take reports the same way (:func:`select_takes`): a take that
 is an exact copy of one already pooled adds nothing (it would double its own weight), and
 when three or more takes agree and one lies far from them, that one is set aside with the
-reason; :func:`label_takes` names the takes for those reasons.
+reason; takes that still disagree are not pooled at all (:func:`disagreement`: two takes cannot
+tell which of them is off, and their mean is neither's); :func:`label_takes` names the takes for
+those reasons.
 
 What this module does *not* do: it does not weight or average; each finder pools its
 own figures.
@@ -15,7 +17,7 @@ import math
 
 import numpy as np
 
-__all__ = ["distinct", "label_takes", "outlying", "select_takes"]
+__all__ = ["disagreement", "distinct", "label_takes", "outlying", "select_takes"]
 
 
 def distinct(keys) -> tuple[list[int], list[int]]:
@@ -141,3 +143,22 @@ from the other takes (median 50 Hz)'])
         aside.append(f"{labels[found[odd]]}: {why}")
         kept.remove(found[odd])
     return kept, aside
+
+
+def disagreement(frequencies_hz, limit_octaves: float, what: str = "peaks") -> str:
+    """Why takes cannot be pooled: one of their frequencies (NaN aside: takes that found nothing)
+    lies more than ``limit_octaves`` from their median; or an empty string.
+
+    Example
+    -------
+    >>> disagreement([4836.0, 7245.0], 0.25, "/s/ peaks")
+    "the takes' /s/ peaks disagree: 4836 to 7245 Hz, over 0.25 octave from their median"
+    >>> disagreement([6000.0, 6300.0, float("nan")], 0.25)
+    ''
+    """
+    f = np.asarray(frequencies_hz, dtype=np.float64)
+    f = f[np.isfinite(f)]
+    if f.size < 2 or np.max(np.abs(np.log2(f / np.median(f)))) <= limit_octaves:
+        return ""
+    return (f"the takes' {what} disagree: {f.min():.4g} to {f.max():.4g} Hz, over {limit_octaves:.2g} octave "
+            f"from their median")

@@ -47,7 +47,7 @@ from emulate.voice.frame_table import FrameTable
 from emulate.voice.frames import (LOG_GRID_HZ, BandSummer, FrameGrid, band_floors, grid_band_power,
                                   grid_density, iter_frame_power, log_band_edges, peak_on_grid, runs,
                                   smooth_on_grid)
-from emulate.voice.pooling import label_takes, select_takes
+from emulate.voice.pooling import disagreement, label_takes, select_takes
 from emulate.voice.takes import TakeSource, check_band, check_seconds, dbfs, take_finder
 
 __all__ = [
@@ -497,7 +497,10 @@ def combine_reports(reports, labels=None) -> SibilanceReport:
     one already pooled (the same samples, by ``digest``; reports without one, by their
     figures) is left out; with three or more usable takes, one whose target
     peak lies more than a quarter octave from the others' (while they agree) is set
-    aside. ``set_aside`` names each take left out and why. The search band is the union.
+    aside; takes whose target peaks still lie more than that from their median are not
+    pooled (the report is unusable and says they disagree: two speakers, or two takes that
+    cannot tell which is off). ``set_aside`` names each take left out and why. The search
+    band is the union.
 
     Parameters
     ----------
@@ -539,6 +542,11 @@ def combine_reports(reports, labels=None) -> SibilanceReport:
     pool = [reports[i] for i in kept]
     band = (min(r.search_band_hz[0] for r in reports), max(r.search_band_hz[1] for r in reports))
     seconds = sum(r.seconds for r in pool)
+    apart = disagreement([r.peak_hz if r.usable else float("nan") for r in pool], OUTLIER_OCTAVES,
+                         f"/{target}/ peaks")
+    if apart:  # not pooled: no class figures to show either
+        return _report(seconds, band, {}, target, f"{apart}; one speaker's sibilance sits in one place, so pool "
+                       f"takes of one speaker or read each alone", aside)
     classes = {kind: _pool_class(kind, pool, band) for kind in KINDS}
     reason = "" if any(r.usable for r in pool) else "no usable takes"
     return _report(seconds, band, classes, target, reason, aside)

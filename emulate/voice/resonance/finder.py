@@ -77,7 +77,7 @@ import numpy as np
 
 from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
-from emulate.voice.pooling import label_takes, select_takes
+from emulate.voice.pooling import disagreement, label_takes, select_takes
 from emulate.voice.resonance.fit import MAX_GAIN_DB, ResonancePeak, accepted_peaks, excess_db, within_band
 from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
@@ -322,9 +322,10 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
     if not found or len(found) < len(pool) / 2.0:
         return ResonanceReport(False, f"a resonance in {len(found)} of {len(pool)} takes (need half)", seconds,
                                None, (), None, set_aside=tuple(aside))
-    disagreement = _disagreement([r.peak.frequency_hz for r in found])
-    if disagreement:
-        return ResonanceReport(False, disagreement, seconds, None, (), None, set_aside=tuple(aside))
+    apart = disagreement([r.peak.frequency_hz for r in found], OUTLIER_OCTAVES)
+    if apart:
+        return ResonanceReport(False, f"{apart}; one room and microphone ring at one frequency, so pool takes of "
+                               f"one or read each alone", seconds, None, (), None, set_aside=tuple(aside))
     w = np.array([r.seconds for r in found])
     f0 = float(2.0 ** np.average([math.log2(r.peak.frequency_hz) for r in found], weights=w))
     q = float(np.average([r.peak.q for r in found], weights=w))
@@ -335,15 +336,6 @@ def combine_resonance(reports, labels=None) -> ResonanceReport:
                          from_ring=all(r.peak.from_ring for r in found))
     return ResonanceReport(True, "", seconds, peak, (), SuggestedNotch.of("resonance", f0, q, gain),
                            set_aside=tuple(aside))
-
-
-def _disagreement(frequencies_hz) -> str:
-    """Why the takes' peaks cannot be pooled (one lies over OUTLIER_OCTAVES from their median), or ""."""
-    f = np.asarray(frequencies_hz, dtype=np.float64)
-    if np.max(np.abs(np.log2(f / np.median(f)))) <= OUTLIER_OCTAVES:
-        return ""
-    return (f"the takes' peaks disagree: {f.min():.4g} to {f.max():.4g} Hz, over a semitone from their median; "
-            f"one room and microphone ring at one frequency, so pool takes of one or read each alone")
 
 
 def _weighted_spread(weights, spreads) -> float:
