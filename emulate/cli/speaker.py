@@ -215,7 +215,7 @@ def _from_finder(takes, series, impedance, options) -> dict:
     _reports, found = pooled_sibilance(takes)
     if not found.usable:
         raise BadValueError(f"the sibilance finder found nothing usable in {len(takes)} take(s) ({found.reason}); "
-                            "nothing was saved; give takes of the speaker with speech in them")
+                            "nothing was saved; give takes of one speaker with sibilant speech in them")
     q = None if found.suggested_q < PASSIVE_BELOW_Q else round(min(found.suggested_q, 20.0), 3)
     made = _from_target(f"{found.suggested_notch_hz:.6g}", q, series, impedance, options)
     if options.get("mix") is None:
