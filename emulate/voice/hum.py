@@ -421,8 +421,7 @@ def combine_hum(reports, labels=None) -> HumReport:
     apart = disagreement([r.fundamental_hz for r in found], OUTLIER_OCTAVES, "fundamentals")
     if apart:
         return _not_found(f"{apart}; one session has one mains, so pool takes of one or read each alone", seconds, aside)
-    mains = found[0].mains_hz
-    found = [r for r in found if r.mains_hz == mains]
+    mains = found[0].mains_hz  # one family: 50 and 60 Hz lie 0.26 octave apart, beyond the agreement above
     f0 = float(np.average([r.fundamental_hz for r in found], weights=[r.seconds for r in found]))
     points = [f for r in found for _, f in r.track]
     drift = float(max(points) - min(points))

@@ -123,7 +123,8 @@ class ResonancePeak:
         reading of the quiet spectrum the least spread its material allows
         (:mod:`emulate.voice.resonance.spread`), for one read from its ring the scatter of the
         decays it was read from (:func:`emulate.voice.resonance.ring.median_spread`; the Q's
-        is its poles' Q's); nan where not known.
+        widened by the gain's, :func:`emulate.voice.resonance.spread.with_stated_spread`); nan
+        where not known.
     from_ring : bool
         Read from its ring after the words (stage 8) rather than from the quiet spectrum.
     """

@@ -6,13 +6,13 @@ around the peak its power ``P = |z|^2`` (``z`` the band's analytic signal) is ex
 distributed, so ``kappa = mean(P^2) / mean(P)^2`` is 2. A tone (a fan's or a supply's whine, wobbling
 or not, or a mains line) has a steady level: ``kappa`` 1, and a tone ``r`` times the band's noise
 power gives ``(r^2 + 4 r + 2) / (r + 1)^2`` (1.44 at ``r = 3``). So the quiet moments are passed
-through a band as wide as the peak's half-gain band (a second-order Butterworth band-pass, each
-quiet piece on its own, its first SETTLE_BANDS band periods dropped), ``P`` taken once per band
-period (nearly independent), and a peak is a tone when ``kappa`` lies under TONE_KAPPA and
-under 2 by more than STANDARD_ERRORS of its standard error for Gaussian noise, ``2 / sqrt(n)``
-(the delta method on ``mean(P^2) / mean(P)^2`` for an exponential ``P``: variance ``(20 - 32 +
-16) / n``). Where the pieces hold too little (a narrow low peak's band periods outlast the pieces)
-nothing is told.
+through bands 1, 2 and 4 times as wide as the peak's half-gain band (BAND_WIDTHS; a second-order
+Butterworth band-pass, each quiet piece on its own, its first SETTLE_BANDS band periods
+dropped), ``P`` taken once per band period (nearly independent), and a peak is a tone when, in
+any of them, ``kappa`` lies under TONE_KAPPA and under 2 by more than STANDARD_ERRORS of its
+standard error for Gaussian noise, ``2 / sqrt(n)`` (the delta method on ``mean(P^2) /
+mean(P)^2`` for an exponential ``P``: variance ``(20 - 32 + 16) / n``). Where the pieces hold
+too little (a narrow low peak's band periods outlast the pieces) nothing is told.
 
 Measured: tones of -80 and -70 dBFS at 250 Hz, 1 kHz and 3 kHz under a voice-like 30 s take,
 their frequency steady or wobbling +-1 or +-3 % at 0.3 Hz: the steady ones were not reported
