@@ -15,6 +15,10 @@
   processes are its workers without looking inside the executor.
 - :func:`end_workers` kills a :class:`WorkerPool`'s workers at once (used when work
   is interrupted, so the parent need not wait for the renders in flight).
+- :func:`quiet_late_faults` is called once a stop has become the command's one
+  line: a stop can land inside a library's constructor (numba's compiler, for one),
+  and the half-built object's finaliser then fails when it is freed, which Python
+  would print as a traceback after that line.
 """
 
 from __future__ import annotations
@@ -30,7 +34,7 @@ import time
 from collections.abc import Iterator
 from concurrent.futures import ProcessPoolExecutor
 
-__all__ = ["Stopped", "stop_on_signals", "watch_parent", "WorkerPool", "end_workers"]
+__all__ = ["Stopped", "stop_on_signals", "quiet_late_faults", "watch_parent", "WorkerPool", "end_workers"]
 
 _PR_SET_PDEATHSIG = 1  # linux/prctl.h
 _WATCH_S = 0.5
@@ -67,6 +71,26 @@ def stop_on_signals() -> Iterator[None]:
     finally:
         for number, handler in previous.items():
             signal.signal(number, handler)
+
+
+def quiet_late_faults() -> None:
+    """After a stop, drop the faults of objects freed late instead of printing their tracebacks.
+
+    The command is ending and has said so in one line; what the interrupted library
+    leaves half-built fails in its finaliser (``Exception ignored in ...``), which
+    changes nothing but would print a traceback. ``EMULATE_DEBUG=1`` still shows them.
+
+    Example
+    -------
+    >>> callable(quiet_late_faults)
+    True
+    """
+    if not os.environ.get("EMULATE_DEBUG"):
+        sys.unraisablehook = _drop
+
+
+def _drop(_unraisable) -> None:
+    pass
 
 
 def watch_parent(parent: int | None = None) -> None:

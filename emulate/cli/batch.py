@@ -6,7 +6,8 @@ from pathlib import Path
 
 import click
 
-from emulate.cli.options import emit, force_option, json_option, main, presets_option, printable, progress, store_from
+from emulate.cli.options import (emit, force_option, json_option, main, presets_option, printable, progress, stopped,
+                                  store_from)
 from emulate import files
 from emulate.errors import EmulateError
 from emulate.lifetime import Stopped
@@ -61,7 +62,7 @@ def batch_command(plan_path, speaker, preset, takes, out_dir, presets_dir, worke
         with progress(checked.frames, "batch") as bar:
             results = batch.run_batch(checked, runner, progress=bar.update)
     except KeyboardInterrupt as exc:
-        raise click.ClickException(_interrupted(exc, the_plan)) from None
+        raise stopped(_interrupted(exc, the_plan)) from None
     except EmulateError as exc:
         if not files.kept_files(mark):  # nothing complete: the error says it all
             raise

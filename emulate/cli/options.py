@@ -19,7 +19,7 @@ import click
 from emulate import __version__, files, lifetime
 from emulate.errors import BadValueError, EmulateError, EmulateWarning
 
-__all__ = ["PART_HELP", "COMMAND_MODULES", "COMMAND_SUMMARY", "interrupted_line", "printable", "main",
+__all__ = ["PART_HELP", "COMMAND_MODULES", "COMMAND_SUMMARY", "interrupted_line", "stopped", "printable", "main",
            "PRESETS_ENV_VAR", "presets_option", "store_from", "circuit_options", "network_from_options",
            "force_option", "check_plot", "json_option", "emit", "run_quietly", "progress"]
 
@@ -111,7 +111,7 @@ class _Group(click.Group):
                 where = f"{exc.filename}: " if exc.filename else ""
                 raise click.ClickException(printable(f"{where}{exc.strerror or exc}; nothing was written")) from None
             except KeyboardInterrupt as exc:  # Ctrl-C, SIGTERM, SIGHUP (lifetime.Stopped)
-                raise click.ClickException(interrupted_line(exc, mark)) from None
+                raise stopped(interrupted_line(exc, mark)) from None
             except Exception as exc:  # a fault no check foresaw: still one line (EMULATE_DEBUG=1 shows it all)
                 if os.environ.get("EMULATE_DEBUG"):
                     raise
@@ -121,6 +121,12 @@ class _Group(click.Group):
                 shown = {str(item.message) for item in caught if issubclass(item.category, EmulateWarning)}
                 for message in sorted(shown, key=[str(item.message) for item in caught].index):
                     click.echo(printable(f"warning: {message}"), err=True)
+
+
+def stopped(line: str) -> click.ClickException:
+    """The one line a stopped command ends with; nothing the stop left half-built prints after it."""
+    lifetime.quiet_late_faults()
+    return click.ClickException(line)
 
 
 def interrupted_line(exc: KeyboardInterrupt, mark: int = 0) -> str:
@@ -281,7 +287,7 @@ def run_quietly(function):
         try:
             return function(*args, **kwargs)
         except KeyboardInterrupt as exc:
-            raise click.ClickException(interrupted_line(exc, mark)) from None
+            raise stopped(interrupted_line(exc, mark)) from None
     return wrapper
 
 

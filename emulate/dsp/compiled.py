@@ -42,6 +42,8 @@ from pathlib import Path
 
 import numpy as np
 
+from emulate import lifetime
+
 __all__ = ["kernels", "kernels_folder", "compiled_module", "build", "EXPORTS", "MODULE_NAME", "ENV_VAR"]
 
 ENV_VAR = "EMULATE_KERNELS_DIR"
@@ -289,6 +291,7 @@ def main() -> int:
     try:
         path = build()
     except KeyboardInterrupt:
+        lifetime.quiet_late_faults()
         print("interrupted: nothing was kept", file=sys.stderr)
         return 130
     except Exception as exc:  # one line, never a traceback
