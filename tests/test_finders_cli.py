@@ -107,12 +107,14 @@ class TestResonanceCommand:
         assert take["found"] and take["peak"]["frequency_hz"] == pytest.approx(1600, rel=0.02)
         assert take["notches"][0]["notch_hz"] == pytest.approx(take["peak"]["frequency_hz"])
         assert 0 < take["peak"]["frequency_spread"] < 0.02 and 0 < take["peak"]["q_spread"] < 0.3
+        assert take["takes_read"] == 1 and take["more_takes_to_aim"] >= 0
 
     @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)
     def test_text_and_pooled(self, takes):
         result = run("resonance", takes["ringing"], takes["clean"])
         assert result.exit_code == 0 and "resonance at 16" in result.output
         assert "pins it at best to +-" in result.output and "pooled over 2 takes" in result.output
+        assert "enough to aim a notch within 2% in frequency and 30% in Q" in result.output
         assert "in 50% of the takes" in result.output  # found in one take of the two
 
     @pytest.mark.slow  # a cheaper check of the same path runs by default (issue 8: the CPU budget)

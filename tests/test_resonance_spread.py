@@ -24,7 +24,7 @@ from emulate.voice.resonance.finder import ResonanceReport, combine_resonance, f
 from emulate.voice.resonance.fit import ResonancePeak, peaking_db
 from emulate.voice.resonance.quiet import GRID_PER_OCTAVE, QuietSpectrum, spectrum_grid_hz
 from emulate.voice.resonance.ring import median_spread
-from emulate.voice.resonance.spread import least_spread
+from emulate.voice.resonance.spread import AIM_FREQ_REL, AIM_Q_REL, least_spread, more_takes_to_aim
 
 UNSMEARED = (np.zeros(1), np.ones(1))
 
@@ -124,6 +124,58 @@ class TestInTheReport:
         peak = ResonancePeak(1000.0, 8.0, 12.0, 1.0)
         r = combine_resonance([ResonanceReport(True, "", 10.0, peak, (), None)])
         assert math.isnan(r.peak.frequency_spread) and math.isnan(r.peak.q_spread)
+
+
+class TestMoreTakesToAim:
+    """The mean of n independent readings of equal weight scatters 1/sqrt(n) as much as one (the
+    standard error of a mean, any statistics text): the advice asks for the fewest takes whose pooled
+    spread is within half the aim (two standard deviations inside it), on the worse of the two figures."""
+
+    @pytest.mark.parametrize("spread_f,spread_q", [(0.017, 0.19), (0.002, 0.51), (0.021, 0.33), (0.0105, 0.05)])
+    @pytest.mark.parametrize("takes", [1, 3])
+    def test_the_fewest_takes_whose_pooled_spread_is_within_half_the_aim(self, spread_f, spread_q, takes):
+        total = takes + more_takes_to_aim(ResonancePeak(100.0, 5.0, 6.0, 1.0, spread_f, spread_q), takes)
+
+        def pooled_within_half(n):  # the spreads of these takes' reading pooled with n - takes more like them
+            scale = math.sqrt(takes / n)
+            return spread_f * scale <= AIM_FREQ_REL / 2 + 1e-12 and spread_q * scale <= AIM_Q_REL / 2 + 1e-12
+
+        assert pooled_within_half(total) and (total == takes or not pooled_within_half(total - 1))
+
+    def test_pinned_or_unknown_asks_for_none(self):
+        assert more_takes_to_aim(ResonancePeak(100.0, 5.0, 6.0, 1.0, 0.01, 0.15)) == 0  # exactly half the aim
+        assert more_takes_to_aim(ResonancePeak(100.0, 5.0, 6.0, 1.0)) == 0  # spreads not known
+
+    def test_a_pooled_report_counts_its_takes(self):
+        def report(f):
+            return ResonanceReport(True, "", 30.0, ResonancePeak(f, 2.0, 6.0, 1.0, 0.017, 0.19), (), None)
+
+        one = report(100.0)
+        pooled = combine_resonance([report(100.0), report(101.0), report(99.5)])
+        assert (one.takes_read, one.more_takes_to_aim) == (1, 2)  # 1.7 %: 2.9 takes' worth
+        assert pooled.takes_read == 3 and pooled.more_takes_to_aim == 0
+
+    def test_the_report_says_it(self):
+        from emulate.report.summary import resonance_text
+
+        def text(spread_f, spread_q, pooled=False):
+            peak = ResonancePeak(100.0, 2.0, 6.0, 1.0, spread_f, spread_q)
+            return resonance_text("a.wav", ResonanceReport(True, "", 30.0, peak, (), None), [], pooled)
+
+        assert ("about 2 more takes like this one, pooled, would pin it within 2% in frequency and 30% in Q "
+                "(19 times in 20)") in text(0.017, 0.19)
+        assert "about 1 more take like these, pooled" in text(0.012, 0.19, pooled=True)
+        assert "enough to aim a notch within 2% in frequency and 30% in Q" in text(0.005, 0.1)
+
+    @pytest.mark.slow
+    @pytest.mark.parametrize("name", ["fc=100 gain=6 q=2 fs=48000 pitch=110", "fc=100 gain=6 q=20 fs=48000 pitch=210"])
+    def test_the_grids_one_take_misses_are_met_as_advised(self, name):
+        # the two grid cases one 30 s take misses (bench_finders prints them); each report asks for
+        # more takes, and pooled as it asks the reading meets the issue's 2 % and 30 %
+        case = next(c for c in grid.grid_cases() if c.name == name)
+        report, takes = grid.read_as_advised(case)
+        assert not grid.judge(takes[0], case)[0] and takes[0].more_takes_to_aim > 0
+        assert grid.judge(report, case)[0] and len(takes) > 1
 
 
 class TestRingSpread:

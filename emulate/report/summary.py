@@ -410,7 +410,8 @@ def resonance_payload(take, report, designed) -> dict:
 
     return {"take": str(take), "found": report.found, "reason": report.reason, "seconds": report.seconds,
             "peak": peak(report.peak), "others": [peak(p) for p in report.others],
-            "steady_tones_hz": list(report.steady_tones_hz), "notches": [_notch_fields(d) for d in designed]}
+            "steady_tones_hz": list(report.steady_tones_hz), "takes_read": report.takes_read,
+            "more_takes_to_aim": report.more_takes_to_aim, "notches": [_notch_fields(d) for d in designed]}
 
 
 def resonance_text(take, report, designed, pooled: bool = False) -> str:
@@ -425,9 +426,21 @@ def resonance_text(take, report, designed, pooled: bool = False) -> str:
         how = ("read from its ring after the words, which scatter" if p.from_ring else
                "the room's noise it was read on pins it at best to")
         lines.append(f"  {how} +-{p.frequency_spread:.1%} in frequency and +-{p.q_spread:.0%} in Q "
-                     f"(one standard deviation); more takes narrow it")
+                     f"(one standard deviation); {_aim_words(report, pooled)}")
     lines += [f"  also {o.frequency_hz:.1f} Hz, Q {o.q:.1f}, {o.gain_db:+.1f} dB" for o in report.others]
     return "\n".join(lines + tones + _notch_lines(designed))
+
+
+def _aim_words(report, pooled: bool) -> str:
+    """Whether the reading is pinned well enough to aim a notch, or how many more takes would pin it."""
+    from emulate.voice.resonance.spread import AIM_FREQ_REL, AIM_Q_REL
+
+    aim = f"within {AIM_FREQ_REL:.0%} in frequency and {AIM_Q_REL:.0%} in Q (19 times in 20)"
+    more = report.more_takes_to_aim
+    if not more:
+        return f"enough to aim a notch {aim}"
+    like = "like these" if pooled else "like this one"
+    return f"about {more} more take{'s' if more > 1 else ''} {like}, pooled, would pin it {aim}"
 
 
 def sweep_text(result, csv_path, json_path, page_path=None) -> str:
