@@ -7,6 +7,7 @@ Every test is hermetic: the user's own presets folder and data folder point into
 test's temporary folder, so no test sees (or writes) what a user saved; matplotlib's
 configuration folder (a user's matplotlibrc, its font cache) is a folder of the test
 session's own, so no picture depends on the user's settings. No test uses the network.
+A command stopped in process replaces ``sys.unraisablehook``; pytest's is put back after each test.
 """
 
 import os
@@ -22,6 +23,7 @@ import gc
 import itertools
 import re
 import shutil
+import sys
 import tempfile
 from pathlib import Path
 
@@ -56,6 +58,14 @@ def hermetic_user_folders(monkeypatch):
     monkeypatch.setenv("XDG_DATA_HOME", str(home / "data"))
     monkeypatch.setenv("EMULATE_KERNELS_DIR", str(home / "kernels"))
     return home
+
+
+@pytest.fixture(autouse=True)
+def unraisable_faults_still_reported(monkeypatch):
+    """A command stopped in process (Ctrl-C injected through click's runner) replaces
+    ``sys.unraisablehook`` for good (``lifetime.quiet_late_faults``: the real process is ending);
+    put pytest's back after each test, so later tests' unraisable faults are still reported."""
+    monkeypatch.setattr(sys, "unraisablehook", sys.unraisablehook)
 
 
 _NEXT_TMP = itertools.count()
