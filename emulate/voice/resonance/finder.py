@@ -3,7 +3,9 @@ stages are listed in :mod:`emulate.voice.resonance`).
 
 7. of the fits that land on one peak (within 1/24 octave; each candidate starts its own
    fit, and least squares can stop in a local minimum) the one with the least misfit is
-   kept; the strongest accepted peak is reported with a suggested notch: at its frequency, its
+   kept, among those that explain the spectrum over the spans of them all as acceptance asks
+   over their own (each misfit is its own span's, and a fit of the peak's top alone, read over
+   a narrower span than the fits of the whole peak, can show the least); the strongest accepted peak is reported with a suggested notch: at its frequency, its
    Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``), and the least spread of its centre
    and Q that the spectrum it was read on allows (:mod:`emulate.voice.resonance.spread`); a peak
    whose Q that leaves open (over +-50 %) is not reported, nor one whose level between the words
@@ -84,7 +86,7 @@ import numpy as np
 from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import disagreement, label_takes, select_takes
-from emulate.voice.resonance.fit import MAX_GAIN_DB, ResonancePeak, accepted_peaks, excess_db, within_band
+from emulate.voice.resonance.fit import MAX_GAIN_DB, Fitted, ResonancePeak, accepted_peaks, excess_db, explains, within_band
 from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
@@ -236,8 +238,8 @@ def _refusal(source: TakeSource, quiet_s: float) -> str:
     return ""
 
 
-def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[tuple[float, ResonancePeak, QuietSpectrum]]:
-    """Every accepted fit (misfit, peak, the spectrum it was read on), stage 6's choice made: in the
+def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[tuple[Fitted, QuietSpectrum]]:
+    """Every accepted fit and the spectrum it was read on, stage 6's choice made: in the
     low range where the long frames average more time than the quiet moments, the long frames'
     peaks, less those within the band of a broad peak read on the quiet moments; elsewhere the
     quiet moments'."""
@@ -246,26 +248,24 @@ def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[
     longer = np.zeros(grid_hz.size, bool)
     longer[: low.size] = (low < LOW_RANGE_HZ) & (long.seconds > spectrum.seconds)
     broad = accepted_peaks(grid_hz, spectrum, longer, BROAD_WIDTHS / FRAME_S, gain_top_db=gain_top_db)
-    long_peaks = [(misfit, peak) for misfit, peak in
-                  accepted_peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
-                  if not any(within_band(peak.frequency_hz, wide) for _, wide in broad)]
+    long_peaks = [fit for fit in accepted_peaks(low, long, longer[: low.size], LONG_MIN_WIDTH / LONG_FRAME_S)
+                  if not any(within_band(fit.peak.frequency_hz, wide.peak) for wide in broad)]
     quiet_peaks = accepted_peaks(grid_hz, spectrum, ~longer, gain_top_db=gain_top_db) + broad
-    return [(misfit, peak, spectrum) for misfit, peak in quiet_peaks] + \
-        [(misfit, peak, long) for misfit, peak in long_peaks]
+    return [(fit, spectrum) for fit in quiet_peaks] + [(fit, long) for fit in long_peaks]
 
 
 def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz,
                   pieces) -> tuple[list[ResonancePeak], tuple[float, ...]]:
-    """Of the fits that land on one peak (within 1/24 octave) the one with the least misfit
-    (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
+    """Of the fits that land on one peak (within 1/24 octave) and explain the spans of them all
+    (:func:`_explaining`) the one with the least misfit (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
     within MAX_GAIN_DB, each with the spreads its report states
     (:func:`emulate.voice.resonance.spread.with_stated_spread`), whose Q the take pins to within
     MAX_Q_SPREAD. Also the peaks that are steady tones in the quiet ``pieces`` (the joined quiet
     moments and their lengths; :mod:`emulate.voice.resonance.steady`), Hz, rather than resonances."""
     accepted, ringless, tones = [], [], []
-    for _, peak, spectrum in sorted(fitted, key=lambda fit: fit[0]):
+    for (_, peak, _), spectrum in sorted(_explaining(fitted, grid_hz), key=lambda fit: fit[0].misfit):
         taken = [p.frequency_hz for p in accepted] + ringless + tones
-        if any(abs(math.log2(peak.frequency_hz / f_hz)) <= 1 / 24 for f_hz in taken):
+        if any(_same_peak(peak.frequency_hz, f_hz) for f_hz in taken):
             continue
         if is_steady_tone(*pieces, source.fs, peak):
             tones.append(peak.frequency_hz)
@@ -278,6 +278,26 @@ def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz,
             if not read.q_spread > MAX_Q_SPREAD:
                 accepted.append(read)
     return accepted, tuple(sorted(tones))
+
+
+def _explaining(fitted, grid_hz) -> list[tuple[Fitted, QuietSpectrum]]:
+    """The fits that explain, as acceptance asks (:func:`emulate.voice.resonance.fit.explains`), the
+    spectrum they were read on over the spans of all the fits on it that land on their peak:
+    each fit's misfit is its own span's, and a fit of the peak's top alone, read over a narrower
+    span than the fits of the whole peak, can show the least (stage 7)."""
+    kept = []
+    for fit, spectrum in fitted:
+        spans = [other.span_hz for other, on in fitted
+                 if on is spectrum and _same_peak(other.peak.frequency_hz, fit.peak.frequency_hz)]
+        common = (min(lo for lo, _ in spans), max(hi for _, hi in spans))
+        if explains(grid_hz[: spectrum.level_db.size], spectrum, fit.peak, common):
+            kept.append((fit, spectrum))
+    return kept
+
+
+def _same_peak(f_hz: float, g_hz: float) -> bool:
+    """Whether two fits at ``f_hz`` and ``g_hz`` land on one peak: within 1/24 octave."""
+    return abs(math.log2(f_hz / g_hz)) <= 1 / 24
 
 
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).

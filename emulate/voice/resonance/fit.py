@@ -28,13 +28,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
 from emulate.voice.resonance.quiet import GRID_PER_OCTAVE, MIN_FRAMES, QuietSpectrum
 
-__all__ = ["ResonancePeak", "SpanRule", "accepted_peaks", "excess_db", "heights", "peaking_db", "smeared_db",
-           "span_rule", "within_band", "within_widths"]
+__all__ = ["Fitted", "ResonancePeak", "SpanRule", "accepted_peaks", "excess_db", "explains", "heights", "peaking_db",
+           "smeared_db", "span_rule", "within_band", "within_widths"]
 
 #: The neighbourhood's half width, octaves.
 NEIGHBOURHOOD_OCTAVES = 1.0
@@ -167,6 +168,15 @@ def smeared_db(f_hz, f0: float, gain: float, q: float, kernel) -> np.ndarray:
     return 10.0 * np.log10(_peaking_power(f, f0, gain, q) @ weights)
 
 
+class Fitted(NamedTuple):
+    """An accepted fit: its RMS misfit (dB) over the span it read (``span_hz``, low and high
+    ends), and the peak."""
+
+    misfit: float
+    peak: ResonancePeak
+    span_hz: tuple[float, float]
+
+
 def excess_db(level_db: np.ndarray) -> np.ndarray:
     """Level over its running median within +-NEIGHBOURHOOD_OCTAVES, dB."""
     from scipy.ndimage import median_filter
@@ -175,8 +185,9 @@ def excess_db(level_db: np.ndarray) -> np.ndarray:
     return level_db - median_filter(level_db, size=width, mode="nearest")
 
 
-def _fit(grid_hz, quiet: QuietSpectrum, excess, i: int) -> tuple[float, float, float, float] | None:
-    """Fit the smeared peaking response + a level tilt near grid point ``i``; (f0, gain, Q, misfit).
+def _fit(grid_hz, quiet: QuietSpectrum, excess, i: int) -> tuple[float, float, float, float, tuple] | None:
+    """Fit the smeared peaking response + a level tilt near grid point ``i``; (f0, gain, Q, misfit,
+    the span read, Hz).
 
     The first fit reads ``span_rule(quiet).widths`` half-gain widths of the first guess (the excess's half-height
     run); its span is then set again from the fitted Q and the fit repeated from its result
@@ -197,13 +208,14 @@ def _fit(grid_hz, quiet: QuietSpectrum, excess, i: int) -> tuple[float, float, f
         if better is None:
             break
         fit = better
-    return None if fit is None else (*(float(v) for v in fit[0][:3]), fit[1])
+    return None if fit is None else (*(float(v) for v in fit[0][:3]), fit[1], fit[2])
 
 
-def _fit_span(grid_hz, quiet: QuietSpectrum, centre: float, q_span: float, start) -> tuple[np.ndarray, float] | None:
+def _fit_span(grid_hz, quiet: QuietSpectrum, centre: float, q_span: float,
+              start) -> tuple[np.ndarray, float, tuple[float, float]] | None:
     """One least-squares fit (see :func:`_fit`) over ``span_rule(quiet).widths`` half-gain widths (of Q ``q_span``)
-    either side of ``centre``, from ``start`` (f0, gain, Q, level, tilt); the parameters and the
-    RMS misfit, dB, or None when the span holds under 7 grid points."""
+    either side of ``centre``, from ``start`` (f0, gain, Q, level, tilt); the parameters, the
+    RMS misfit, dB, and the span, Hz, or None when the span holds under 7 grid points."""
     from scipy.optimize import least_squares
 
     rule = span_rule(quiet)
@@ -224,7 +236,7 @@ def _fit_span(grid_hz, quiet: QuietSpectrum, centre: float, q_span: float, start
         result = least_squares(misfit, np.clip(start, *bounds), bounds=bounds)
     except ValueError:
         return None
-    return result.x, float(np.sqrt(np.mean(result.fun**2)))
+    return result.x, float(np.sqrt(np.mean(result.fun**2))), span
 
 
 def _standing_share(grid_hz, quiet: QuietSpectrum, f0: float, gain: float, q: float) -> float:
@@ -249,8 +261,25 @@ def heights(f, f0: float, gain: float, q: float, kernel, levels) -> list[float]:
     """How many times the peaking response (``f0``, ``gain``, ``q``, as the quiet spectrum sees it:
     smeared by ``kernel``) each of ``levels`` (dB at ``f``) shows: its least-squares scale, with a
     level and a tilt free too."""
-    columns = np.stack((smeared_db(f, f0, gain, q, kernel), np.ones(f.size), np.log2(f / f0)), axis=1)
+    columns = np.column_stack((smeared_db(f, f0, gain, q, kernel), _level_and_tilt(f, f0)))
     return [float(np.linalg.lstsq(columns, level, rcond=None)[0][0]) for level in levels]
+
+
+def _level_and_tilt(f, f0: float) -> np.ndarray:
+    """The columns a level and a tilt (per octave from ``f0``) add to a least-squares fit at ``f``."""
+    return np.stack((np.ones(f.size), np.log2(f / f0)), axis=1)
+
+
+def explains(grid_hz, quiet: QuietSpectrum, peak: ResonancePeak, span: tuple[float, float]) -> bool:
+    """Whether ``peak``'s response, as ``quiet`` sees it, explains ``quiet`` over ``span`` (Hz) as
+    acceptance asks over its own (stage 5): RMS misfit within MAX_MISFIT of its gain, a level and
+    a tilt free (by linear least squares; the peak's frequency, gain and Q as fitted)."""
+    inside = (grid_hz >= span[0]) & (grid_hz <= span[1])
+    f = grid_hz[inside]
+    rest = quiet.level_db[inside] - smeared_db(f, peak.frequency_hz, peak.gain_db, peak.q, quiet.kernel)
+    columns = _level_and_tilt(f, peak.frequency_hz)
+    misfit = rest - columns @ np.linalg.lstsq(columns, rest, rcond=None)[0]
+    return bool(np.sqrt(np.mean(misfit**2)) <= MAX_MISFIT * peak.gain_db)
 
 
 def _candidates(quiet: QuietSpectrum, excess: np.ndarray, inside: np.ndarray) -> list[tuple[float, int]]:
@@ -266,18 +295,18 @@ def _candidates(quiet: QuietSpectrum, excess: np.ndarray, inside: np.ndarray) ->
 
 
 def accepted_peaks(grid_hz, quiet: QuietSpectrum, inside: np.ndarray, min_width_hz: float = 0.0,
-                   gain_top_db=lambda f0_hz: MAX_GAIN_DB) -> list[tuple[float, ResonancePeak]]:
+                   gain_top_db=lambda f0_hz: MAX_GAIN_DB) -> list[Fitted]:
     """Accepted peaks of the quiet spectrum where ``inside`` (stages 3-5, this module's docstring), at
     least ``min_width_hz`` wide between the half-gain points and standing at most
     ``gain_top_db(f0_hz)`` (dB; on the quiet moments a ringing peak may stand higher until stage 8
-    reads its gain again: :func:`emulate.voice.resonance.ring.gain_top_db`), with their RMS
-    misfits, dB."""
+    reads its gain again: :func:`emulate.voice.resonance.ring.gain_top_db`), each with its misfit and
+    span."""
     accepted, excess = [], excess_db(quiet.level_db)
     for _, i in _candidates(quiet, excess, inside):
         fit = _fit(grid_hz, quiet, excess, i)
         if fit is None:
             continue
-        f0, gain, q, misfit = fit
+        f0, gain, q, misfit, span = fit
         if span_rule(quiet).least_octaves and f0 * 2.0 ** -span_rule(quiet).least_octaves < grid_hz[0]:
             continue
         if not MIN_GAIN_DB <= gain <= gain_top_db(f0) or not MIN_Q <= q <= MAX_Q or misfit > MAX_MISFIT * gain \
@@ -285,7 +314,7 @@ def accepted_peaks(grid_hz, quiet: QuietSpectrum, inside: np.ndarray, min_width_
             continue
         share = _standing_share(grid_hz, quiet, f0, gain, q)
         if share >= PERSISTENT_SHARE:
-            accepted.append((misfit, ResonancePeak(f0, q, gain, share)))
+            accepted.append(Fitted(misfit, ResonancePeak(f0, q, gain, share), span))
     return accepted
 
 
