@@ -274,46 +274,44 @@ class TestSmearingKernel:
         assert (offsets[1] - offsets[0]) / pieces.max() > 1.5 * (offsets[1] - offsets[0]) / one.max()
 
 
+def _exact_peak(f0: float, gain: float, q: float):
+    """The cookbook's peaking biquad at 384 kHz (its response by scipy.signal.freqz) on a tilted
+    level, as a continuous 0.2 s Hann frame sees it: the grid (Hz) and the quiet spectrum."""
+    from emulate.voice.frames import FrameGrid
+    from emulate.voice.resonance.quiet import QuietSpectrum, smearing_kernel, spectrum_grid_hz
+
+    grid_hz = spectrum_grid_hz(48000)
+    _, h = signal.freqz(*grid.peaking_ba(f0, gain, q, 384000), worN=grid_hz, fs=384000)
+    level = 20 * np.log10(np.abs(h)) - 3.0 * np.log2(grid_hz / 1000.0) - 60.0
+    kernel = smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
+    return grid_hz, QuietSpectrum(0.2, kernel, level, (level, level), 100, 4.0)
+
+
 class TestFit:
     def test_an_exact_narrow_peak_from_the_biquad(self):
-        # the cookbook's peaking biquad at 384 kHz (its response by scipy.signal.freqz) on a
-        # tilted level, as a continuous 0.2 s Hann frame sees it: the fit, whose span is set
-        # again from the fitted Q, returns the centre, gain and Q applied (resonance_grid.applied_peak)
-        from emulate.voice.frames import FrameGrid
+        # the exact peak (_exact_peak): the fit, whose span is set again from the fitted Q,
+        # returns the centre, gain and Q applied (resonance_grid.applied_peak)
         from emulate.voice.resonance.fit import _fit, excess_db
-        from emulate.voice.resonance.quiet import QuietSpectrum, smearing_kernel, spectrum_grid_hz
 
-        fs, f0, gain, q = 384000, 630.0, 6.0, 20.0
-        grid_hz = spectrum_grid_hz(48000)
-        _, h = signal.freqz(*grid.peaking_ba(f0, gain, q, fs), worN=grid_hz, fs=fs)
-        level = 20 * np.log10(np.abs(h)) - 3.0 * np.log2(grid_hz / 1000.0) - 60.0
-        kernel = smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
-        quiet = QuietSpectrum(0.2, kernel, level, (level, level), 100, 4.0)
+        f0, gain, q = 630.0, 6.0, 20.0
+        grid_hz, quiet = _exact_peak(f0, gain, q)
         i = int(np.argmin(np.abs(grid_hz - f0)))
-        centre, fitted_gain, fitted_q, misfit, _ = _fit(grid_hz, quiet, excess_db(level), i)
-        applied_f0, applied_q = grid.applied_peak(f0, gain, q, fs)
+        centre, fitted_gain, fitted_q, misfit, _ = _fit(grid_hz, quiet, excess_db(quiet.level_db), i)
+        applied_f0, applied_q = grid.applied_peak(f0, gain, q, 384000)
         assert centre == pytest.approx(applied_f0, rel=0.002)
         assert fitted_gain == pytest.approx(gain, abs=0.2) and fitted_q == pytest.approx(applied_q, rel=0.05)
 
     def test_a_fit_of_the_peaks_top_alone_gives_way_to_the_whole_peak(self):
-        # the cookbook's +15 dB Q 5 peaking biquad at 630 Hz (scipy.signal.freqz; its Q by
-        # applied_peak) on a tilted level: the exact peak explains its span; a reading of the top
-        # alone (twice the Q, +6.8 dB: the figures a noisy 100 Hz take gave) read over a narrower
-        # span does not explain the whole peak's, so of the two fits landing on the peak the whole
-        # peak's is kept, though its own span's misfit is the larger
-        from emulate.voice.frames import FrameGrid
+        # a +15 dB Q 5 exact peak (_exact_peak; its Q by applied_peak) explains its span; a reading
+        # of the top alone (twice the Q, +6.8 dB: the figures a noisy 100 Hz take gave) read over
+        # a narrower span does not explain the whole peak's, so of the two fits landing on the
+        # peak the whole peak's is kept, though its own span's misfit is the larger
         from emulate.voice.resonance.finder import _explaining
         from emulate.voice.resonance.fit import QUIET_SPAN, Fitted, explains
-        from emulate.voice.resonance.quiet import QuietSpectrum, smearing_kernel, spectrum_grid_hz
 
-        fs, f0, gain, q = 384000, 630.0, 15.0, 5.0
-        grid_hz = spectrum_grid_hz(48000)
-        _, h = signal.freqz(*grid.peaking_ba(f0, gain, q, fs), worN=grid_hz, fs=fs)
-        level = 20 * np.log10(np.abs(h)) - 3.0 * np.log2(grid_hz / 1000.0) - 60.0
-        kernel = smearing_kernel(FrameGrid.at(48000, 0.2, 0.05, padded=True), np.array([48000 * 4]))
-        quiet = QuietSpectrum(0.2, kernel, level, (level, level), 100, 4.0)
-        applied_f0, applied_q = grid.applied_peak(f0, gain, q, fs)
-        whole, top = ResonancePeak(applied_f0, applied_q, gain, 1.0), ResonancePeak(applied_f0, 2 * applied_q, 6.8, 1.0)
+        grid_hz, quiet = _exact_peak(630.0, 15.0, 5.0)
+        applied_f0, applied_q = grid.applied_peak(630.0, 15.0, 5.0, 384000)
+        whole, top = ResonancePeak(applied_f0, applied_q, 15.0, 1.0), ResonancePeak(applied_f0, 2 * applied_q, 6.8, 1.0)
         spans = [(applied_f0 * 2.0 ** -QUIET_SPAN.reach(p.q), applied_f0 * 2.0 ** QUIET_SPAN.reach(p.q)) for p in (whole, top)]
         assert explains(grid_hz, quiet, whole, spans[0]) and not explains(grid_hz, quiet, top, spans[0])
         fits = [(Fitted(1.3, whole, spans[0]), quiet), (Fitted(0.9, top, spans[1]), quiet)]
