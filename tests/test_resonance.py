@@ -312,7 +312,8 @@ class TestFit:
         grid_hz, quiet = _exact_peak(630.0, 15.0, 5.0)
         applied_f0, applied_q = grid.applied_peak(630.0, 15.0, 5.0, 384000)
         whole, top = ResonancePeak(applied_f0, applied_q, 15.0, 1.0), ResonancePeak(applied_f0, 2 * applied_q, 6.8, 1.0)
-        spans = [(applied_f0 * 2.0 ** -QUIET_SPAN.reach(p.q), applied_f0 * 2.0 ** QUIET_SPAN.reach(p.q)) for p in (whole, top)]
+        spans = [(applied_f0 * 2.0 ** -QUIET_SPAN.reach(p.q), applied_f0 * 2.0 ** QUIET_SPAN.reach(p.q))
+                 for p in (whole, top)]
         assert explains(grid_hz, quiet, whole, spans[0]) and not explains(grid_hz, quiet, top, spans[0])
         fits = [(Fitted(1.3, whole, spans[0]), quiet), (Fitted(0.9, top, spans[1]), quiet)]
         assert [fit.peak for fit, _ in _explaining(fits, grid_hz)] == [whole]

@@ -16,11 +16,11 @@ what was measured; import the modules by name, e.g. ``emulate.voice.resonance.fi
 5. accepted: gain, Q, misfit and persistence in both halves of the quiet material (:mod:`.fit`);
 6. the low range (under 400 Hz) also on 1 s frames gated per grid point (:mod:`.quiet`; which
    reading counts where, :mod:`.finder`);
-7. one fit per peak (of those that explain the spans of all the fits on it), the strongest reported with a suggested notch (:mod:`.finder`) and the least
-   spread of its centre and Q that the material it was read on allows, and how many more takes
-   would pin it within the aim (:mod:`.spread`); a peak
-   whose level between the words holds steady is a tone (a whine, a mains line), listed apart
-   and not reported as a resonance (:mod:`.steady`);
+7. one fit per peak (of those that explain the spans of all the fits on it), the strongest
+   reported with a suggested notch (:mod:`.finder`) and the least spread of its centre and Q
+   that the material it was read on allows, and how many more takes would pin it within the aim
+   (:mod:`.spread`); a peak whose level between the words holds steady is a tone (a whine, a
+   mains line), listed apart and not reported as a resonance (:mod:`.steady`);
 8. a low ringing peak's centre, Q and gain read from its ring after the words; under 160 Hz a
    peak that does not ring is not reported (:mod:`.ring`).
 

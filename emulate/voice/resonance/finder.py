@@ -5,9 +5,10 @@ stages are listed in :mod:`emulate.voice.resonance`).
    fit, and least squares can stop in a local minimum) the one with the least misfit is
    kept, among those that explain the spectrum over the spans of them all as acceptance asks
    over their own (each misfit is its own span's, and a fit of the peak's top alone, read over
-   a narrower span than the fits of the whole peak, can show the least); the strongest accepted peak is reported with a suggested notch: at its frequency, its
-   Q, as deep as its gain (``mix = 1 - 10**(-gain/20)``), and the least spread of its centre
-   and Q that the spectrum it was read on allows (:mod:`emulate.voice.resonance.spread`); a peak
+   a narrower span than the fits of the whole peak, can show the least); the strongest accepted
+   peak is reported with a suggested notch: at its frequency, its Q, as deep as its gain
+   (``mix = 1 - 10**(-gain/20)``), and the least spread of its centre and Q that the spectrum it
+   was read on allows (:mod:`emulate.voice.resonance.spread`); a peak
    whose Q that leaves open (over +-50 %) is not reported, nor one whose level between the words
    holds steady, a tone (:mod:`emulate.voice.resonance.steady`), listed apart.
 
@@ -68,7 +69,8 @@ on one take; the miss: a +6 dB Q 2 bump at 100 Hz under a 210 Hz voice the long 
 the two more it asked for (pooled: "in 1 of 3 takes"), three Q 2 bumps 2.05-2.14 % high (the +1-2 %
 lean of those bumps), and a +6 dB Q 10 peak's Q 36 % low at 2.6 stated spreads, the tail the
 advice's 19 times in 20 leaves; at 100 Hz the errors over the stated spread, RMS, were 1.34-1.44
-in frequency on the fresh seeds against 1.12 on the grid's own. More time is not there to be had: 0.2 s frames over the whole take,
+in frequency on the fresh seeds against 1.12 on the grid's own. More time is not there to be had:
+0.2 s frames over the whole take,
 each grid point kept where the power within +-1/12 octave lies within 3 dB of the pauses', hold
 5.0 s at 100 Hz against the pauses' 6.5 s (the 110 Hz voice covers 60-300 Hz whenever it
 sounds; 8.7 s even at 62 Hz), and the pauses (gated on the power in all alone, less one frame
@@ -101,7 +103,8 @@ import numpy as np
 from emulate.errors import BadValueError
 from emulate.voice.notches import SuggestedNotch
 from emulate.voice.pooling import disagreement, label_takes, select_takes
-from emulate.voice.resonance.fit import MAX_GAIN_DB, Fitted, ResonancePeak, accepted_peaks, excess_db, explains, within_band
+from emulate.voice.resonance.fit import (MAX_GAIN_DB, Fitted, ResonancePeak, accepted_peaks, excess_db, explains,
+                                         same_peak, within_band)
 from emulate.voice.resonance.quiet import (FRAME_S, LONG_FRAME_S, LOW_RANGE_HZ, QuietSpectrum, long_spectrum,
                                            quiet_moments, quiet_spans, quiet_spectrum, spectrum_grid_hz)
 from emulate.voice.resonance.ring import gain_top_db, read_from_ring
@@ -272,15 +275,15 @@ def _fitted_peaks(source: TakeSource, grid_hz, spectrum: QuietSpectrum) -> list[
 def _one_per_peak(fitted, source: TakeSource, pauses, spans, grid_hz,
                   pieces) -> tuple[list[ResonancePeak], tuple[float, ...]]:
     """Of the fits that land on one peak (within 1/24 octave) and explain the spans of them all
-    (:func:`_explaining`) the one with the least misfit (stage 7), a peak read on the quiet moments read again from its ring (stage 8); those
-    within MAX_GAIN_DB, each with the spreads its report states
+    (:func:`_explaining`) the one with the least misfit (stage 7), a peak read on the quiet moments
+    read again from its ring (stage 8); those within MAX_GAIN_DB, each with the spreads its report states
     (:func:`emulate.voice.resonance.spread.with_stated_spread`), whose Q the take pins to within
     MAX_Q_SPREAD. Also the peaks that are steady tones in the quiet ``pieces`` (the joined quiet
     moments and their lengths; :mod:`emulate.voice.resonance.steady`), Hz, rather than resonances."""
     accepted, ringless, tones = [], [], []
     for (_, peak, _), spectrum in sorted(_explaining(fitted, grid_hz), key=lambda fit: fit[0].misfit):
         taken = [p.frequency_hz for p in accepted] + ringless + tones
-        if any(_same_peak(peak.frequency_hz, f_hz) for f_hz in taken):
+        if any(same_peak(peak.frequency_hz, f_hz) for f_hz in taken):
             continue
         if is_steady_tone(*pieces, source.fs, peak):
             tones.append(peak.frequency_hz)
@@ -303,16 +306,11 @@ def _explaining(fitted, grid_hz) -> list[tuple[Fitted, QuietSpectrum]]:
     kept = []
     for fit, spectrum in fitted:
         spans = [other.span_hz for other, on in fitted
-                 if on is spectrum and _same_peak(other.peak.frequency_hz, fit.peak.frequency_hz)]
+                 if on is spectrum and same_peak(other.peak.frequency_hz, fit.peak.frequency_hz)]
         common = (min(lo for lo, _ in spans), max(hi for _, hi in spans))
-        if explains(grid_hz[: spectrum.level_db.size], spectrum, fit.peak, common):
-            kept.append((fit, spectrum))
+        if len(spans) == 1 or explains(grid_hz[: spectrum.level_db.size], spectrum, fit.peak, common):
+            kept.append((fit, spectrum))  # a fit alone on its peak passed acceptance over its own span
     return kept
-
-
-def _same_peak(f_hz: float, g_hz: float) -> bool:
-    """Whether two fits at ``f_hz`` and ``g_hz`` land on one peak: within 1/24 octave."""
-    return abs(math.log2(f_hz / g_hz)) <= 1 / 24
 
 
 #: Pooling sets aside a take whose peak lies this far from the others', octaves (a semitone).

@@ -35,7 +35,7 @@ import numpy as np
 from emulate.voice.resonance.quiet import GRID_PER_OCTAVE, MIN_FRAMES, QuietSpectrum
 
 __all__ = ["Fitted", "ResonancePeak", "SpanRule", "accepted_peaks", "excess_db", "explains", "heights", "peaking_db",
-           "smeared_db", "span_rule", "within_band", "within_widths"]
+           "same_peak", "smeared_db", "span_rule", "within_band", "within_widths"]
 
 #: The neighbourhood's half width, octaves.
 NEIGHBOURHOOD_OCTAVES = 1.0
@@ -316,6 +316,11 @@ def accepted_peaks(grid_hz, quiet: QuietSpectrum, inside: np.ndarray, min_width_
         if share >= PERSISTENT_SHARE:
             accepted.append(Fitted(misfit, ResonancePeak(f0, q, gain, share), span))
     return accepted
+
+
+def same_peak(f_hz: float, g_hz: float) -> bool:
+    """Whether two readings at ``f_hz`` and ``g_hz`` land on one peak: within 1/24 octave."""
+    return abs(math.log2(f_hz / g_hz)) <= 1 / 24
 
 
 def within_band(f_hz: float, peak: ResonancePeak) -> bool:

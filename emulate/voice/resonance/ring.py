@@ -49,7 +49,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from emulate.voice.frames import FrameGrid, iter_mono
-from emulate.voice.resonance.fit import (FIT_WIDTHS, MAX_GAIN_DB, MAX_Q, MIN_Q, ResonancePeak, heights,
+from emulate.voice.resonance.fit import (FIT_WIDTHS, MAX_GAIN_DB, MAX_Q, MIN_Q, ResonancePeak, heights, same_peak,
                                          within_widths)
 from emulate.voice.resonance.quiet import (FRAME_S, LOW_RANGE_HZ, MIN_FRAMES, QUIET_PERCENTILE, cut_spans, joined,
                                            power_db, quiet_spectrum, smearing_kernel)
@@ -274,8 +274,8 @@ def read_from_ring(source: TakeSource, pauses, spans, grid_hz, peak: ResonancePe
         return None  # the measuring band's own ring and no other
     if ring is None or not math.isfinite(ring.hz):
         return None if peak.frequency_hz < DECAY_TOP_HZ else peak  # no ring: not a resonance (see above)
-    if abs(math.log2(ring.hz / peak.frequency_hz)) > 1 / 24:
-        return peak  # another peak's ring (farther than stage 7's one peak)
+    if not same_peak(ring.hz, peak.frequency_hz):
+        return peak  # another peak's ring
     gain = _least_ring_gain(source, spans, ring)
     gain = _unrung_gain(source, spans, grid_hz, ring) if gain is None else gain
     gain = peak.gain_db if gain is None else gain
